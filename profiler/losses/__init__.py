@@ -1,0 +1,1 @@
+"""Propagation losses: free space, diffraction, gases, rain."""
