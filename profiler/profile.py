@@ -11,7 +11,7 @@ from .errors import InputError
 from .geodesy import PathLines, sample_paths
 from .terrain import ElevationModel
 
-__all__ = ["Profiles", "build_profiles", "default_spacing_m"]
+__all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m"]
 
 
 @dataclass(frozen=True)
@@ -63,6 +63,12 @@ def default_spacing_m(model: ElevationModel, lon_deg: float, lat_deg: float) -> 
     return cell / 2.0
 
 
+def default_spacings_m(model: ElevationModel, lon_deg: ArrayLike, lat_deg: ArrayLike) -> np.ndarray:
+    """Half the ground size of the finest raster cell at many points, metres (15 m where unknown)."""
+    cell = model.cell_sizes_m(lon_deg, lat_deg)
+    return np.where(np.isfinite(cell) & (cell > 0), cell / 2.0, 15.0)
+
+
 def build_profiles(
     model: ElevationModel,
     lat_a_deg: ArrayLike,
@@ -86,16 +92,18 @@ def build_profiles(
     n_paths = lat_a.shape[0]
     labels = labels or [f"path {i + 1}" for i in range(n_paths)]
     if spacing_m is None:
-        spacing = np.array([default_spacing_m(model, lo, la) for lo, la in zip(lon_a, lat_a)])
+        spacing = default_spacings_m(model, lon_a, lat_a)
     else:
         spacing = np.broadcast_to(np.asarray(spacing_m, dtype=float), (n_paths,)).copy()
         if np.any(~np.isfinite(spacing)) or np.any(spacing <= 0):
             raise InputError(f"sample spacing must be a positive number of metres, got {spacing_m!r}")
     lat, lon, dist, n, lines = sample_paths(lat_a, lon_a, lat_b, lon_b, spacing)
     ground, covered = model.sample(lon, lat)
-    problems: list[str | None] = []
-    for i in range(n_paths):
-        problems.append(_problem(labels[i], lat[i], lon[i], dist[i], ground[i], covered[i], n[i]))
+    # Padded columns repeat site b, so whole-row checks equal checks of the real samples.
+    fine = covered.all(axis=1) & ~np.isnan(ground).any(axis=1)
+    problems: list[str | None] = [None] * n_paths
+    for i in np.flatnonzero(~fine):
+        problems[i] = _problem(labels[i], lat[i], lon[i], dist[i], ground[i], covered[i], n[i])
     return Profiles(
         lat_deg=lat,
         lon_deg=lon,

@@ -169,6 +169,7 @@ class ElevationModel:
         state["_datasets"] = {}
         state["_cache"] = {}
         state.pop("_transformers", None)
+        state.pop("_back_transformers", None)
         return state
 
     def close(self) -> None:
@@ -224,15 +225,43 @@ class ElevationModel:
         return data
 
     def _pixel_coords(self, i: int, lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        from .kernels import pixel_numpy
+
+        x, y = self._transformers[i].transform(lon, lat)
+        return pixel_numpy(np.asarray(x, dtype=float), np.asarray(y, dtype=float), self.sources[i].transform)
+
+    def _sample_source(self, i: int, lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Bilinear heights of one raster at 1-D points: ``(values, inside)``, NaN where none."""
+        from .kernels import affine_gather, pixel_numpy
+
         s = self.sources[i]
         x, y = self._transformers[i].transform(lon, lat)
-        a, b, c, d, e, f = s.transform
-        det = a * e - b * d
-        xs = np.asarray(x, dtype=float) - c
-        ys = np.asarray(y, dtype=float) - f
-        col = (e * xs - b * ys) / det
-        row = (-d * xs + a * ys) / det
-        return col, row
+        x = np.asarray(x, dtype=float)
+        y = np.asarray(y, dtype=float)
+        cached = self._cache.get(s.path)
+        if cached is not None:
+            r0, c0, block = cached
+            return affine_gather(block, r0, c0, x, y, s.transform, s.width, s.height)
+        col, row = pixel_numpy(x, y, s.transform)
+        inside = (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
+        out = np.full(col.shape, np.nan)
+        if inside.any():
+            out[inside] = self._bilinear(s, col[inside], row[inside])
+        return out, inside
+
+    def covers(self, lon_deg: ArrayLike, lat_deg: ArrayLike) -> np.ndarray:
+        """True where some raster covers the WGS84 point (no cells are read)."""
+        lon = np.atleast_1d(np.asarray(lon_deg, dtype=float))
+        lat = np.atleast_1d(np.asarray(lat_deg, dtype=float))
+        out = np.zeros(lon.shape, dtype=bool)
+        for i, s in enumerate(self.sources):
+            col, row = self._pixel_coords(i, lon, lat)
+            out |= (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
+        return out
+
+    def total_cells(self) -> int:
+        """Number of cells in all rasters (to decide whether to preload)."""
+        return int(sum(s.width * s.height for s in self.sources))
 
     def sample(self, lon_deg: ArrayLike, lat_deg: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
         """Bilinear elevation in metres at WGS84 points.
@@ -240,6 +269,8 @@ class ElevationModel:
         Returns ``(elevation_m, covered)``: elevation is NaN where no raster
         covers the point or the cells hold nodata (unless a fill is set);
         ``covered`` is False only where the point lies outside every raster.
+        Rasters preloaded with :meth:`preload` are gathered by a compiled
+        kernel for large batches (same numbers as the numpy path).
         """
         lon = np.asarray(lon_deg, dtype=float)
         lat = np.asarray(lat_deg, dtype=float)
@@ -249,16 +280,19 @@ class ElevationModel:
         covered = np.zeros(lon.shape, dtype=bool)
         todo = np.ones(lon.shape, dtype=bool)
         for i, s in enumerate(self.sources):
+            if i == 0:
+                values, inside = self._sample_source(i, lon, lat)
+                covered |= inside
+                out = values
+                todo = np.isnan(values)
+                continue
             if not todo.any():
                 break
             idx = np.flatnonzero(todo)
-            col, row = self._pixel_coords(i, lon[idx], lat[idx])
-            inside = (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
+            values, inside = self._sample_source(i, lon[idx], lat[idx])
             if not inside.any():
                 continue
-            idx, col, row = idx[inside], col[inside], row[inside]
-            covered[idx] = True
-            values = self._bilinear(s, col, row)
+            covered[idx[inside]] = True
             good = ~np.isnan(values)
             out[idx[good]] = values[good]
             todo[idx[good]] = False
@@ -269,12 +303,9 @@ class ElevationModel:
     def _bilinear(self, s: RasterSource, col: np.ndarray, row: np.ndarray) -> np.ndarray:
         # Cell centres sit at half-integer pixel coordinates; beyond the outer
         # centres the edge value is held (points up to half a cell outside).
-        x = np.clip(col - 0.5, 0.0, s.width - 1.0)
-        y = np.clip(row - 0.5, 0.0, s.height - 1.0)
-        x0 = np.floor(x).astype(np.int64)
-        y0 = np.floor(y).astype(np.int64)
-        x0 = np.minimum(x0, max(s.width - 2, 0))
-        y0 = np.minimum(y0, max(s.height - 2, 0))
+        from .kernels import cell_numpy, gather_bilinear
+
+        x, y, x0, y0 = cell_numpy(col, row, s.width, s.height)
         cached = self._cache.get(s.path)
         if cached is not None:
             r0, c0, block = cached
@@ -283,31 +314,49 @@ class ElevationModel:
             r1 = min(int(y0.max()) + 2, s.height)
             c1 = min(int(x0.max()) + 2, s.width)
             block = self._read(s, r0, c0, r1 - r0, c1 - c0)
-        return bilinear_gather(block, x - c0, y - r0, x0 - c0, y0 - r0)
+        return gather_bilinear(block, x - c0, y - r0, x0 - c0, y0 - r0)
 
     def cell_size_m(self, lon_deg: float, lat_deg: float) -> float:
         """Smallest ground size in metres of a cell of the finest raster covering the point."""
+        return float(self.cell_sizes_m(np.array([lon_deg]), np.array([lat_deg]))[0])
+
+    @cached_property
+    def _back_transformers(self) -> list:
+        from pyproj import CRS, Transformer
+
+        return [
+            Transformer.from_crs(CRS.from_wkt(s.crs_wkt), "EPSG:4326", always_xy=True)
+            for s in self.sources
+        ]
+
+    def cell_sizes_m(self, lon_deg: ArrayLike, lat_deg: ArrayLike) -> np.ndarray:
+        """Ground size in metres of the finest raster cell at many points (NaN where none covers).
+
+        The cell's two sides are measured on the WGS84 ellipsoid (pyproj.Geod.inv).
+        """
         from .geodesy import WGS84
 
-        sizes = []
+        lon = np.atleast_1d(np.asarray(lon_deg, dtype=float))
+        lat = np.atleast_1d(np.asarray(lat_deg, dtype=float))
+        best = np.full(lon.shape, np.inf)
         for i, s in enumerate(self.sources):
-            col, row = self._pixel_coords(i, np.array([lon_deg]), np.array([lat_deg]))
-            if not (0 <= col[0] <= s.width and 0 <= row[0] <= s.height):
+            col, row = self._pixel_coords(i, lon, lat)
+            inside = (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
+            if not inside.any():
                 continue
+            col, row = col[inside], row[inside]
             a, b, c, d, e, f = s.transform
-            x0 = c + a * col[0] + b * row[0]
-            y0 = f + d * col[0] + e * row[0]
-            pts_x = np.array([x0, x0 + a, x0 + b])
-            pts_y = np.array([y0, y0 + d, y0 + e])
-            from pyproj import CRS, Transformer
-
-            back = Transformer.from_crs(CRS.from_wkt(s.crs_wkt), "EPSG:4326", always_xy=True)
-            lo, la = back.transform(pts_x, pts_y)
-            _, _, dist = WGS84.inv(np.repeat(lo[0], 2), np.repeat(la[0], 2), lo[1:], la[1:])
-            sizes.append(float(np.min(dist)))
-        if not sizes:
-            return float("nan")
-        return min(sizes)
+            x0 = c + a * col + b * row
+            y0 = f + d * col + e * row
+            lo, la = self._back_transformers[i].transform(
+                np.concatenate([x0, x0 + a, x0 + b]), np.concatenate([y0, y0 + d, y0 + e])
+            )
+            lo = np.asarray(lo, dtype=float).reshape(3, -1)
+            la = np.asarray(la, dtype=float).reshape(3, -1)
+            _, _, dist = WGS84.inv(np.tile(lo[0], 2), np.tile(la[0], 2), lo[1:].ravel(), la[1:].ravel())
+            size = np.min(np.asarray(dist, dtype=float).reshape(2, -1), axis=0)
+            best[inside] = np.minimum(best[inside], size)
+        return np.where(np.isfinite(best), best, np.nan)
 
     def checksum(self, path: str) -> str:
         """SHA-256 of a raster file, hex (for provenance)."""
@@ -336,23 +385,10 @@ class ElevationModel:
 def bilinear_gather(
     block: np.ndarray, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray
 ) -> np.ndarray:
-    """Bilinear interpolation of ``block`` at fractional cell-centre coordinates.
+    """Bilinear interpolation of ``block`` (see :func:`profiler.kernels.gather_bilinear`)."""
+    from .kernels import gather_bilinear
 
-    ``x``, ``y`` are positions in cell-centre units within ``block``;
-    ``x0``, ``y0`` the integer lower-left neighbours.  Any NaN neighbour makes the result NaN.
-    """
-    h, w = block.shape
-    x1 = np.minimum(x0 + 1, w - 1)
-    y1 = np.minimum(y0 + 1, h - 1)
-    fx = x - x0
-    fy = y - y0
-    v00 = block[y0, x0]
-    v01 = block[y0, x1]
-    v10 = block[y1, x0]
-    v11 = block[y1, x1]
-    top = v00 + (v01 - v00) * fx
-    bottom = v10 + (v11 - v10) * fx
-    return top + (bottom - top) * fy
+    return gather_bilinear(block, x, y, x0, y0)
 
 
 def open_elevation(

@@ -1,0 +1,244 @@
+"""Inner loops of sampling: geodesic interpolation and bilinear gather.
+
+Each kernel exists twice with the same arithmetic in the same order: a numpy
+version (small batches, no compile cost) and a numba version used for large
+batches when numba is installed.  Both give bit-identical results (tested in
+tests/test_kernels.py), so a link checked alone and the same link screened
+among a million give the same numbers.  Pure functions, no I/O.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+__all__ = ["hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "NUMBA_MIN_SAMPLES"]
+
+#: Batches with at least this many samples use the compiled kernels.
+NUMBA_MIN_SAMPLES = 20_000
+
+_compiled: dict[str, object] = {}
+
+
+def use_numba(n_samples: int) -> bool:
+    """True when a batch of ``n_samples`` should use the numba kernels (and numba imports)."""
+    if os.environ.get("TERRAHOP_NO_NUMBA"):
+        return False
+    if n_samples < NUMBA_MIN_SAMPLES:
+        return False
+    return _numba_kernels() is not None
+
+
+def _numba_kernels() -> dict | None:
+    if "failed" in _compiled:
+        return None
+    if not _compiled:
+        try:
+            import numba  # noqa: F401
+        except ImportError:
+            _compiled["failed"] = True
+            return None
+        _compiled.update(_build())
+    return _compiled
+
+
+# ---------------------------------------------------------------- numpy versions
+
+def hermite_numpy(
+    distance_m: np.ndarray, offsets: np.ndarray, step_m: np.ndarray,
+    lat: np.ndarray, lon: np.ndarray, dlat: np.ndarray, dlon: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Cubic Hermite interpolation of geodesic nodes at ``distance_m`` (paths, samples).
+
+    Node j of path i sits at ``offsets[i] + j``, ``step_m[i]`` apart, with
+    positions ``lat``/``lon`` and derivatives ``dlat``/``dlon`` per metre.
+    Basis functions h00, h10, h01, h11 of the cubic Hermite spline
+    (any numerical analysis text, e.g. Burden & Faires, Numerical Analysis, 3.5).
+    """
+    segments = (np.diff(offsets) - 1)[:, None]
+    h = step_m[:, None]
+    seg = np.minimum(np.floor(distance_m / h).astype(np.int64), segments - 1)
+    t = (distance_m - seg * h) / h
+    j0 = offsets[:-1, None] + seg
+    j1 = j0 + 1
+    t2 = t * t
+    t3 = t2 * t
+    h00 = 2.0 * t3 - 3.0 * t2 + 1.0
+    h10 = t3 - 2.0 * t2 + t
+    h01 = -2.0 * t3 + 3.0 * t2
+    h11 = t3 - t2
+    out_lat = h00 * lat[j0] + h10 * h * dlat[j0] + h01 * lat[j1] + h11 * h * dlat[j1]
+    out_lon = h00 * lon[j0] + h10 * h * dlon[j0] + h01 * lon[j1] + h11 * h * dlon[j1]
+    return out_lat, out_lon
+
+
+def pixel_numpy(
+    x: np.ndarray, y: np.ndarray, transform: tuple[float, ...]
+) -> tuple[np.ndarray, np.ndarray]:
+    """Fractional column and row of CRS coordinates under an affine geotransform."""
+    a, b, c, d, e, f = transform
+    det = a * e - b * d
+    xs = x - c
+    ys = y - f
+    col = (e * xs - b * ys) / det
+    row = (-d * xs + a * ys) / det
+    return col, row
+
+
+def cell_numpy(
+    col: np.ndarray, row: np.ndarray, width: int, height: int
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Cell-centre coordinates (edge value held) and lower-left neighbour indices."""
+    x = np.clip(col - 0.5, 0.0, width - 1.0)
+    y = np.clip(row - 0.5, 0.0, height - 1.0)
+    x0 = np.minimum(np.floor(x).astype(np.int64), max(width - 2, 0))
+    y0 = np.minimum(np.floor(y).astype(np.int64), max(height - 2, 0))
+    return x, y, x0, y0
+
+
+def gather_bilinear(
+    block: np.ndarray, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray
+) -> np.ndarray:
+    """Bilinear interpolation of ``block`` at fractional cell-centre coordinates.
+
+    ``x``, ``y`` are positions in cell-centre units within ``block``; ``x0``,
+    ``y0`` the integer lower-left neighbours.  Any NaN neighbour makes the
+    result NaN (bilinear interpolation: e.g. Press et al., Numerical Recipes, 3.6).
+    """
+    h, w = block.shape
+    x1 = np.minimum(x0 + 1, w - 1)
+    y1 = np.minimum(y0 + 1, h - 1)
+    fx = x - x0
+    fy = y - y0
+    v00 = block[y0, x0]
+    v01 = block[y0, x1]
+    v10 = block[y1, x0]
+    v11 = block[y1, x1]
+    top = v00 + (v01 - v00) * fx
+    bottom = v10 + (v11 - v10) * fx
+    return top + (bottom - top) * fy
+
+
+def affine_gather_numpy(
+    block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
+    transform: tuple[float, ...], width: int, height: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Elevation from a cached block at CRS points: ``(values, inside)``; NaN outside."""
+    col, row = pixel_numpy(x, y, transform)
+    inside = (col >= 0) & (col <= width) & (row >= 0) & (row <= height)
+    out = np.full(col.shape, np.nan)
+    if inside.all():
+        xx, yy, x0, y0 = cell_numpy(col, row, width, height)
+        return gather_bilinear(block, xx - col0, yy - row0, x0 - col0, y0 - row0), inside
+    xx, yy, x0, y0 = cell_numpy(col[inside], row[inside], width, height)
+    out[inside] = gather_bilinear(block, xx - col0, yy - row0, x0 - col0, y0 - row0)
+    return out, inside
+
+
+# ---------------------------------------------------------------- numba versions
+
+def _build() -> dict:
+    import numba
+
+    @numba.njit(cache=True, nogil=True)
+    def hermite_nb(distance_m, offsets, step_m, lat, lon, dlat, dlon):  # pragma: no cover - compiled
+        n_paths, width = distance_m.shape
+        out_lat = np.empty((n_paths, width))
+        out_lon = np.empty((n_paths, width))
+        for i in range(n_paths):
+            h = step_m[i]
+            segments = offsets[i + 1] - offsets[i] - 1
+            for c in range(width):
+                dist = distance_m[i, c]
+                seg = np.int64(np.floor(dist / h))
+                if seg > segments - 1:
+                    seg = segments - 1
+                t = (dist - seg * h) / h
+                j0 = offsets[i] + seg
+                j1 = j0 + 1
+                t2 = t * t
+                t3 = t2 * t
+                h00 = 2.0 * t3 - 3.0 * t2 + 1.0
+                h10 = t3 - 2.0 * t2 + t
+                h01 = -2.0 * t3 + 3.0 * t2
+                h11 = t3 - t2
+                out_lat[i, c] = h00 * lat[j0] + h10 * h * dlat[j0] + h01 * lat[j1] + h11 * h * dlat[j1]
+                out_lon[i, c] = h00 * lon[j0] + h10 * h * dlon[j0] + h01 * lon[j1] + h11 * h * dlon[j1]
+        return out_lat, out_lon
+
+    @numba.njit(cache=True, nogil=True)
+    def affine_gather_nb(block, row0, col0, x, y, a, b, c, d, e, f, width, height):  # pragma: no cover
+        n = x.size
+        out = np.empty(n)
+        inside = np.empty(n, dtype=np.bool_)
+        det = a * e - b * d
+        bh, bw = block.shape
+        wmax = width - 1.0
+        hmax = height - 1.0
+        x0max = max(width - 2, 0)
+        y0max = max(height - 2, 0)
+        for k in range(n):
+            xs = x[k] - c
+            ys = y[k] - f
+            colk = (e * xs - b * ys) / det
+            rowk = (-d * xs + a * ys) / det
+            ok = (colk >= 0) and (colk <= width) and (rowk >= 0) and (rowk <= height)
+            inside[k] = ok
+            if not ok:
+                out[k] = np.nan
+                continue
+            xx = min(max(colk - 0.5, 0.0), wmax)
+            yy = min(max(rowk - 0.5, 0.0), hmax)
+            ix = min(np.int64(np.floor(xx)), x0max)
+            iy = min(np.int64(np.floor(yy)), y0max)
+            xr = xx - col0
+            yr = yy - row0
+            ix -= col0
+            iy -= row0
+            ix1 = min(ix + 1, bw - 1)
+            iy1 = min(iy + 1, bh - 1)
+            fx = xr - ix
+            fy = yr - iy
+            v00 = block[iy, ix]
+            v01 = block[iy, ix1]
+            v10 = block[iy1, ix]
+            v11 = block[iy1, ix1]
+            top = v00 + (v01 - v00) * fx
+            bottom = v10 + (v11 - v10) * fx
+            out[k] = top + (bottom - top) * fy
+        return out, inside
+
+    return {"hermite": hermite_nb, "affine_gather": affine_gather_nb}
+
+
+# ---------------------------------------------------------------- dispatch
+
+def hermite_paths(
+    distance_m: np.ndarray, offsets: np.ndarray, step_m: np.ndarray,
+    lat: np.ndarray, lon: np.ndarray, dlat: np.ndarray, dlon: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Interpolated latitude and longitude of samples (see :func:`hermite_numpy`)."""
+    if use_numba(distance_m.size):
+        k = _numba_kernels()
+        return k["hermite"](np.ascontiguousarray(distance_m), offsets, step_m, lat, lon, dlat, dlon)
+    return hermite_numpy(distance_m, offsets, step_m, lat, lon, dlat, dlon)
+
+
+def affine_gather(
+    block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
+    transform: tuple[float, ...], width: int, height: int,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Bilinear elevation from a cached block at CRS points ``x``, ``y`` (1-D).
+
+    Returns ``(values, inside)``: ``inside`` is False for points beyond the
+    raster's outer edge (their value is NaN).
+    """
+    if use_numba(x.size) and block.dtype == np.float64:
+        k = _numba_kernels()
+        a, b, c, d, e, f = (float(v) for v in transform)
+        return k["affine_gather"](
+            block, int(row0), int(col0), np.ascontiguousarray(x, dtype=float),
+            np.ascontiguousarray(y, dtype=float), a, b, c, d, e, f, int(width), int(height),
+        )
+    return affine_gather_numpy(block, row0, col0, x, y, transform, width, height)

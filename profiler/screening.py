@@ -1,0 +1,799 @@
+"""Screening many candidate pairs: pair generation, chunked batch evaluation,
+parallel or distributed execution, streamed and resumable results.
+
+The numbers of every pair come from :func:`profiler.link.analyse_links`, the
+engine of ``terrahop link``: a screened pair gives exactly the numbers a
+single check gives.  Pairs are generated lazily in a fixed order and cut into
+chunks of ``chunk_pairs``; chunks are evaluated in-process, on a local process
+pool, or on a Dask cluster, and come back in order.  Their columns are
+appended to a staging folder beside the output and committed chunk by chunk,
+so an interrupted run resumes where it stopped.  At the end the rows are
+ranked by fade margin and written out (see :mod:`profiler.io.screen_output`).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import json
+import os
+import shutil
+import threading
+import time
+from collections import deque
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Iterator, Sequence
+
+import numpy as np
+
+from .budget import Radio
+from .errors import InputError, TerrahopError
+from .geodesy import WGS84
+from .io.sites import BadRow, SiteTable
+from .link import LinkBatch, Settings, Site, analyse_links
+from .terrain import ElevationModel
+from .units import EARTH_RADIUS_M
+
+__all__ = [
+    "PairPlan",
+    "ScreenSummary",
+    "iter_pair_blocks",
+    "count_pairs",
+    "evaluate_chunk",
+    "screen",
+    "VERDICTS",
+    "COLUMNS",
+    "mast_raise_m",
+]
+
+#: Verdict codes of a pair (stored as int8).
+VERDICTS = {0: "viable", 1: "marginal", 2: "blocked", 3: "error"}
+
+#: Staged result columns and their dtypes, in output order.
+COLUMNS: dict[str, str] = {
+    "pair": "i8", "a": "i8", "b": "i8", "status": "i1",
+    "distance_km": "f8", "azimuth_a_to_b_deg": "f8", "azimuth_b_to_a_deg": "f8",
+    "ground_a_m": "f8", "ground_b_m": "f8", "antenna_a_amsl_m": "f8", "antenna_b_amsl_m": "f8",
+    "samples": "i4", "spacing_m": "f8",
+    "worst_f1_fraction": "f8", "worst_clearance_m": "f8", "worst_point_km": "f8", "line_of_sight": "u1",
+    "wc_worst_f1_fraction": "f8", "wc_worst_clearance_m": "f8", "wc_worst_point_km": "f8",
+    "wc_line_of_sight": "u1",
+    "meets_criterion": "u1",
+    "free_space_db": "f8", "diffraction_db": "f8", "gases_db": "f8", "total_loss_db": "f8",
+    "eirp_dbm": "f8", "rx_level_dbm": "f8", "noise_floor_dbm": "f8", "snr_db": "f8", "fade_margin_db": "f8",
+    "wc_diffraction_db": "f8", "wc_total_loss_db": "f8", "wc_rx_level_dbm": "f8", "wc_snr_db": "f8",
+    "wc_fade_margin_db": "f8",
+    "mast_raise_m": "f8",
+}
+
+#: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
+SUBBATCH_SAMPLES = 120_000
+#: Rasters up to this many cells are read whole into each worker's memory.
+PRELOAD_MAX_CELLS = 40_000_000
+
+
+# --------------------------------------------------------------------------- pairs
+
+@dataclass(frozen=True)
+class PairPlan:
+    """Which pairs to screen: all within ``max_km``, hub(s) to all, or an explicit list.
+
+    ``explicit`` holds site indices ``(a, b)``; ``hubs`` site indices.  Both
+    directions are one link: site a is the earlier site in the file (all
+    pairs), the hub (hub mode) or as listed (explicit pairs).
+    """
+
+    max_km: float | None = None
+    hubs: tuple[int, ...] = ()
+    explicit: tuple[np.ndarray, np.ndarray] | None = None
+
+    def describe(self) -> str:
+        within = f" within {self.max_km:g} km" if self.max_km is not None else ""
+        if self.explicit is not None:
+            return f"{len(self.explicit[0])} listed pairs{within}"
+        if self.hubs:
+            return f"{len(self.hubs)} hub(s) to every other site{within}"
+        return f"all pairs{within}"
+
+
+def _unit_vectors(lat_deg: np.ndarray, lon_deg: np.ndarray) -> np.ndarray:
+    lat = np.radians(lat_deg)
+    lon = np.radians(lon_deg)
+    return np.column_stack([np.cos(lat) * np.cos(lon), np.cos(lat) * np.sin(lon), np.sin(lat)])
+
+
+def _within(lat: np.ndarray, lon: np.ndarray, a: np.ndarray, b: np.ndarray, max_km: float) -> np.ndarray:
+    """True where the WGS84 geodesic distance between sites a and b is at most ``max_km``."""
+    if a.size == 0:
+        return np.zeros(0, dtype=bool)
+    _, _, dist = WGS84.inv(lon[a], lat[a], lon[b], lat[b])
+    return np.asarray(dist) <= max_km * 1000.0
+
+
+def iter_pair_blocks(
+    sites: SiteTable, plan: PairPlan, block_pairs: int = 65_536
+) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+    """Yield blocks of site indices ``(a, b)``; their concatenation is the fixed pair order.
+
+    All pairs within a distance use a grid of cells on the unit sphere (each
+    cell as wide as the distance) so only neighbouring cells are compared;
+    candidates are then kept by their exact WGS84 distance.  Memory stays
+    bounded by ``block_pairs`` whatever the number of sites.
+    """
+    lat, lon = sites.lat_deg, sites.lon_deg
+    n = len(sites)
+    if plan.explicit is not None:
+        a, b = plan.explicit
+        for s in range(0, a.size, block_pairs):
+            aa, bb = a[s:s + block_pairs], b[s:s + block_pairs]
+            if plan.max_km is not None:
+                keep = _within(lat, lon, aa, bb, plan.max_km)
+                aa, bb = aa[keep], bb[keep]
+            yield aa, bb
+        return
+    if plan.hubs:
+        done: list[int] = []
+        for h in plan.hubs:
+            others = np.setdiff1d(np.arange(n), np.asarray(done + [h]), assume_unique=True)
+            for s in range(0, others.size, block_pairs):
+                bb = others[s:s + block_pairs]
+                aa = np.full(bb.size, h, dtype=np.int64)
+                if plan.max_km is not None:
+                    keep = _within(lat, lon, aa, bb, plan.max_km)
+                    aa, bb = aa[keep], bb[keep]
+                yield aa, bb
+            done.append(h)
+        return
+    if plan.max_km is None:
+        yield from _all_pairs(n, block_pairs)
+        return
+    yield from _pairs_within(lat, lon, plan.max_km, block_pairs)
+
+
+def _all_pairs(n: int, block_pairs: int) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+    i = 0
+    while i < n - 1:
+        counts = (n - 1 - np.arange(i, n - 1)).astype(np.int64)
+        cum = np.cumsum(counts)
+        k = max(int(np.searchsorted(cum, block_pairs, side="right")), 1)
+        rows = np.arange(i, i + k, dtype=np.int64)
+        cnt = counts[:k]
+        a = np.repeat(rows, cnt)
+        start = np.repeat(np.cumsum(cnt) - cnt, cnt)
+        b = a + 1 + (np.arange(int(cnt.sum()), dtype=np.int64) - start)
+        yield a, b
+        i += k
+
+
+def _pairs_within(
+    lat: np.ndarray, lon: np.ndarray, max_km: float, block_pairs: int
+) -> Iterator[tuple[np.ndarray, np.ndarray]]:
+    n = lat.size
+    if n < 2:
+        return
+    # Chord on the unit sphere for the distance, with a margin for the ellipsoid (< 0.6 %).
+    angle = (max_km * 1000.0 * 1.01 + 1000.0) / EARTH_RADIUS_M
+    r = 2.0 * np.sin(min(angle, np.pi) / 2.0)
+    xyz = _unit_vectors(lat, lon)
+    key = np.floor(xyz / r).astype(np.int64)
+    off = int(np.ceil(1.0 / r)) + 2
+    m = 2 * off + 1
+    packed = ((key[:, 0] + off) * m + (key[:, 1] + off)) * m + (key[:, 2] + off)
+    order = np.argsort(packed, kind="stable")
+    cells, starts, counts = np.unique(packed[order], return_index=True, return_counts=True)
+    lookup = {int(c): (int(s), int(s + k)) for c, s, k in zip(cells, starts, counts)}
+    shifts = [(dx * m + dy) * m + dz for dx in (-1, 0, 1) for dy in (-1, 0, 1) for dz in (-1, 0, 1)]
+    buf_a: list[np.ndarray] = []
+    buf_b: list[np.ndarray] = []
+    held = 0
+    for c, s, k in zip(cells, starts, counts):
+        members = np.sort(order[s:s + k])
+        near = [order[lookup[int(c) + d][0]:lookup[int(c) + d][1]] for d in shifts if int(c) + d in lookup]
+        cand = np.sort(np.concatenate(near))
+        step = max(1, 4_000_000 // max(cand.size, 1))
+        for t in range(0, members.size, step):
+            mem = members[t:t + step]
+            a = np.repeat(mem, cand.size)
+            b = np.tile(cand, mem.size)
+            keep = a < b
+            a, b = a[keep], b[keep]
+            keep = np.einsum("ij,ij->i", xyz[a] - xyz[b], xyz[a] - xyz[b]) <= r * r
+            a, b = a[keep], b[keep]
+            keep = _within(lat, lon, a, b, max_km)
+            a, b = a[keep], b[keep]
+            if a.size:
+                buf_a.append(a)
+                buf_b.append(b)
+                held += a.size
+            if held >= block_pairs:
+                yield np.concatenate(buf_a), np.concatenate(buf_b)
+                buf_a, buf_b, held = [], [], 0
+    if held:
+        yield np.concatenate(buf_a), np.concatenate(buf_b)
+
+
+def count_pairs(sites: SiteTable, plan: PairPlan) -> int:
+    """Number of pairs the plan yields (one pass of the generator)."""
+    return int(sum(a.size for a, _ in iter_pair_blocks(sites, plan)))
+
+
+def _chunks(
+    sites: SiteTable, plan: PairPlan, chunk_pairs: int, skip_pairs: int = 0
+) -> Iterator[tuple[int, np.ndarray, np.ndarray]]:
+    """Fixed-size chunks ``(first_pair_index, a, b)`` of the pair sequence, after ``skip_pairs``."""
+    buf_a: list[np.ndarray] = []
+    buf_b: list[np.ndarray] = []
+    held = 0
+    position = 0  # index of the first pair in the buffer
+    for a, b in iter_pair_blocks(sites, plan, block_pairs=max(chunk_pairs, 4096)):
+        if position + held + a.size <= skip_pairs:
+            position += a.size
+            continue
+        if position < skip_pairs:
+            cut = skip_pairs - position
+            a, b = a[cut:], b[cut:]
+            position = skip_pairs
+        buf_a.append(a)
+        buf_b.append(b)
+        held += a.size
+        while held >= chunk_pairs:
+            aa, bb = np.concatenate(buf_a), np.concatenate(buf_b)
+            yield position, aa[:chunk_pairs], bb[:chunk_pairs]
+            position += chunk_pairs
+            buf_a, buf_b, held = [aa[chunk_pairs:]], [bb[chunk_pairs:]], aa.size - chunk_pairs
+    if held:
+        yield position, np.concatenate(buf_a), np.concatenate(buf_b)
+
+
+# --------------------------------------------------------------------------- evaluation
+
+def mast_raise_m(batch: LinkBatch) -> np.ndarray:
+    """Equal rise of both antennas that makes each path meet the clearance criterion, m.
+
+    Raising both antennas by dh raises the line between them by dh at every
+    point, so the rise needed is the largest shortfall max(c F1 - clearance)
+    over the interior samples, at the design and the worst-case k (0 when the
+    criterion is already met).  Geometry only: diffraction is not re-evaluated.
+    """
+    crit = batch.settings.criterion
+    need = np.zeros(len(batch))
+    interior = batch.profiles.interior
+    for at_k, frac in ((batch.design, crit.min_f1_fraction), (batch.worst, crit.min_f1_fraction_worst)):
+        c = at_k.clearance
+        short = np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf)
+        need = np.maximum(need, np.max(short, axis=1))
+    return np.maximum(need, 0.0)
+
+
+@dataclass(frozen=True)
+class ChunkTask:
+    """One chunk of pairs with everything a worker needs (picklable)."""
+
+    first_pair: int
+    a: np.ndarray
+    b: np.ndarray
+    names_a: np.ndarray
+    names_b: np.ndarray
+    lat_a: np.ndarray
+    lon_a: np.ndarray
+    lat_b: np.ndarray
+    lon_b: np.ndarray
+    agl_a: np.ndarray
+    agl_b: np.ndarray
+    gain_a: np.ndarray | None
+    gain_b: np.ndarray | None
+    radio: Radio
+    settings: Settings
+
+
+def _make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings) -> ChunkTask:
+    g = sites.gain_dbi
+    return ChunkTask(
+        first_pair=first, a=a, b=b,
+        names_a=sites.names[a], names_b=sites.names[b],
+        lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
+        agl_a=sites.antenna_agl_m[a], agl_b=sites.antenna_agl_m[b],
+        gain_a=None if g is None else g[a], gain_b=None if g is None else g[b],
+        radio=radio, settings=settings,
+    )
+
+
+def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np.ndarray], list[tuple[int, str]]]:
+    """Evaluate a chunk of pairs with the link engine.
+
+    Pairs are sorted by length and cut into sub-batches of similar sample
+    counts (little padding, arrays that fit in cache); results come back in
+    the chunk's order as columns of :data:`COLUMNS`, with the problems of
+    pairs that could not be profiled as ``(pair_index, sentence)``.
+    """
+    n = task.a.size
+    out = {name: np.zeros(n, dtype=dt) for name, dt in COLUMNS.items()}
+    out["pair"][:] = task.first_pair + np.arange(n)
+    out["a"][:] = task.a
+    out["b"][:] = task.b
+    for name in COLUMNS:
+        if COLUMNS[name] == "f8":
+            out[name][:] = np.nan
+    problems: list[tuple[int, str]] = []
+    same = (task.lat_a == task.lat_b) & (task.lon_a == task.lon_b)
+    for k in np.flatnonzero(same):
+        problems.append((task.first_pair + int(k),
+                         f"{task.names_a[k]} - {task.names_b[k]}: both sites are at the same position"))
+    todo = np.flatnonzero(~same)
+    if todo.size:
+        _, _, length = WGS84.inv(task.lon_a[todo], task.lat_a[todo], task.lon_b[todo], task.lat_b[todo])
+        spacing = task.settings.spacing_m
+        if spacing is None:
+            from .profile import default_spacings_m
+
+            spacing = default_spacings_m(model, task.lon_a[todo], task.lat_a[todo])
+        n_samples = np.ceil(np.asarray(length) / spacing) + 1
+        todo = todo[np.argsort(n_samples, kind="stable")]
+        n_sorted = np.sort(n_samples, kind="stable")
+        start = 0
+        while start < todo.size:
+            # Take pairs while (count x widest) stays within the sub-batch budget.
+            widths = n_sorted[start:]
+            fits = np.arange(1, widths.size + 1) * widths <= SUBBATCH_SAMPLES
+            stop = start + max(int(np.argmin(fits)) if not fits.all() else widths.size, 1)
+            _evaluate_into(model, task, todo[start:stop], out, problems)
+            start = stop
+    out["status"][:] = 0
+    bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
+    out["status"][bad] = 1
+    return out, problems
+
+
+def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems: list) -> None:
+    sites_a = [Site(str(task.names_a[k]), float(task.lat_a[k]), float(task.lon_a[k]), float(task.agl_a[k]))
+               for k in idx]
+    sites_b = [Site(str(task.names_b[k]), float(task.lat_b[k]), float(task.lon_b[k]), float(task.agl_b[k]))
+               for k in idx]
+    radio = task.radio
+    if task.gain_a is not None:
+        radio = dataclasses.replace(radio, gain_a_dbi=task.gain_a[idx], gain_b_dbi=task.gain_b[idx])
+    batch = analyse_links(model, sites_a, sites_b, radio, task.settings,
+                          names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)])
+    lines = batch.profiles.lines
+    d, w = batch.design, batch.worst
+    cols = {
+        "distance_km": lines.length_m / 1000.0,
+        "azimuth_a_to_b_deg": lines.azimuth_a_to_b_deg,
+        "azimuth_b_to_a_deg": lines.azimuth_b_to_a_deg,
+        "ground_a_m": batch.ground_a_m, "ground_b_m": batch.ground_b_m,
+        "antenna_a_amsl_m": batch.antenna_a_amsl_m, "antenna_b_amsl_m": batch.antenna_b_amsl_m,
+        "samples": batch.profiles.n_samples, "spacing_m": batch.profiles.spacing_m,
+        "worst_f1_fraction": d.clearance.worst_f1_fraction,
+        "worst_clearance_m": d.clearance.worst_clearance_m,
+        "worst_point_km": d.clearance.worst_distance_m / 1000.0,
+        "line_of_sight": d.clearance.line_of_sight,
+        "wc_worst_f1_fraction": w.clearance.worst_f1_fraction,
+        "wc_worst_clearance_m": w.clearance.worst_clearance_m,
+        "wc_worst_point_km": w.clearance.worst_distance_m / 1000.0,
+        "wc_line_of_sight": w.clearance.line_of_sight,
+        "meets_criterion": batch.meets_criterion,
+        "free_space_db": batch.free_space_db,
+        "diffraction_db": d.diffraction_db, "gases_db": d.gases_db, "total_loss_db": d.total_db,
+        "eirp_dbm": d.budget.eirp_dbm, "rx_level_dbm": d.budget.rx_level_dbm,
+        "noise_floor_dbm": d.budget.noise_floor_dbm, "snr_db": d.budget.snr_db,
+        "fade_margin_db": d.budget.fade_margin_db,
+        "wc_diffraction_db": w.diffraction_db, "wc_total_loss_db": w.total_db,
+        "wc_rx_level_dbm": w.budget.rx_level_dbm, "wc_snr_db": w.budget.snr_db,
+        "wc_fade_margin_db": w.budget.fade_margin_db,
+        "mast_raise_m": mast_raise_m(batch),
+    }
+    for name, values in cols.items():
+        out[name][idx] = np.asarray(values)
+    for k, problem in enumerate(batch.problems):
+        if problem is not None:
+            problems.append((task.first_pair + int(idx[k]), problem))
+
+
+# --------------------------------------------------------------------------- workers
+
+_WORKER: dict[str, Any] = {}
+_WORKER_LOCK = threading.Lock()
+
+
+def _model_key(model: ElevationModel) -> tuple:
+    return (tuple(s.path for s in model.sources), model.nodata_fill_m,
+            tuple(s.unit_factor_m for s in model.sources))
+
+
+def _worker_model(model: ElevationModel) -> ElevationModel:
+    """The worker's own open copy of ``model`` (opened and preloaded once per process)."""
+    key = _model_key(model)
+    with _WORKER_LOCK:
+        if _WORKER.get("key") != key:
+            if model.total_cells() <= PRELOAD_MAX_CELLS:
+                model.preload(max_cells=PRELOAD_MAX_CELLS)
+            _WORKER["key"] = key
+            _WORKER["model"] = model
+        return _WORKER["model"]
+
+
+def _init_local_worker(model: ElevationModel) -> None:
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides what an interrupt means
+    _worker_model(model)
+
+
+def run_chunk(model: ElevationModel, task: ChunkTask):
+    """Worker entry point (local pool or Dask): evaluate ``task`` on the worker's model."""
+    return evaluate_chunk(_worker_model(model), task)
+
+
+def _local_pool_run(task: ChunkTask):
+    return evaluate_chunk(_WORKER["model"], task)
+
+
+class _InProcess:
+    def __init__(self, model: ElevationModel) -> None:
+        self.model = model
+        if model.total_cells() <= PRELOAD_MAX_CELLS:
+            model.preload(max_cells=PRELOAD_MAX_CELLS)
+
+    def submit(self, task: ChunkTask):
+        return _Done(evaluate_chunk(self.model, task))
+
+    def close(self, cancel: bool = False) -> None:
+        pass
+
+
+class _Done:
+    def __init__(self, value: Any) -> None:
+        self.value = value
+
+    def result(self) -> Any:
+        return self.value
+
+
+class _LocalPool:
+    def __init__(self, model: ElevationModel, workers: int) -> None:
+        import multiprocessing as mp
+        from concurrent.futures import ProcessPoolExecutor
+
+        method = "forkserver" if "forkserver" in mp.get_all_start_methods() else "spawn"
+        ctx = mp.get_context(method)
+        if method == "forkserver":
+            ctx.set_forkserver_preload(["profiler.screening"])
+        self.pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_init_local_worker,
+                                        initargs=(model,))
+
+    def submit(self, task: ChunkTask):
+        return self.pool.submit(_local_pool_run, task)
+
+    def close(self, cancel: bool = False) -> None:
+        self.pool.shutdown(wait=True, cancel_futures=cancel)
+
+
+class _DaskPool:
+    def __init__(self, model: ElevationModel, scheduler: Any) -> None:
+        try:
+            from distributed import Client
+        except ImportError:
+            raise InputError(
+                "running on a Dask cluster needs the distributed package: pip install 'terrahop[distributed]'"
+            ) from None
+        self.own = False
+        if isinstance(scheduler, Client):
+            self.client = scheduler
+        else:
+            self.client = Client(scheduler)  # an address or a cluster object
+            self.own = True
+        self.model = self.client.scatter(model, broadcast=True)
+
+    @property
+    def workers(self) -> int:
+        return max(len(self.client.scheduler_info().get("workers", {})), 1)
+
+    def submit(self, task: ChunkTask):
+        return self.client.submit(run_chunk, self.model, task, pure=False)
+
+    def close(self, cancel: bool = False) -> None:
+        if self.own:
+            self.client.close()
+
+
+# --------------------------------------------------------------------------- staging
+
+class Stage:
+    """Append-only column files beside the output, committed chunk by chunk.
+
+    ``progress.json`` (written atomically) says how many rows are final; rows
+    written after it by an interrupted run are cut away on resume.
+    """
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = folder
+        self.files: dict[str, Any] = {}
+
+    @property
+    def progress_path(self) -> Path:
+        return self.folder / "progress.json"
+
+    def read_progress(self) -> dict:
+        with open(self.progress_path) as fh:
+            return json.load(fh)
+
+    def create(self, manifest: dict) -> None:
+        if self.folder.exists():
+            shutil.rmtree(self.folder)
+        (self.folder / "columns").mkdir(parents=True)
+        _write_json(self.folder / "manifest.json", manifest)
+        self._commit(0, 0)
+
+    def reopen(self, rows: int) -> None:
+        """Cut every column (and the problem list) back to ``rows`` committed rows."""
+        for name, dt in COLUMNS.items():
+            path = self._column_path(name)
+            with open(path, "ab") as fh:
+                fh.truncate(rows * np.dtype(dt).itemsize)
+        kept = [p for p in self.problems() if p[0] < rows]
+        with open(self.folder / "problems.jsonl", "w") as fh:
+            for p in kept:
+                fh.write(json.dumps(p) + "\n")
+
+    def _column_path(self, name: str) -> Path:
+        return self.folder / "columns" / f"{name}.bin"
+
+    def open(self) -> None:
+        for name in COLUMNS:
+            self.files[name] = open(self._column_path(name), "ab")
+        self.files["__problems"] = open(self.folder / "problems.jsonl", "a")
+
+    def append(self, cols: dict[str, np.ndarray], problems: list[tuple[int, str]], chunks: int, rows: int) -> None:
+        for name, dt in COLUMNS.items():
+            self.files[name].write(np.ascontiguousarray(cols[name], dtype=dt).tobytes())
+        for p in problems:
+            self.files["__problems"].write(json.dumps(list(p)) + "\n")
+        for fh in self.files.values():
+            fh.flush()
+        self._commit(chunks, rows)
+
+    def _commit(self, chunks: int, rows: int) -> None:
+        _write_json(self.progress_path, {"chunks": chunks, "rows": rows})
+
+    def close(self) -> None:
+        for fh in self.files.values():
+            fh.close()
+        self.files.clear()
+
+    def columns(self, rows: int) -> dict[str, np.ndarray]:
+        out = {}
+        for name, dt in COLUMNS.items():
+            out[name] = np.fromfile(self._column_path(name), dtype=dt, count=rows) if rows else np.zeros(0, dt)
+        return out
+
+    def problems(self) -> list[list]:
+        path = self.folder / "problems.jsonl"
+        if not path.exists():
+            return []
+        with open(path) as fh:
+            return [json.loads(line) for line in fh if line.strip()]
+
+
+def _write_json(path: Path, data: dict) -> None:
+    tmp = path.with_name(path.name + ".tmp")
+    with open(tmp, "w") as fh:
+        json.dump(data, fh)
+        fh.flush()
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+
+
+def staging_folder(out: str | os.PathLike) -> Path:
+    """Folder holding the staged results of a run writing ``out``."""
+    p = Path(out)
+    return p.with_name(p.name + ".partial")
+
+
+def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings: Settings,
+                 plan: PairPlan, chunk_pairs: int) -> str:
+    h = hashlib.sha256()
+    for arr in (sites.lat_deg, sites.lon_deg, sites.antenna_agl_m, sites.gain_dbi):
+        if arr is not None:
+            h.update(np.ascontiguousarray(arr, dtype=float).tobytes())
+    h.update("\x1f".join(map(str, sites.names)).encode())
+    for s in model.sources:
+        st = os.stat(s.path) if os.path.exists(s.path) else None
+        h.update(f"{s.path}|{st.st_size if st else ''}|{st.st_mtime_ns if st else ''}".encode())
+    h.update(repr((radio, settings, model.nodata_fill_m, plan.max_km, plan.hubs, chunk_pairs)).encode())
+    if plan.explicit is not None:
+        h.update(plan.explicit[0].tobytes())
+        h.update(plan.explicit[1].tobytes())
+    return h.hexdigest()
+
+
+# --------------------------------------------------------------------------- the run
+
+@dataclass(frozen=True)
+class ScreenSummary:
+    """What a screening run did; counts by verdict (see :data:`VERDICTS`)."""
+
+    outputs: tuple[str, ...]
+    sites: int
+    pairs: int
+    viable: int
+    marginal: int
+    blocked: int
+    errors: int
+    bad_rows: tuple[BadRow, ...]
+    samples: int
+    seconds: float
+    resumed_pairs: int
+    min_margin_db: float
+    problems: tuple[str, ...] = field(default=())
+
+
+def verdicts(cols: dict[str, np.ndarray], min_margin_db: float) -> np.ndarray:
+    """Verdict codes: viable, marginal, blocked or error (definitions in the README).
+
+    viable: meets the clearance criterion and fade margin >= ``min_margin_db``
+    at the design k; blocked: fade margin below 0 dB at the design k (the link
+    does not close); marginal: closes but lacks the clearance or the margin.
+    """
+    fade = cols["fade_margin_db"]
+    code = np.full(fade.shape, 1, dtype=np.int8)
+    with np.errstate(invalid="ignore"):
+        code[(cols["meets_criterion"] == 1) & (fade >= min_margin_db)] = 0
+        code[fade < 0.0] = 2
+    code[(cols["status"] != 0) | ~np.isfinite(fade)] = 3
+    return code
+
+
+def screen(
+    sites: SiteTable,
+    model: ElevationModel,
+    radio: Radio,
+    settings: Settings,
+    out: str | os.PathLike,
+    *,
+    plan: PairPlan = PairPlan(),
+    bad_rows: Sequence[BadRow] = (),
+    workers: int | None = None,
+    scheduler: Any = None,
+    resume: bool = False,
+    restart: bool = False,
+    chunk_pairs: int = 2000,
+    min_margin_db: float = 10.0,
+    progress: Callable[[int, int], None] | None = None,
+) -> ScreenSummary:
+    """Screen the planned pairs of ``sites`` and write ranked results to ``out``.
+
+    ``workers`` local processes (None: all cores; 1: in this process), or a
+    Dask ``scheduler`` (address, cluster or Client).  ``progress(done, total)``
+    is called after each committed chunk.  With ``resume`` an interrupted run
+    of the same inputs continues; without it a leftover staging folder is an
+    error unless ``restart`` discards it.
+    """
+    from .io.screen_output import write_outputs
+
+    t0 = time.perf_counter()
+    radio.validate()
+    settings.validate()
+    if chunk_pairs < 1:
+        raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
+    bad = list(bad_rows)
+    covered = model.covers(sites.lon_deg, sites.lat_deg)
+    for k in np.flatnonzero(~covered):
+        bad.append(BadRow(sites.source, int(sites.rows[k]), str(sites.names[k]),
+                          f"position ({sites.lat_deg[k]:.6f}, {sites.lon_deg[k]:.6f}) lies outside the elevation rasters"))
+    if not covered.all():
+        sites, plan = _drop_sites(sites, plan, covered)
+    bad.sort(key=lambda r: (r.source != sites.source, r.row))
+    stage = Stage(staging_folder(out))
+    fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
+    total = count_pairs(sites, plan)
+    done_rows = done_chunks = 0
+    if stage.progress_path.exists():
+        if resume:
+            manifest = json.loads((stage.folder / "manifest.json").read_text())
+            if manifest.get("fingerprint") != fingerprint:
+                raise InputError(
+                    f"{stage.folder} holds an interrupted run with different inputs or settings; "
+                    "run the same command as before with --resume, or add --restart to start again"
+                )
+            state = stage.read_progress()
+            done_rows, done_chunks = int(state["rows"]), int(state["chunks"])
+            stage.reopen(done_rows)
+        elif not restart:
+            raise InputError(
+                f"an interrupted run left {stage.folder}; add --resume to finish it "
+                "or --restart to discard it and start again"
+            )
+    if not stage.progress_path.exists() or not resume:
+        stage.create({"fingerprint": fingerprint, "chunk_pairs": chunk_pairs, "total_pairs": total})
+        done_rows = done_chunks = 0
+    resumed = done_rows
+    stage.open()
+    executor = None
+    try:
+        remaining = total - done_rows
+        if progress:
+            progress(done_rows, total)
+        if remaining > 0:
+            executor, inflight_max = _executor(model, workers, scheduler, remaining, chunk_pairs)
+            pending: deque = deque()
+            chunks = _chunks(sites, plan, chunk_pairs, skip_pairs=done_rows)
+            exhausted = False
+            while True:
+                while not exhausted and len(pending) < inflight_max:
+                    nxt = next(chunks, None)
+                    if nxt is None:
+                        exhausted = True
+                        break
+                    first, a, b = nxt
+                    pending.append(executor.submit(_make_task(sites, first, a, b, radio, settings)))
+                if not pending:
+                    break
+                cols, problems = pending.popleft().result()
+                done_chunks += 1
+                done_rows += cols["pair"].size
+                stage.append(cols, problems, done_chunks, done_rows)
+                if progress:
+                    progress(done_rows, total)
+    except BaseException:
+        if executor is not None:
+            executor.close(cancel=True)
+            executor = None
+        raise
+    finally:
+        stage.close()
+        if executor is not None:
+            executor.close()
+    cols = stage.columns(done_rows)
+    problems = {int(p): str(m) for p, m in stage.problems()}
+    codes = verdicts(cols, min_margin_db)
+    outputs = write_outputs(out, stage.folder, sites, cols, codes, problems, settings)
+    shutil.rmtree(stage.folder, ignore_errors=True)
+    counts = np.bincount(codes, minlength=4)
+    return ScreenSummary(
+        outputs=tuple(outputs), sites=len(sites), pairs=int(done_rows),
+        viable=int(counts[0]), marginal=int(counts[1]), blocked=int(counts[2]), errors=int(counts[3]),
+        bad_rows=tuple(bad), samples=int(cols["samples"].astype(np.int64).sum()),
+        seconds=time.perf_counter() - t0, resumed_pairs=resumed, min_margin_db=min_margin_db,
+        problems=tuple(problems[p] for p in sorted(problems)),
+    )
+
+
+def _drop_sites(sites: SiteTable, plan: PairPlan, keep: np.ndarray) -> tuple[SiteTable, PairPlan]:
+    new_index = np.cumsum(keep) - 1
+    hubs = tuple(int(new_index[h]) for h in plan.hubs if keep[h])
+    if plan.hubs and not hubs:
+        raise InputError("every hub lies outside the elevation rasters; nothing to screen")
+    explicit = None
+    if plan.explicit is not None:
+        a, b = plan.explicit
+        ok = keep[a] & keep[b]
+        explicit = (new_index[a[ok]], new_index[b[ok]])
+    return sites.subset(keep), dataclasses.replace(plan, hubs=hubs, explicit=explicit)
+
+
+def _executor(model: ElevationModel, workers: int | None, scheduler: Any, remaining: int, chunk_pairs: int):
+    if scheduler is not None:
+        pool = _DaskPool(model, scheduler)
+        return pool, 2 * pool.workers + 2
+    n = (os.cpu_count() or 1) if workers is None else workers
+    if n < 1:
+        raise InputError(f"--workers must be 1 or more, got {n}")
+    if n == 1 or remaining <= chunk_pairs:
+        return _InProcess(model), 1
+    return _LocalPool(model, n), 2 * n + 1
+
+
+def resolve_hubs(sites: SiteTable, hub_names: Sequence[str]) -> tuple[int, ...]:
+    """Indices of the named hub sites; InputError naming any that is unknown."""
+    index = {str(nm): k for k, nm in enumerate(sites.names)}
+    out = []
+    for h in hub_names:
+        if h not in index:
+            raise InputError(f"hub {h!r} is not among the usable sites of {sites.source}")
+        out.append(index[h])
+    return tuple(dict.fromkeys(out))
+
+
+def error_text(exc: BaseException) -> str:  # pragma: no cover - helper for edges
+    return str(exc) if isinstance(exc, TerrahopError) else f"{exc.__class__.__name__}: {exc}"
