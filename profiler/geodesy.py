@@ -152,7 +152,9 @@ def sample_paths(
         )
         lat[polar] = np.asarray(plat, dtype=float).reshape(shape)
         lon[polar] = np.asarray(plon, dtype=float).reshape(shape)
-    # Put the far end exactly on site b.
+    # Put the ends exactly on the sites (fwd rounds at the 1e-9 degree level).
+    lat[:, 0] = lat_a
+    lon[:, 0] = lon_a
     at_end = col >= last
     lat = np.where(at_end, lat_b[:, None], lat)
     lon = np.where(at_end, lon_b[:, None], lon)

@@ -1,0 +1,92 @@
+"""Reading candidate sites: CSV and point layers, column choice, bad rows with row numbers."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from profiler.errors import InputError
+from profiler.io.sites import read_pairs, read_sites
+
+from _screening_data import DEMO_SITES
+
+
+def test_demo_csv_reads_with_default_columns():
+    sites, bad = read_sites(DEMO_SITES)
+    assert bad == []
+    assert len(sites) == 12
+    assert sites.names[0] == "Orrin Water Tank"
+    assert sites.antenna_agl_m[0] == 20.0
+    assert np.all(sites.max_mast_m == 40.0)
+    assert list(sites.extra.columns) == ["kind"]
+    assert sites.rows[0] == 2  # header on line 1
+
+
+def test_bad_rows_are_reported_with_line_numbers_and_skipped(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text(
+        "name,latitude,longitude,antenna_agl_m\n"
+        "A,46.1,10.1,10\n"
+        "B,north,10.2,10\n"      # line 3: unparseable latitude
+        "C,95,10.2,10\n"         # line 4: out of range
+        "A,46.2,10.3,10\n"       # line 5: duplicate name
+        ",46.2,10.3,10\n"        # line 6: no name
+        "D,46.3,10.4,-2\n"       # line 7: negative height
+        "E,46.4,10.5,\n"         # line 8: missing height
+        "F,46.5,10.6,12\n"
+    )
+    sites, bad = read_sites(p)
+    assert list(sites.names) == ["A", "F"]
+    rows = {b.row: b.reason for b in bad}
+    assert sorted(rows) == [3, 4, 5, 6, 7, 8]
+    assert "'north' is not a number" in rows[3]
+    assert "outside -90..90" in rows[4]
+    assert "duplicate name (first on row 2)" in rows[5]
+    assert "no name" in rows[6]
+    assert "negative" in rows[7]
+    assert "s.csv row 3" in bad[0].describe()
+
+
+def test_named_columns_and_missing_columns(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text("id,Y,X,h,g\nA,46.1,10.1,15,20\nB,46.2,10.2,25,23\n")
+    sites, _ = read_sites(p, lat_col="Y", lon_col="X", agl_col="h", gain_col="g")
+    assert list(sites.antenna_agl_m) == [15.0, 25.0]
+    assert list(sites.gain_dbi) == [20.0, 23.0]
+    with pytest.raises(InputError, match="which column holds the site lat"):
+        read_sites(p)
+    with pytest.raises(InputError, match="no column 'nope'"):
+        read_sites(p, lat_col="nope", lon_col="X")
+
+
+def test_point_layer_in_a_projected_crs(tmp_path):
+    import geopandas as gpd
+    from shapely.geometry import LineString, Point
+
+    gdf = gpd.GeoDataFrame(
+        {"name": ["P", "Q", "R"], "owner": ["x", "y", "z"]},
+        geometry=[Point(510_000, 6_630_000), Point(515_000, 6_625_000), LineString([(0, 0), (1, 1)])],
+        crs="EPSG:32727",
+    )
+    path = tmp_path / "s.gpkg"
+    gdf.to_file(path, layer="candidates")
+    sites, bad = read_sites(path, default_agl_m=12.0)
+    assert list(sites.names) == ["P", "Q"]
+    assert bad[0].row == 3 and "LineString" in bad[0].reason
+    from pyproj import Transformer
+
+    lon, lat = Transformer.from_crs("EPSG:32727", "EPSG:4326", always_xy=True).transform(510_000, 6_630_000)
+    assert sites.lat_deg[0] == pytest.approx(lat, abs=1e-9)
+    assert sites.lon_deg[0] == pytest.approx(lon, abs=1e-9)
+    assert list(sites.antenna_agl_m) == [12.0, 12.0]
+    assert list(sites.extra.columns) == ["owner"]
+
+
+def test_pairs_file(tmp_path):
+    p = tmp_path / "pairs.csv"
+    p.write_text("a,b\nA,B\nB,A\nA,Z\nC,C\nC,A\n")
+    a, b, bad = read_pairs(p, np.array(["A", "B", "C"], dtype=object))
+    assert list(zip(a, b)) == [(0, 1), (2, 0)]
+    assert [r.row for r in bad] == [3, 4, 5]
+    assert "same pair as row 2" in bad[0].reason
+    assert "'Z'" in bad[1].reason
