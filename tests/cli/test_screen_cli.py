@@ -1,0 +1,111 @@
+"""`terrahop screen` end to end on the invented demo data, as a planner runs it."""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from _screening_data import DEMO_DEM, DEMO_SITES, REPO, random_sites_csv  # noqa: E402
+
+RADIO = ["--freq-ghz", "5.8", "--gain-a-dbi", "23", "--gain-b-dbi", "23", "--loss-a-db", "1", "--loss-b-db", "1"]
+
+
+def terrahop(*args, check=True, **kw):
+    env = dict(os.environ, PYTHONPATH=str(REPO))
+    proc = subprocess.run([sys.executable, "-m", "profiler", *map(str, args)], capture_output=True,
+                          text=True, env=env, **kw)
+    if check and proc.returncode != 0:
+        raise AssertionError(f"exit {proc.returncode}\n{proc.stdout}\n{proc.stderr}")
+    return proc
+
+
+def test_screen_demo_sites_to_geopackage(tmp_path):
+    import geopandas as gpd
+
+    out = tmp_path / "result.gpkg"
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out, "--workers", "1")
+    assert "66 pairs of 12 sites screened" in proc.stdout
+    for word in ("viable", "marginal", "blocked", "errors", "skipped"):
+        assert word in proc.stdout
+    assert "\x1b[" not in proc.stderr  # no progress bar in a pipe
+    links = gpd.read_file(out, layer="links")
+    assert len(links) == 66 and links.crs.to_epsg() == 4326
+    assert links.iloc[0]["fade_margin_db"] >= links.iloc[-1]["fade_margin_db"]
+    assert len(gpd.read_file(out, layer="sites")) == 12
+
+
+def test_screen_hub_mode_and_pairs_file_with_bad_rows(tmp_path):
+    import pandas as pd
+
+    out = tmp_path / "hub.csv"
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out,
+                    "--hub", "Corrow Ridge Mast", "--max-km", "8", "--workers", "1")
+    links = pd.read_csv(out)
+    assert (links["site_a"] == "Corrow Ridge Mast").all()
+    assert (links["distance_km"] <= 8).all() and 2 < len(links) < 11
+    pairs = tmp_path / "pairs.csv"
+    pairs.write_text("a,b\nOrrin Water Tank,Brackwell Silo\nOrrin Water Tank,Atlantis\nTallis Farm,Wexby Grange\n")
+    out2 = tmp_path / "pairs.geojson"
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, "-q")
+    assert proc.stdout == ""
+    import geopandas as gpd
+
+    assert len(gpd.read_file(out2)) == 2
+    assert (tmp_path / "pairs-sites.geojson").exists()
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs)
+    assert "skipped pairs.csv row 3" in proc.stdout and "'Atlantis'" in proc.stdout
+
+
+def test_bad_inputs_give_one_line_messages(tmp_path):
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, "--out", tmp_path / "r.gpkg", check=False)
+    assert proc.returncode == 1 and "frequency missing" in proc.stderr and "Traceback" not in proc.stderr
+    proc = terrahop("screen", tmp_path / "none.csv", "--dem", DEMO_DEM, *RADIO, "--out", tmp_path / "r.gpkg",
+                    check=False)
+    assert proc.returncode == 1 and "sites file not found" in proc.stderr
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", tmp_path / "r.gpkg",
+                    "--hub", "Nowhere", check=False)
+    assert proc.returncode == 1 and "hub 'Nowhere'" in proc.stderr
+
+
+def test_sigint_then_resume_equals_an_uninterrupted_run(tmp_path):
+    import pandas as pd
+
+    sites = random_sites_csv(tmp_path / "sites.csv", 40)
+    args = ["screen", sites, "--dem", DEMO_DEM, *RADIO, "--max-km", "12", "--chunk-pairs", "8", "--workers", "2"]
+    terrahop(*args, "--out", tmp_path / "full.csv")
+    out = tmp_path / "cut.csv"
+    progress = tmp_path / "cut.csv.partial" / "progress.json"
+    env = dict(os.environ, PYTHONPATH=str(REPO))
+    proc = subprocess.Popen([sys.executable, "-m", "profiler", *map(str, args), "--out", str(out)],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    deadline = time.time() + 60
+    while time.time() < deadline:
+        try:
+            if json.loads(progress.read_text())["rows"] >= 16:
+                break
+        except (OSError, ValueError, KeyError):
+            pass
+        time.sleep(0.01)
+    proc.send_signal(signal.SIGINT)
+    _, err = proc.communicate(timeout=60)
+    if proc.returncode == 0:
+        pytest.skip("the run finished before the interrupt arrived")
+    assert proc.returncode == 130 and "--resume" in err
+    assert not out.exists()
+    done = json.loads(progress.read_text())["rows"]
+    assert done >= 16
+    again = terrahop(*args, "--out", out, check=False)
+    assert again.returncode == 1 and "--resume" in again.stderr
+    resumed = terrahop(*args, "--out", out, "--resume")
+    assert f"({done} from the interrupted run)" in resumed.stdout
+    full, cut = pd.read_csv(tmp_path / "full.csv"), pd.read_csv(out)
+    assert len(full) == len(cut)
+    pd.testing.assert_frame_equal(full, cut)
