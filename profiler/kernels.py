@@ -13,7 +13,7 @@ import os
 
 import numpy as np
 
-__all__ = ["hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "NUMBA_MIN_SAMPLES"]
+__all__ = ["hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES"]
 
 #: Batches with at least this many samples use the compiled kernels.
 NUMBA_MIN_SAMPLES = 20_000
@@ -120,9 +120,34 @@ def gather_bilinear(
     return top + (bottom - top) * fy
 
 
+def gather_bilinear_stored(
+    block: np.ndarray, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray,
+    factor: float, nodata: float | None,
+) -> np.ndarray:
+    """:func:`gather_bilinear` on cells as stored: each corner is float64(cell) * factor, NaN if nodata."""
+    h, w = block.shape
+    x1 = np.minimum(x0 + 1, w - 1)
+    y1 = np.minimum(y0 + 1, h - 1)
+    fx = x - x0
+    fy = y - y0
+
+    def corner(rows, cols):
+        raw = block[rows, cols]
+        v = raw.astype(np.float64) * factor
+        return v if nodata is None else np.where(raw == nodata, np.nan, v)
+
+    v00 = corner(y0, x0)
+    v01 = corner(y0, x1)
+    v10 = corner(y1, x0)
+    v11 = corner(y1, x1)
+    top = v00 + (v01 - v00) * fx
+    bottom = v10 + (v11 - v10) * fx
+    return top + (bottom - top) * fy
+
+
 def affine_gather_numpy(
     block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
-    transform: tuple[float, ...], width: int, height: int,
+    transform: tuple[float, ...], width: int, height: int, factor: float = 1.0, nodata: float | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Elevation from a cached block at CRS points: ``(values, inside)``; NaN outside."""
     col, row = pixel_numpy(x, y, transform)
@@ -130,9 +155,9 @@ def affine_gather_numpy(
     out = np.full(col.shape, np.nan)
     if inside.all():
         xx, yy, x0, y0 = cell_numpy(col, row, width, height)
-        return gather_bilinear(block, xx - col0, yy - row0, x0 - col0, y0 - row0), inside
+        return gather_bilinear_stored(block, xx - col0, yy - row0, x0 - col0, y0 - row0, factor, nodata), inside
     xx, yy, x0, y0 = cell_numpy(col[inside], row[inside], width, height)
-    out[inside] = gather_bilinear(block, xx - col0, yy - row0, x0 - col0, y0 - row0)
+    out[inside] = gather_bilinear_stored(block, xx - col0, yy - row0, x0 - col0, y0 - row0, factor, nodata)
     return out, inside
 
 
@@ -168,7 +193,7 @@ def _build() -> dict:
         return out_lat, out_lon
 
     @numba.njit(cache=True, nogil=True)
-    def affine_gather_nb(block, row0, col0, x, y, a, b, c, d, e, f, width, height):  # pragma: no cover
+    def affine_gather_nb(block, row0, col0, x, y, a, b, c, d, e, f, width, height, factor, nodata, has_nodata):  # pragma: no cover
         n = x.size
         out = np.empty(n)
         inside = np.empty(n, dtype=np.bool_)
@@ -200,10 +225,23 @@ def _build() -> dict:
             iy1 = min(iy + 1, bh - 1)
             fx = xr - ix
             fy = yr - iy
-            v00 = block[iy, ix]
-            v01 = block[iy, ix1]
-            v10 = block[iy1, ix]
-            v11 = block[iy1, ix1]
+            r00 = block[iy, ix]
+            r01 = block[iy, ix1]
+            r10 = block[iy1, ix]
+            r11 = block[iy1, ix1]
+            v00 = np.float64(r00) * factor
+            v01 = np.float64(r01) * factor
+            v10 = np.float64(r10) * factor
+            v11 = np.float64(r11) * factor
+            if has_nodata:
+                if r00 == nodata:
+                    v00 = np.nan
+                if r01 == nodata:
+                    v01 = np.nan
+                if r10 == nodata:
+                    v10 = np.nan
+                if r11 == nodata:
+                    v11 = np.nan
             top = v00 + (v01 - v00) * fx
             bottom = v10 + (v11 - v10) * fx
             out[k] = top + (bottom - top) * fy
@@ -227,18 +265,35 @@ def hermite_paths(
 
 def affine_gather(
     block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
-    transform: tuple[float, ...], width: int, height: int,
+    transform: tuple[float, ...], width: int, height: int, factor: float = 1.0, nodata: float | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Bilinear elevation from a cached block at CRS points ``x``, ``y`` (1-D).
 
-    Returns ``(values, inside)``: ``inside`` is False for points beyond the
-    raster's outer edge (their value is NaN).
+    ``block`` holds cells as stored; each is used as float64(cell) * ``factor``
+    and as NaN where it equals ``nodata``.  Returns ``(values, inside)``:
+    ``inside`` is False for points beyond the raster's outer edge (value NaN).
     """
-    if use_numba(x.size) and block.dtype == np.float64:
+    if use_numba(x.size):
         k = _numba_kernels()
         a, b, c, d, e, f = (float(v) for v in transform)
         return k["affine_gather"](
             block, int(row0), int(col0), np.ascontiguousarray(x, dtype=float),
             np.ascontiguousarray(y, dtype=float), a, b, c, d, e, f, int(width), int(height),
+            float(factor), 0.0 if nodata is None else float(nodata), nodata is not None,
         )
-    return affine_gather_numpy(block, row0, col0, x, y, transform, width, height)
+    return affine_gather_numpy(block, row0, col0, x, y, transform, width, height, factor, nodata)
+
+
+def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
+    """Load (or compile) the numba kernels for these cell types now, not on the first big batch."""
+    if os.environ.get("TERRAHOP_NO_NUMBA"):
+        return
+    k = _numba_kernels()
+    if k is None:
+        return
+    one = np.zeros((1, 2))
+    k["hermite"](one, np.array([0, 2], dtype=np.int64), np.ones(1), np.zeros(2), np.zeros(2),
+                 np.zeros(2), np.zeros(2))
+    for dt in dict.fromkeys(np.dtype(d) for d in block_dtypes):
+        k["affine_gather"](np.zeros((2, 2), dtype=dt), 0, 0, np.zeros(1), np.zeros(1),
+                           1.0, 0.0, 0.0, 0.0, -1.0, 0.0, 2, 2, 1.0, 0.0, False)

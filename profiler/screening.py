@@ -406,11 +406,19 @@ def _worker_model(model: ElevationModel) -> ElevationModel:
     key = _model_key(model)
     with _WORKER_LOCK:
         if _WORKER.get("key") != key:
-            if model.total_cells() <= PRELOAD_MAX_CELLS:
-                model.preload(max_cells=PRELOAD_MAX_CELLS)
+            _prepare(model)
             _WORKER["key"] = key
             _WORKER["model"] = model
         return _WORKER["model"]
+
+
+def _prepare(model: ElevationModel) -> None:
+    """Read small rasters whole and load the compiled kernels for their cell types."""
+    from .kernels import warm_up
+
+    if model.total_cells() <= PRELOAD_MAX_CELLS:
+        model.preload(max_cells=PRELOAD_MAX_CELLS)
+    warm_up(tuple(entry[2].dtype for entry in model._cache.values()) or (np.float64,))
 
 
 def _init_local_worker(model: ElevationModel) -> None:
@@ -427,6 +435,10 @@ def run_chunk(model: ElevationModel, task: ChunkTask):
 
 def _local_pool_run(task: ChunkTask):
     return evaluate_chunk(_WORKER["model"], task)
+
+
+def _warm() -> None:
+    """A no-op task that makes a pool start its workers now."""
 
 
 class _InProcess:
@@ -461,6 +473,8 @@ class _LocalPool:
             ctx.set_forkserver_preload(["profiler.screening"])
         self.pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_init_local_worker,
                                         initargs=(model,))
+        for _ in range(workers):  # start the workers while the parent prepares the pairs
+            self.pool.submit(_warm)
 
     def submit(self, task: ChunkTask):
         return self.pool.submit(_local_pool_run, task)
@@ -669,8 +683,6 @@ def screen(
     of the same inputs continues; without it a leftover staging folder is an
     error unless ``restart`` discards it.
     """
-    from .io.screen_output import write_outputs
-
     t0 = time.perf_counter()
     radio.validate()
     settings.validate()
@@ -684,6 +696,28 @@ def screen(
     if not covered.all():
         sites, plan = _drop_sites(sites, plan, covered)
     bad.sort(key=lambda r: (r.source != sites.source, r.row))
+    executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
+    try:
+        return _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max,
+                       resume, restart, chunk_pairs, min_margin_db, progress, t0)
+    finally:
+        executor.close(cancel=True)
+
+
+def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:
+    """A cheap upper bound of the number of pairs (to choose in-process or a pool)."""
+    n = len(sites)
+    if plan.explicit is not None:
+        return int(plan.explicit[0].size)
+    if plan.hubs:
+        return len(plan.hubs) * n
+    return n * (n - 1) // 2
+
+
+def _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max, resume, restart,
+            chunk_pairs, min_margin_db, progress, t0) -> "ScreenSummary":
+    from .io.screen_output import write_outputs
+
     stage = Stage(staging_folder(out))
     fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
     total = count_pairs(sites, plan)
@@ -709,13 +743,11 @@ def screen(
         done_rows = done_chunks = 0
     resumed = done_rows
     stage.open()
-    executor = None
     try:
         remaining = total - done_rows
         if progress:
             progress(done_rows, total)
         if remaining > 0:
-            executor, inflight_max = _executor(model, workers, scheduler, remaining, chunk_pairs)
             pending: deque = deque()
             chunks = _chunks(sites, plan, chunk_pairs, skip_pairs=done_rows)
             exhausted = False
@@ -735,15 +767,8 @@ def screen(
                 stage.append(cols, problems, done_chunks, done_rows)
                 if progress:
                     progress(done_rows, total)
-    except BaseException:
-        if executor is not None:
-            executor.close(cancel=True)
-            executor = None
-        raise
     finally:
         stage.close()
-        if executor is not None:
-            executor.close()
     cols = stage.columns(done_rows)
     problems = {int(p): str(m) for p, m in stage.problems()}
     codes = verdicts(cols, min_margin_db)

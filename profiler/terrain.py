@@ -161,7 +161,7 @@ class ElevationModel:
         )
         self.nodata_fill_m = nodata_fill_m
         self._datasets: dict[str, object] = {}
-        self._cache: dict[str, tuple[int, int, np.ndarray]] = {}
+        self._cache: dict[str, tuple[int, int, np.ndarray, float, float | None]] = {}
 
     # Workers (processes, Dask) get the paths and reopen the files themselves.
     def __getstate__(self) -> dict:
@@ -214,7 +214,27 @@ class ElevationModel:
             if total > max_cells:
                 break
             if s.path not in self._cache:
-                self._cache[s.path] = (0, 0, self._read(s, 0, 0, s.height, s.width))
+                self._cache[s.path] = (0, 0, *self._read_stored(s, 0, 0, s.height, s.width))
+
+    def _read_stored(
+        self, s: RasterSource, row0: int, col0: int, nrows: int, ncols: int
+    ) -> tuple[np.ndarray, float, float | None]:
+        """Cells as stored (e.g. int16, a quarter of float64) with their unit factor and nodata.
+
+        Kept in the file's type when nodata is exactly the cells equal to the
+        nodata value, else converted to float64 metres with NaN holes as
+        :meth:`_read` does; the gather converts in the same way either way.
+        """
+        from rasterio.windows import Window
+
+        block = self._dataset(s.path).read(1, window=Window(col0, row0, ncols, nrows), masked=True)
+        raw = np.ascontiguousarray(block.data)
+        mask = np.ma.getmask(block)
+        if mask is np.ma.nomask or not mask.any():
+            return raw, s.unit_factor_m, None
+        if s.nodata is not None and np.array_equal(mask, raw == raw.dtype.type(s.nodata)):
+            return raw, s.unit_factor_m, float(raw.dtype.type(s.nodata))
+        return block.astype(np.float64).filled(np.nan) * s.unit_factor_m, 1.0, None
 
     def _read(self, s: RasterSource, row0: int, col0: int, nrows: int, ncols: int) -> np.ndarray:
         from rasterio.windows import Window
@@ -240,8 +260,8 @@ class ElevationModel:
         y = np.asarray(y, dtype=float)
         cached = self._cache.get(s.path)
         if cached is not None:
-            r0, c0, block = cached
-            return affine_gather(block, r0, c0, x, y, s.transform, s.width, s.height)
+            r0, c0, block, factor, nodata = cached
+            return affine_gather(block, r0, c0, x, y, s.transform, s.width, s.height, factor, nodata)
         col, row = pixel_numpy(x, y, s.transform)
         inside = (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
         out = np.full(col.shape, np.nan)
@@ -306,14 +326,10 @@ class ElevationModel:
         from .kernels import cell_numpy, gather_bilinear
 
         x, y, x0, y0 = cell_numpy(col, row, s.width, s.height)
-        cached = self._cache.get(s.path)
-        if cached is not None:
-            r0, c0, block = cached
-        else:
-            r0, c0 = int(y0.min()), int(x0.min())
-            r1 = min(int(y0.max()) + 2, s.height)
-            c1 = min(int(x0.max()) + 2, s.width)
-            block = self._read(s, r0, c0, r1 - r0, c1 - c0)
+        r0, c0 = int(y0.min()), int(x0.min())
+        r1 = min(int(y0.max()) + 2, s.height)
+        c1 = min(int(x0.max()) + 2, s.width)
+        block = self._read(s, r0, c0, r1 - r0, c1 - c0)
         return gather_bilinear(block, x - c0, y - r0, x0 - c0, y0 - r0)
 
     def cell_size_m(self, lon_deg: float, lat_deg: float) -> float:

@@ -39,7 +39,8 @@ def test_affine_gather_numba_equals_numpy_bitwise_with_nodata_and_outside_points
     y = rng.uniform(46.69, 47.01, 50_000)
     ref_v, ref_in = kernels.affine_gather_numpy(block, 0, 0, x, y, transform, 400, 300)
     a, b, c, d, e, f = transform
-    got_v, got_in = kernels._numba_kernels()["affine_gather"](block, 0, 0, x, y, a, b, c, d, e, f, 400, 300)
+    got_v, got_in = kernels._numba_kernels()["affine_gather"](
+        block, 0, 0, x, y, a, b, c, d, e, f, 400, 300, 1.0, 0.0, False)
     assert np.array_equal(ref_in, got_in)
     assert not ref_in.all() and np.isnan(ref_v).any()
     assert np.array_equal(ref_v, got_v, equal_nan=True)
@@ -49,3 +50,25 @@ def test_dispatch_uses_numpy_for_small_batches(monkeypatch):
     assert not kernels.use_numba(10)
     monkeypatch.setenv("TERRAHOP_NO_NUMBA", "1")
     assert not kernels.use_numba(10 * kernels.NUMBA_MIN_SAMPLES)
+
+
+@pytest.mark.parametrize("compiled", [False, True])
+def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(compiled):
+    """int16 cells with a nodata value and a foot unit: same result as float64 metres with NaN holes."""
+    rng = np.random.default_rng(9)
+    raw = rng.integers(-100, 3000, (200, 250)).astype(np.int16)
+    raw[50:60, 70:90] = -32768
+    factor = 0.3048
+    metres = np.where(raw == -32768, np.nan, raw.astype(np.float64) * factor)
+    transform = (30.0, 0.0, 500_000.0, 0.0, -30.0, 6_000_000.0)
+    x = rng.uniform(500_000, 500_000 + 250 * 30, 30_000)
+    y = rng.uniform(6_000_000 - 200 * 30, 6_000_000, 30_000)
+    ref, _ = kernels.affine_gather_numpy(metres, 0, 0, x, y, transform, 250, 200)
+    if compiled:
+        a, b, c, d, e, f = transform
+        got, _ = kernels._numba_kernels()["affine_gather"](
+            raw, 0, 0, x, y, a, b, c, d, e, f, 250, 200, factor, -32768.0, True)
+    else:
+        got, _ = kernels.affine_gather_numpy(raw, 0, 0, x, y, transform, 250, 200, factor, -32768.0)
+    assert np.isnan(ref).any()
+    assert np.array_equal(ref, got, equal_nan=True)

@@ -128,11 +128,7 @@ def write_outputs(
     out: str | os.PathLike, staging: Path, sites, cols: dict, codes: np.ndarray, problems: dict, settings
 ) -> list[str]:
     """Write the ranked links and the sites; return the paths written."""
-    import geopandas as gpd
-    import pandas as pd
     import pyogrio
-
-    from ..screening import VERDICTS
 
     out = Path(out)
     suffix = out.suffix.lower()
@@ -141,8 +137,27 @@ def write_outputs(
             f"output {out}: unknown extension {out.suffix!r}; use .gpkg, .geojson or .csv"
         )
     driver = OUTPUT_SUFFIXES[suffix]
-    verdict_names = [VERDICTS[k] for k in sorted(VERDICTS)]
     order = rank_order(cols)
+    # The file is private until renamed into place: no need for SQLite's crash journal.
+    saved = {k: pyogrio.get_gdal_config_option(k) for k in _FAST_SQLITE}
+    pyogrio.set_gdal_config_options(_FAST_SQLITE)
+    try:
+        return _write(out, suffix, driver, staging, sites, cols, codes, problems, settings, order)
+    finally:
+        pyogrio.set_gdal_config_options(saved)
+
+
+_FAST_SQLITE = {"OGR_SQLITE_SYNCHRONOUS": "OFF", "OGR_SQLITE_JOURNAL": "OFF"}
+
+
+def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings, order) -> list[str]:
+    import geopandas as gpd
+    import pandas as pd
+    import pyogrio
+
+    from ..screening import VERDICTS
+
+    verdict_names = [VERDICTS[k] for k in sorted(VERDICTS)]
     tmp_links = staging / f"links.tmp{suffix}"
     sites_out = out if driver == "GPKG" else out.with_name(f"{out.stem}-sites{out.suffix}")
     tmp_sites = tmp_links if driver == "GPKG" else staging / f"sites.tmp{suffix}"

@@ -1,0 +1,246 @@
+"""Throughput of `terrahop screen` against a straightforward baseline, measured in one run.
+
+Builds a synthetic 1-degree elevation tile at 1 arc-second (3601 x 3601 int16,
+256 x 256 tiles, deflate: laid out like open DEM tiles; the terrain is
+invented) and random site pairs 5-40 km long, then prints:
+
+  * end-to-end pairs/s and samples/s of screening (sites and pairs files read,
+    all cores, GeoPackage written) at 30 m spacing;
+  * the same for a baseline: per pair, points from pyproj and elevations from
+    rasterio's ``sample()``, in a Python loop;
+  * the bare bilinear numpy gather over the same points (a preloaded array,
+    pixel coordinates given): the floor the pipeline is compared with;
+  * peak memory (all processes) of screening N pairs streamed to a GeoPackage.
+
+Run:  python benchmarks/screening.py [--quick] [--memory-pairs N] [--pairs N]
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import os
+import sys
+import tempfile
+import threading
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+SPACING_M = 30.0
+LON0, LAT0 = 10.0, 46.0  # the tile covers 10..11 E, 46..47 N (an invented surface)
+
+
+def make_tile(path: Path, n: int = 3601) -> None:
+    """Invented terrain: smooth hills plus seeded noise, int16 metres, tiled and compressed."""
+    import rasterio
+    from rasterio.transform import from_origin
+
+    rng = np.random.default_rng(1)
+    y, x = np.mgrid[0:n, 0:n].astype(np.float32) / n
+    z = 600 + 300 * np.sin(6 * x) * np.cos(5 * y) + 150 * np.sin(23 * x + 3 * y) + 40 * np.sin(70 * y + 40 * x)
+    z += rng.normal(0, 3, z.shape).astype(np.float32)
+    res = 1.0 / 3600.0
+    transform = from_origin(LON0 - res / 2, LAT0 + 1 + res / 2, res, res)
+    with rasterio.open(path, "w", driver="GTiff", width=n, height=n, count=1, dtype="int16",
+                       crs="EPSG:4326", transform=transform, tiled=True, blockxsize=256,
+                       blockysize=256, compress="deflate", nodata=-32768) as dst:
+        dst.write(z.astype(np.int16), 1)
+
+
+def random_pairs(n: int, seed: int = 0) -> tuple[np.ndarray, ...]:
+    """``n`` pairs 5-40 km long with both ends inside the tile."""
+    from profiler.geodesy import WGS84
+
+    rng = np.random.default_rng(seed)
+    out = [np.zeros(0)] * 4
+    while out[0].size < n:
+        k = 2 * n
+        lat_a = rng.uniform(LAT0 + 0.01, LAT0 + 0.99, k)
+        lon_a = rng.uniform(LON0 + 0.01, LON0 + 0.99, k)
+        lon_b, lat_b, _ = WGS84.fwd(lon_a, lat_a, rng.uniform(0, 360, k), rng.uniform(5_000, 40_000, k))
+        ok = (lat_b > LAT0 + 0.005) & (lat_b < LAT0 + 0.995) & (lon_b > LON0 + 0.005) & (lon_b < LON0 + 0.995)
+        out = [np.concatenate([o, v[ok]]) for o, v in zip(out, (lat_a, lon_a, lat_b, lon_b))]
+    return tuple(o[:n] for o in out)
+
+
+def write_inputs(folder: Path, pairs: tuple[np.ndarray, ...]) -> tuple[Path, Path]:
+    lat_a, lon_a, lat_b, lon_b = pairs
+    n = lat_a.size
+    sites, plist = folder / "sites.csv", folder / "pairs.csv"
+    with open(sites, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["name", "lat", "lon", "antenna_agl_m"])
+        for k in range(n):
+            w.writerow([f"a{k}", f"{lat_a[k]:.7f}", f"{lon_a[k]:.7f}", "20"])
+            w.writerow([f"b{k}", f"{lat_b[k]:.7f}", f"{lon_b[k]:.7f}", "20"])
+    with open(plist, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["a", "b"])
+        for k in range(n):
+            w.writerow([f"a{k}", f"b{k}"])
+    return sites, plist
+
+
+class PeakMemory:
+    """Peak of the summed resident memory of this process and its children, sampled every 50 ms."""
+
+    def __init__(self) -> None:
+        import psutil
+
+        self.proc = psutil.Process()
+        self.peak = 0
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def _run(self) -> None:
+        import psutil
+
+        while not self._stop.is_set():
+            total = 0
+            for p in [self.proc, *self.proc.children(recursive=True)]:
+                try:
+                    total += p.memory_info().rss
+                except psutil.Error:
+                    pass
+            self.peak = max(self.peak, total)
+            time.sleep(0.05)
+
+    def __enter__(self) -> "PeakMemory":
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self._stop.set()
+        self._thread.join()
+
+
+def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, workers: int,
+               max_km: float | None = None):
+    from profiler.budget import Radio
+    from profiler.io.sites import read_pairs, read_sites
+    from profiler.link import Settings
+    from profiler.screening import PairPlan, screen
+    from profiler.terrain import ElevationModel
+
+    sites, bad = read_sites(sites_csv)
+    explicit = None
+    if pairs_csv is not None:
+        a, b, bad_pairs = read_pairs(pairs_csv, sites.names)
+        explicit = (a, b)
+    with ElevationModel([dem]) as model:
+        return screen(sites, model, Radio(5.8, gain_a_dbi=30, gain_b_dbi=30), Settings(spacing_m=SPACING_M),
+                      out, plan=PairPlan(max_km=max_km, explicit=explicit), workers=workers, restart=True)
+
+
+def baseline(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float, int]:
+    """Per pair: pyproj points at 30 m, rasterio ``sample()`` elevations, in a loop."""
+    import rasterio
+    from pyproj import Geod
+
+    geod = Geod(ellps="WGS84")
+    lat_a, lon_a, lat_b, lon_b = (p[:n] for p in pairs)
+    samples = 0
+    t = time.perf_counter()
+    with rasterio.open(dem) as src:
+        for k in range(n):
+            az, _, dist = geod.inv(lon_a[k], lat_a[k], lon_b[k], lat_b[k])
+            m = int(np.ceil(dist / SPACING_M)) + 1
+            d = np.linspace(0.0, dist, m)
+            lon, lat, _ = geod.fwd(np.full(m, lon_a[k]), np.full(m, lat_a[k]), np.full(m, az), d)
+            heights = [v[0] for v in src.sample(zip(lon, lat))]
+            samples += len(heights)
+    return time.perf_counter() - t, samples
+
+
+def bare_gather(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float, int]:
+    """The bilinear gather alone over the same sample points (array in memory, points given)."""
+    from profiler.geodesy import sample_paths
+    from profiler.kernels import cell_numpy, gather_bilinear
+    from profiler.terrain import ElevationModel
+
+    lat_a, lon_a, lat_b, lon_b = (p[:n] for p in pairs)
+    lat, lon, _, counts, _ = sample_paths(lat_a, lon_a, lat_b, lon_b, SPACING_M)
+    keep = np.arange(lat.shape[1])[None, :] < counts[:, None]
+    lat, lon = lat[keep], lon[keep]
+    with ElevationModel([dem]) as model:
+        model.preload()
+        s = model.sources[0]
+        block = model._cache[s.path][2].astype(np.float64)  # metres, as a plain float array
+        a, _, c, _, e, f = s.transform
+        col, row = (lon - c) / a, (lat - f) / e
+        best = np.inf
+        for _ in range(3):
+            t = time.perf_counter()
+            x, y, x0, y0 = cell_numpy(col, row, s.width, s.height)
+            gather_bilinear(block, x, y, x0, y0)
+            best = min(best, time.perf_counter() - t)
+    return best, int(lat.size)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--quick", action="store_true", help="fewer pairs: a few minutes in all")
+    ap.add_argument("--pairs", type=int, default=None, help="pairs screened for the speed figures")
+    ap.add_argument("--memory-pairs", type=int, default=None,
+                    help="pairs streamed for the memory figure [1,000,000; 100,000 with --quick; 0 skips]")
+    ap.add_argument("--workers", type=int, default=os.cpu_count() or 1)
+    ap.add_argument("--keep", type=Path, default=None, help="folder to keep the tile and inputs in")
+    args = ap.parse_args()
+    n_pairs = args.pairs or (20_000 if args.quick else 100_000)
+    n_base = 40 if args.quick else 150
+    n_mem = args.memory_pairs if args.memory_pairs is not None else (100_000 if args.quick else 1_000_000)
+    folder = args.keep or Path(tempfile.mkdtemp(prefix="terrahop-bench-"))
+    folder.mkdir(parents=True, exist_ok=True)
+    dem = folder / "tile_1arcsec.tif"
+    if not dem.exists():
+        t = time.perf_counter()
+        make_tile(dem)
+        print(f"tile: 3601 x 3601 int16, deflate, 256x256 blocks ({dem.stat().st_size / 2**20:.1f} MiB) "
+              f"built in {time.perf_counter() - t:.1f} s")
+    pairs = random_pairs(n_pairs)
+    sites_csv, pairs_csv = write_inputs(folder, pairs)
+    print(f"{n_pairs} random pairs of 5-40 km, {SPACING_M:g} m spacing, {args.workers} worker(s), "
+          f"{os.cpu_count()} core(s)")
+
+    t_base, s_base = baseline(dem, pairs, n_base)
+    print(f"baseline (pyproj points + rasterio sample(), per pair): {n_base / t_base:10,.1f} pairs/s "
+          f"{s_base / t_base:14,.0f} samples/s")
+    t_gather, s_gather = bare_gather(dem, pairs, min(n_pairs, 5000))
+    print(f"bare bilinear numpy gather over the same points:        {'':>16} {s_gather / t_gather:14,.0f} samples/s")
+    t = time.perf_counter()
+    summary = run_screen(dem, sites_csv, pairs_csv, folder / "screen.gpkg", args.workers)
+    t_screen = time.perf_counter() - t
+    rate_p, rate_s = summary.pairs / t_screen, summary.samples / t_screen
+    print(f"terrahop screen, end to end:                            {rate_p:10,.1f} pairs/s "
+          f"{rate_s:14,.0f} samples/s  ({summary.pairs} pairs, {summary.samples:,} samples, {t_screen:.1f} s)")
+    print(f"screen / baseline:  {rate_p / (n_base / t_base):8.0f} x pairs/s   (target >= 200 x)")
+    print(f"screen / bare gather: {rate_s / (s_gather / t_gather):6.2f} x samples/s (target >= 1 x)")
+    if n_mem:
+        from profiler.io.sites import read_sites  # noqa: F401  (imported before measuring)
+
+        # All pairs within 40 km of enough sites spread over the tile.
+        n_sites = int(np.sqrt(2 * n_mem / 0.33)) + 1
+        rng = np.random.default_rng(5)
+        mem_sites = folder / "mem_sites.csv"
+        with open(mem_sites, "w", newline="") as fh:
+            w = csv.writer(fh)
+            w.writerow(["name", "lat", "lon", "antenna_agl_m"])
+            for k in range(n_sites):
+                w.writerow([f"s{k}", f"{rng.uniform(LAT0 + .01, LAT0 + .99):.7f}",
+                            f"{rng.uniform(LON0 + .01, LON0 + .99):.7f}", "20"])
+        t = time.perf_counter()
+        with PeakMemory() as mem:
+            summary = run_screen(dem, mem_sites, None, folder / "memory.gpkg", args.workers, max_km=40.0)
+        dt = time.perf_counter() - t
+        print(f"memory: {summary.pairs:,} pairs (all pairs of {n_sites} sites within 40 km) streamed to a "
+              f"GeoPackage in {dt:.0f} s ({summary.pairs / dt:,.0f} pairs/s); peak resident memory of all "
+              f"processes {mem.peak / 2**20:,.0f} MiB (target < 1024 MiB)")
+    print(f"files in {folder}")
+
+
+if __name__ == "__main__":
+    main()
