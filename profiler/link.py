@@ -291,11 +291,14 @@ def analyse_links(
     settings: Settings = Settings(),
     *,
     names: Sequence[str] | None = None,
+    check_sites: bool = True,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
     Paths that cannot be profiled (outside the rasters, nodata) are kept with
     a sentence in ``problems``; their numbers are meaningless.
+    ``check_sites=False`` skips the per-site checks for callers that made
+    them already (screening validates each site once, not once per pair).
     """
     if len(sites_a) != len(sites_b):
         raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
@@ -304,7 +307,7 @@ def analyse_links(
     radio.validate()
     settings.validate()
     names = list(names) if names is not None else [f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)]
-    for a, b, name in zip(sites_a, sites_b, names):
+    for a, b, name in zip(sites_a, sites_b, names) if check_sites else ():
         a.validate(f"{name}: site a")
         b.validate(f"{name}: site b")
         if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):

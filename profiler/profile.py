@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -43,7 +44,7 @@ class Profiles:
         """Ground plus clutter, metres above the vertical datum."""
         return self.ground_m + self.clutter_m
 
-    @property
+    @cached_property
     def interior(self) -> np.ndarray:
         """True for samples strictly between the two ends of each path."""
         col = np.arange(self.distance_m.shape[1])[None, :]

@@ -18,6 +18,7 @@ import hashlib
 import json
 import os
 import shutil
+import sys
 import threading
 import time
 from collections import deque
@@ -68,7 +69,7 @@ COLUMNS: dict[str, str] = {
 }
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
-SUBBATCH_SAMPLES = 120_000
+SUBBATCH_SAMPLES = 200_000
 #: Rasters up to this many cells are read whole into each worker's memory.
 PRELOAD_MAX_CELLS = 40_000_000
 
@@ -353,8 +354,10 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
     radio = task.radio
     if task.gain_a is not None:
         radio = dataclasses.replace(radio, gain_a_dbi=task.gain_a[idx], gain_b_dbi=task.gain_b[idx])
+    # Sites were checked when read, and same-place pairs set aside, so skip the per-pair checks.
     batch = analyse_links(model, sites_a, sites_b, radio, task.settings,
-                          names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)])
+                          names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)],
+                          check_sites=False)
     lines = batch.profiles.lines
     d, w = batch.design, batch.worst
     cols = {
@@ -467,7 +470,11 @@ class _LocalPool:
         import multiprocessing as mp
         from concurrent.futures import ProcessPoolExecutor
 
-        method = "forkserver" if "forkserver" in mp.get_all_start_methods() else "spawn"
+        # Linux: fork, so workers start with the parent's modules already imported (the
+        # pool starts before any progress-bar thread); elsewhere a fresh interpreter each.
+        methods = mp.get_all_start_methods()
+        method = "fork" if sys.platform.startswith("linux") and "fork" in methods else (
+            "forkserver" if "forkserver" in methods else "spawn")
         ctx = mp.get_context(method)
         if method == "forkserver":
             ctx.set_forkserver_preload(["profiler.screening"])

@@ -74,7 +74,11 @@ class _Progress:
         self.task = None
 
     def __enter__(self) -> "_Progress":
-        if self.enabled:
+        return self
+
+    def _start(self) -> None:
+        # Started on the first report, after the worker processes exist (no thread is forked).
+        if self.enabled and self.bar is None:
             from rich.console import Console
             from rich.progress import (BarColumn, MofNCompleteColumn, Progress, TaskProgressColumn,
                                        TextColumn, TimeElapsedColumn, TimeRemainingColumn)
@@ -85,9 +89,9 @@ class _Progress:
                 TimeRemainingColumn(), console=Console(stderr=True), transient=True,
             )
             self.bar.__enter__()
-        return self
 
     def update(self, done: int, total: int) -> None:
+        self._start()
         if self.bar is None:
             return
         if self.task is None:
