@@ -5,7 +5,8 @@ Builds a synthetic 1-degree elevation tile at 1 arc-second (3601 x 3601 int16,
 invented) and random site pairs 5-40 km long, then prints:
 
   * end-to-end pairs/s and samples/s of screening (sites and pairs files read,
-    all cores, GeoPackage written) at 30 m spacing;
+    all cores, GeoPackage written) at 30 m spacing, pairs drawn among a pool
+    of n/5 sites (each site in about ten candidate pairs);
   * the same for a baseline: per pair, points from pyproj and elevations from
     rasterio's ``sample()``, in a Python loop;
   * the bare bilinear numpy gather over the same points (a preloaded array,
@@ -51,37 +52,47 @@ def make_tile(path: Path, n: int = 3601) -> None:
         dst.write(z.astype(np.int16), 1)
 
 
-def random_pairs(n: int, seed: int = 0) -> tuple[np.ndarray, ...]:
-    """``n`` pairs 5-40 km long with both ends inside the tile."""
+def random_pairs(n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """A pool of n/5 sites inside the tile and ``n`` distinct pairs of them 5-40 km apart.
+
+    Returns ``(lat, lon, a, b)``: site positions and the pairs' site indices.
+    """
     from profiler.geodesy import WGS84
 
     rng = np.random.default_rng(seed)
-    out = [np.zeros(0)] * 4
-    while out[0].size < n:
-        k = 2 * n
-        lat_a = rng.uniform(LAT0 + 0.01, LAT0 + 0.99, k)
-        lon_a = rng.uniform(LON0 + 0.01, LON0 + 0.99, k)
-        lon_b, lat_b, _ = WGS84.fwd(lon_a, lat_a, rng.uniform(0, 360, k), rng.uniform(5_000, 40_000, k))
-        ok = (lat_b > LAT0 + 0.005) & (lat_b < LAT0 + 0.995) & (lon_b > LON0 + 0.005) & (lon_b < LON0 + 0.995)
-        out = [np.concatenate([o, v[ok]]) for o, v in zip(out, (lat_a, lon_a, lat_b, lon_b))]
-    return tuple(o[:n] for o in out)
+    n_sites = max(n // 5, 50)
+    lat = rng.uniform(LAT0 + 0.01, LAT0 + 0.99, n_sites)
+    lon = rng.uniform(LON0 + 0.01, LON0 + 0.99, n_sites)
+    keys = np.zeros(0, dtype=np.int64)
+    while keys.size < n:
+        a = rng.integers(0, n_sites, 4 * n)
+        b = rng.integers(0, n_sites, 4 * n)
+        a, b = np.minimum(a, b), np.maximum(a, b)
+        ok = a < b
+        a, b = a[ok], b[ok]
+        _, _, dist = WGS84.inv(lon[a], lat[a], lon[b], lat[b])
+        ok = (dist >= 5_000) & (dist <= 40_000)
+        new = a[ok] * n_sites + b[ok]
+        keys = np.concatenate([keys, new])
+        _, first = np.unique(keys, return_index=True)
+        keys = keys[np.sort(first)]
+    keys = keys[:n]
+    return lat, lon, keys // n_sites, keys % n_sites
 
 
 def write_inputs(folder: Path, pairs: tuple[np.ndarray, ...]) -> tuple[Path, Path]:
-    lat_a, lon_a, lat_b, lon_b = pairs
-    n = lat_a.size
+    lat, lon, a, b = pairs
     sites, plist = folder / "sites.csv", folder / "pairs.csv"
     with open(sites, "w", newline="") as fh:
         w = csv.writer(fh)
         w.writerow(["name", "lat", "lon", "antenna_agl_m"])
-        for k in range(n):
-            w.writerow([f"a{k}", f"{lat_a[k]:.7f}", f"{lon_a[k]:.7f}", "20"])
-            w.writerow([f"b{k}", f"{lat_b[k]:.7f}", f"{lon_b[k]:.7f}", "20"])
+        for k in range(lat.size):
+            w.writerow([f"s{k}", f"{lat[k]:.7f}", f"{lon[k]:.7f}", "20"])
     with open(plist, "w", newline="") as fh:
         w = csv.writer(fh)
         w.writerow(["a", "b"])
-        for k in range(n):
-            w.writerow([f"a{k}", f"b{k}"])
+        for i, j in zip(a.tolist(), b.tolist()):
+            w.writerow([f"s{i}", f"s{j}"])
     return sites, plist
 
 
@@ -142,7 +153,8 @@ def baseline(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float, i
     from pyproj import Geod
 
     geod = Geod(ellps="WGS84")
-    lat_a, lon_a, lat_b, lon_b = (p[:n] for p in pairs)
+    lat, lon, ia, ib = pairs
+    lat_a, lon_a, lat_b, lon_b = lat[ia[:n]], lon[ia[:n]], lat[ib[:n]], lon[ib[:n]]
     samples = 0
     t = time.perf_counter()
     with rasterio.open(dem) as src:
@@ -162,8 +174,8 @@ def bare_gather(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float
     from profiler.kernels import cell_numpy, gather_bilinear
     from profiler.terrain import ElevationModel
 
-    lat_a, lon_a, lat_b, lon_b = (p[:n] for p in pairs)
-    lat, lon, _, counts, _ = sample_paths(lat_a, lon_a, lat_b, lon_b, SPACING_M)
+    plat, plon, ia, ib = pairs
+    lat, lon, _, counts, _ = sample_paths(plat[ia[:n]], plon[ia[:n]], plat[ib[:n]], plon[ib[:n]], SPACING_M)
     keep = np.arange(lat.shape[1])[None, :] < counts[:, None]
     lat, lon = lat[keep], lon[keep]
     with ElevationModel([dem]) as model:
@@ -203,8 +215,8 @@ def main() -> None:
               f"built in {time.perf_counter() - t:.1f} s")
     pairs = random_pairs(n_pairs)
     sites_csv, pairs_csv = write_inputs(folder, pairs)
-    print(f"{n_pairs} random pairs of 5-40 km, {SPACING_M:g} m spacing, {args.workers} worker(s), "
-          f"{os.cpu_count()} core(s)")
+    print(f"{n_pairs} random pairs of 5-40 km among {pairs[0].size} sites, {SPACING_M:g} m spacing, "
+          f"{args.workers} worker(s), {os.cpu_count()} core(s)")
 
     t_base, s_base = baseline(dem, pairs, n_base)
     print(f"baseline (pyproj points + rasterio sample(), per pair): {n_base / t_base:10,.1f} pairs/s "

@@ -149,6 +149,13 @@ def write_outputs(
 
 _FAST_SQLITE = {"OGR_SQLITE_SYNCHRONOUS": "OFF", "OGR_SQLITE_JOURNAL": "OFF"}
 
+try:  # pyarrow lets GDAL write whole batches at once (about twice as fast)
+    import pyarrow  # noqa: F401
+
+    _HAVE_ARROW = True
+except ImportError:  # pragma: no cover - pyarrow is a dependency; tolerate its absence
+    _HAVE_ARROW = False
+
 
 def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings, order) -> list[str]:
     import geopandas as gpd
@@ -173,7 +180,8 @@ def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings,
             frame.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)
         else:
             gdf = gpd.GeoDataFrame(frame, geometry=_lines(frame), crs="EPSG:4326")
-            pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first)
+            pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
+                                    use_arrow=_HAVE_ARROW)
         first = False
     stats = _site_stats(len(sites), cols, codes, sites.names)
     site_frame = pd.DataFrame({
@@ -193,7 +201,8 @@ def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings,
         import shapely
 
         gdf = gpd.GeoDataFrame(site_frame, geometry=shapely.points(sites.lon_deg, sites.lat_deg), crs="EPSG:4326")
-        pyogrio.write_dataframe(gdf, tmp_sites, layer="sites", driver=driver, append=driver == "GPKG")
+        pyogrio.write_dataframe(gdf, tmp_sites, layer="sites", driver=driver, append=driver == "GPKG",
+                                use_arrow=_HAVE_ARROW)
     os.replace(tmp_links, out)
     written = [str(out)]
     if driver != "GPKG":
