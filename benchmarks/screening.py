@@ -181,7 +181,7 @@ def bare_gather(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float
     with ElevationModel([dem]) as model:
         model.preload()
         s = model.sources[0]
-        block = model._cache[s.path][2].astype(np.float64)  # metres, as a plain float array
+        block = model._cache[s.path].to_array().astype(np.float64)  # metres, a plain float array
         a, _, c, _, e, f = s.transform
         col, row = (lon - c) / a, (lat - f) / e
         best = np.inf

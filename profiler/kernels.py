@@ -10,15 +10,57 @@ among a million give the same numbers.  Pure functions, no I/O.
 from __future__ import annotations
 
 import os
+from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES"]
+__all__ = [
+    "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
+    "StoredCells", "TILE",
+]
 
 #: Batches with at least this many samples use the compiled kernels.
 NUMBA_MIN_SAMPLES = 20_000
 
 _compiled: dict[str, object] = {}
+
+#: Side of the square tiles cached rasters are stored in, cells.  Neighbouring
+#: cells above and below then share cache lines, which matters for paths running
+#: north-south (a row-major raster puts each row of their path on a new line).
+TILE = 8
+
+
+@dataclass(frozen=True)
+class StoredCells:
+    """A raster window kept in memory: cells as stored, in TILE x TILE tiles.
+
+    ``tiles`` has shape (ceil(height/TILE), ceil(width/TILE), TILE, TILE); cell
+    (r, c) of the window is ``tiles[r // TILE, c // TILE, r % TILE, c % TILE]``.
+    Each cell means float64(cell) * ``factor`` metres, NaN where it equals ``nodata``.
+    """
+
+    row0: int
+    col0: int
+    height: int
+    width: int
+    tiles: np.ndarray
+    factor: float
+    nodata: float | None
+
+    @classmethod
+    def from_array(cls, cells: np.ndarray, row0: int, col0: int, factor: float,
+                   nodata: float | None) -> "StoredCells":
+        h, w = cells.shape
+        th, tw = -(-h // TILE), -(-w // TILE)
+        padded = np.zeros((th * TILE, tw * TILE), dtype=cells.dtype)
+        padded[:h, :w] = cells
+        tiles = np.ascontiguousarray(padded.reshape(th, TILE, tw, TILE).swapaxes(1, 2))
+        return cls(row0, col0, h, w, tiles, factor, nodata)
+
+    def to_array(self) -> np.ndarray:
+        """The cells as a plain (height, width) array, as stored."""
+        th, tw = self.tiles.shape[:2]
+        return self.tiles.swapaxes(1, 2).reshape(th * TILE, tw * TILE)[: self.height, : self.width]
 
 
 def use_numba(n_samples: int) -> bool:
@@ -121,18 +163,18 @@ def gather_bilinear(
 
 
 def gather_bilinear_stored(
-    block: np.ndarray, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray,
-    factor: float, nodata: float | None,
+    cells: StoredCells, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray
 ) -> np.ndarray:
-    """:func:`gather_bilinear` on cells as stored: each corner is float64(cell) * factor, NaN if nodata."""
-    h, w = block.shape
+    """:func:`gather_bilinear` on stored cells: each corner is float64(cell) * factor, NaN if nodata."""
+    h, w = cells.height, cells.width
+    tiles, factor, nodata = cells.tiles, cells.factor, cells.nodata
     x1 = np.minimum(x0 + 1, w - 1)
     y1 = np.minimum(y0 + 1, h - 1)
     fx = x - x0
     fy = y - y0
 
     def corner(rows, cols):
-        raw = block[rows, cols]
+        raw = tiles[rows // TILE, cols // TILE, rows % TILE, cols % TILE]
         v = raw.astype(np.float64) * factor
         return v if nodata is None else np.where(raw == nodata, np.nan, v)
 
@@ -146,18 +188,22 @@ def gather_bilinear_stored(
 
 
 def affine_gather_numpy(
-    block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
-    transform: tuple[float, ...], width: int, height: int, factor: float = 1.0, nodata: float | None = None,
+    cells: StoredCells, x: np.ndarray, y: np.ndarray,
+    transform: tuple[float, ...], width: int, height: int,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Elevation from a cached block at CRS points: ``(values, inside)``; NaN outside."""
+    """Elevation from stored cells at CRS points: ``(values, inside)``; NaN outside.
+
+    ``width``/``height`` are the whole raster's; the cells hold a window of it.
+    """
     col, row = pixel_numpy(x, y, transform)
     inside = (col >= 0) & (col <= width) & (row >= 0) & (row <= height)
-    out = np.full(col.shape, np.nan)
+    r0, c0 = cells.row0, cells.col0
     if inside.all():
         xx, yy, x0, y0 = cell_numpy(col, row, width, height)
-        return gather_bilinear_stored(block, xx - col0, yy - row0, x0 - col0, y0 - row0, factor, nodata), inside
+        return gather_bilinear_stored(cells, xx - c0, yy - r0, x0 - c0, y0 - r0), inside
+    out = np.full(col.shape, np.nan)
     xx, yy, x0, y0 = cell_numpy(col[inside], row[inside], width, height)
-    out[inside] = gather_bilinear_stored(block, xx - col0, yy - row0, x0 - col0, y0 - row0, factor, nodata)
+    out[inside] = gather_bilinear_stored(cells, xx - c0, yy - r0, x0 - c0, y0 - r0)
     return out, inside
 
 
@@ -193,12 +239,12 @@ def _build() -> dict:
         return out_lat, out_lon
 
     @numba.njit(cache=True, nogil=True)
-    def affine_gather_nb(block, row0, col0, x, y, a, b, c, d, e, f, width, height, factor, nodata, has_nodata):  # pragma: no cover
+    def affine_gather_nb(tiles, bh, bw, row0, col0, x, y, a, b, c, d, e, f, width, height, factor, nodata,
+                         has_nodata):  # pragma: no cover
         n = x.size
         out = np.empty(n)
         inside = np.empty(n, dtype=np.bool_)
         det = a * e - b * d
-        bh, bw = block.shape
         wmax = width - 1.0
         hmax = height - 1.0
         x0max = max(width - 2, 0)
@@ -225,10 +271,10 @@ def _build() -> dict:
             iy1 = min(iy + 1, bh - 1)
             fx = xr - ix
             fy = yr - iy
-            r00 = block[iy, ix]
-            r01 = block[iy, ix1]
-            r10 = block[iy1, ix]
-            r11 = block[iy1, ix1]
+            r00 = tiles[iy // 8, ix // 8, iy % 8, ix % 8]
+            r01 = tiles[iy // 8, ix1 // 8, iy % 8, ix1 % 8]
+            r10 = tiles[iy1 // 8, ix // 8, iy1 % 8, ix % 8]
+            r11 = tiles[iy1 // 8, ix1 // 8, iy1 % 8, ix1 % 8]
             v00 = np.float64(r00) * factor
             v01 = np.float64(r01) * factor
             v10 = np.float64(r10) * factor
@@ -264,24 +310,24 @@ def hermite_paths(
 
 
 def affine_gather(
-    block: np.ndarray, row0: int, col0: int, x: np.ndarray, y: np.ndarray,
-    transform: tuple[float, ...], width: int, height: int, factor: float = 1.0, nodata: float | None = None,
+    cells: StoredCells, x: np.ndarray, y: np.ndarray,
+    transform: tuple[float, ...], width: int, height: int,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Bilinear elevation from a cached block at CRS points ``x``, ``y`` (1-D).
+    """Bilinear elevation from stored cells at CRS points ``x``, ``y`` (1-D).
 
-    ``block`` holds cells as stored; each is used as float64(cell) * ``factor``
-    and as NaN where it equals ``nodata``.  Returns ``(values, inside)``:
-    ``inside`` is False for points beyond the raster's outer edge (value NaN).
+    Returns ``(values, inside)``: ``inside`` is False for points beyond the
+    raster's outer edge (value NaN).  ``width``/``height``: the whole raster's.
     """
     if use_numba(x.size):
         k = _numba_kernels()
         a, b, c, d, e, f = (float(v) for v in transform)
         return k["affine_gather"](
-            block, int(row0), int(col0), np.ascontiguousarray(x, dtype=float),
-            np.ascontiguousarray(y, dtype=float), a, b, c, d, e, f, int(width), int(height),
-            float(factor), 0.0 if nodata is None else float(nodata), nodata is not None,
+            cells.tiles, cells.height, cells.width, int(cells.row0), int(cells.col0),
+            np.ascontiguousarray(x, dtype=float), np.ascontiguousarray(y, dtype=float),
+            a, b, c, d, e, f, int(width), int(height), float(cells.factor),
+            0.0 if cells.nodata is None else float(cells.nodata), cells.nodata is not None,
         )
-    return affine_gather_numpy(block, row0, col0, x, y, transform, width, height, factor, nodata)
+    return affine_gather_numpy(cells, x, y, transform, width, height)
 
 
 def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
@@ -295,5 +341,5 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     k["hermite"](one, np.array([0, 2], dtype=np.int64), np.ones(1), np.zeros(2), np.zeros(2),
                  np.zeros(2), np.zeros(2))
     for dt in dict.fromkeys(np.dtype(d) for d in block_dtypes):
-        k["affine_gather"](np.zeros((2, 2), dtype=dt), 0, 0, np.zeros(1), np.zeros(1),
+        k["affine_gather"](np.zeros((1, 1, TILE, TILE), dtype=dt), 2, 2, 0, 0, np.zeros(1), np.zeros(1),
                            1.0, 0.0, 0.0, 0.0, -1.0, 0.0, 2, 2, 1.0, 0.0, False)

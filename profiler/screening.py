@@ -421,7 +421,7 @@ def _prepare(model: ElevationModel) -> None:
 
     if model.total_cells() <= PRELOAD_MAX_CELLS:
         model.preload(max_cells=PRELOAD_MAX_CELLS)
-    warm_up(tuple(entry[2].dtype for entry in model._cache.values()) or (np.float64,))
+    warm_up(tuple(cells.tiles.dtype for cells in model._cache.values()) or (np.float64,))
 
 
 def _init_local_worker(model: ElevationModel) -> None:

@@ -20,6 +20,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .errors import DataError, DataFileError, InputError
+from .kernels import StoredCells
 from .units import FEET_TO_M
 
 __all__ = ["RasterSource", "ElevationModel", "VERTICAL_UNITS", "open_elevation"]
@@ -161,7 +162,7 @@ class ElevationModel:
         )
         self.nodata_fill_m = nodata_fill_m
         self._datasets: dict[str, object] = {}
-        self._cache: dict[str, tuple[int, int, np.ndarray, float, float | None]] = {}
+        self._cache: dict[str, StoredCells] = {}
 
     # Workers (processes, Dask) get the paths and reopen the files themselves.
     def __getstate__(self) -> dict:
@@ -214,7 +215,8 @@ class ElevationModel:
             if total > max_cells:
                 break
             if s.path not in self._cache:
-                self._cache[s.path] = (0, 0, *self._read_stored(s, 0, 0, s.height, s.width))
+                cells, factor, nodata = self._read_stored(s, 0, 0, s.height, s.width)
+                self._cache[s.path] = StoredCells.from_array(cells, 0, 0, factor, nodata)
 
     def _read_stored(
         self, s: RasterSource, row0: int, col0: int, nrows: int, ncols: int
@@ -260,8 +262,7 @@ class ElevationModel:
         y = np.asarray(y, dtype=float)
         cached = self._cache.get(s.path)
         if cached is not None:
-            r0, c0, block, factor, nodata = cached
-            return affine_gather(block, r0, c0, x, y, s.transform, s.width, s.height, factor, nodata)
+            return affine_gather(cached, x, y, s.transform, s.width, s.height)
         col, row = pixel_numpy(x, y, s.transform)
         inside = (col >= 0) & (col <= s.width) & (row >= 0) & (row <= s.height)
         out = np.full(col.shape, np.nan)

@@ -30,20 +30,32 @@ def test_hermite_numba_equals_numpy_bitwise():
     assert np.array_equal(ref[0], got[0]) and np.array_equal(ref[1], got[1])
 
 
+def _numba_gather(cells, x, y, transform, width, height):
+    a, b, c, d, e, f = transform
+    return kernels._numba_kernels()["affine_gather"](
+        cells.tiles, cells.height, cells.width, cells.row0, cells.col0, x, y, a, b, c, d, e, f,
+        width, height, cells.factor, 0.0 if cells.nodata is None else cells.nodata, cells.nodata is not None)
+
+
 def test_affine_gather_numba_equals_numpy_bitwise_with_nodata_and_outside_points():
     rng = np.random.default_rng(5)
-    block = rng.normal(100, 30, (300, 400))
+    block = rng.normal(100, 30, (300, 403))
     block[10:20, 30:40] = np.nan
+    cells = kernels.StoredCells.from_array(block, 0, 0, 1.0, None)
+    assert np.array_equal(cells.to_array(), block, equal_nan=True)
     transform = (0.001, 0.0, 10.0, 0.0, -0.001, 47.0)
     x = rng.uniform(9.99, 10.41, 50_000)
     y = rng.uniform(46.69, 47.01, 50_000)
-    ref_v, ref_in = kernels.affine_gather_numpy(block, 0, 0, x, y, transform, 400, 300)
-    a, b, c, d, e, f = transform
-    got_v, got_in = kernels._numba_kernels()["affine_gather"](
-        block, 0, 0, x, y, a, b, c, d, e, f, 400, 300, 1.0, 0.0, False)
+    ref_v, ref_in = kernels.affine_gather_numpy(cells, x, y, transform, 403, 300)
+    got_v, got_in = _numba_gather(cells, x, y, transform, 403, 300)
     assert np.array_equal(ref_in, got_in)
     assert not ref_in.all() and np.isnan(ref_v).any()
     assert np.array_equal(ref_v, got_v, equal_nan=True)
+    # The plain row-major gather of the link path gives the same numbers.
+    inside = ref_in
+    col, row = kernels.pixel_numpy(x[inside], y[inside], transform)
+    xx, yy, x0, y0 = kernels.cell_numpy(col, row, 403, 300)
+    assert np.array_equal(kernels.gather_bilinear(block, xx, yy, x0, y0), ref_v[inside], equal_nan=True)
 
 
 def test_dispatch_uses_numpy_for_small_batches(monkeypatch):
@@ -63,12 +75,12 @@ def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(compiled):
     transform = (30.0, 0.0, 500_000.0, 0.0, -30.0, 6_000_000.0)
     x = rng.uniform(500_000, 500_000 + 250 * 30, 30_000)
     y = rng.uniform(6_000_000 - 200 * 30, 6_000_000, 30_000)
-    ref, _ = kernels.affine_gather_numpy(metres, 0, 0, x, y, transform, 250, 200)
+    ref, _ = kernels.affine_gather_numpy(kernels.StoredCells.from_array(metres, 0, 0, 1.0, None),
+                                         x, y, transform, 250, 200)
+    stored = kernels.StoredCells.from_array(raw, 0, 0, factor, -32768.0)
     if compiled:
-        a, b, c, d, e, f = transform
-        got, _ = kernels._numba_kernels()["affine_gather"](
-            raw, 0, 0, x, y, a, b, c, d, e, f, 250, 200, factor, -32768.0, True)
+        got, _ = _numba_gather(stored, x, y, transform, 250, 200)
     else:
-        got, _ = kernels.affine_gather_numpy(raw, 0, 0, x, y, transform, 250, 200, factor, -32768.0)
+        got, _ = kernels.affine_gather_numpy(stored, x, y, transform, 250, 200)
     assert np.isnan(ref).any()
     assert np.array_equal(ref, got, equal_nan=True)
