@@ -582,11 +582,29 @@ class Stage:
             fh.close()
         self.files.clear()
 
-    def columns(self, rows: int) -> dict[str, np.ndarray]:
+    def columns(self, rows: int, names: Sequence[str] = tuple(COLUMNS)) -> dict[str, np.ndarray]:
+        """The first ``rows`` rows of some columns, in pair order."""
         out = {}
-        for name, dt in COLUMNS.items():
+        for name in names:
+            dt = COLUMNS[name]
             out[name] = np.fromfile(self._column_path(name), dtype=dt, count=rows) if rows else np.zeros(0, dt)
         return out
+
+    def rank(self, order: np.ndarray) -> Callable[[int, int], dict[str, np.ndarray]]:
+        """Rewrite every column in ``order`` (one column in memory at a time); return a batch reader."""
+        folder = self.folder / "ranked"
+        folder.mkdir(exist_ok=True)
+        for name in COLUMNS:
+            self.columns(order.size, (name,))[name][order].tofile(folder / f"{name}.bin")
+
+        def read(start: int, stop: int) -> dict[str, np.ndarray]:
+            out = {}
+            for name, dt in COLUMNS.items():
+                size = np.dtype(dt).itemsize
+                out[name] = np.fromfile(folder / f"{name}.bin", dtype=dt, count=stop - start, offset=start * size)
+            return out
+
+        return read
 
     def problems(self) -> list[list]:
         path = self.folder / "problems.jsonl"
@@ -695,6 +713,9 @@ def screen(
     settings.validate()
     if chunk_pairs < 1:
         raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
+    from .io.screen_output import check_output_path
+
+    check_output_path(out)
     bad = list(bad_rows)
     covered = model.covers(sites.lon_deg, sites.lat_deg)
     for k in np.flatnonzero(~covered):
@@ -723,7 +744,7 @@ def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:
 
 def _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max, resume, restart,
             chunk_pairs, min_margin_db, progress, t0) -> "ScreenSummary":
-    from .io.screen_output import write_outputs
+    from .io.screen_output import rank_order, write_outputs
 
     stage = Stage(staging_folder(out))
     fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
@@ -776,16 +797,19 @@ def _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_ma
                     progress(done_rows, total)
     finally:
         stage.close()
-    cols = stage.columns(done_rows)
+    executor.close()  # free the workers' memory before writing
+    keys = stage.columns(done_rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
+    samples = int(stage.columns(done_rows, ("samples",))["samples"].astype(np.int64).sum())
     problems = {int(p): str(m) for p, m in stage.problems()}
-    codes = verdicts(cols, min_margin_db)
-    outputs = write_outputs(out, stage.folder, sites, cols, codes, problems, settings)
+    codes = verdicts(keys, min_margin_db)
+    ranked = stage.rank(rank_order(keys))
+    outputs = write_outputs(out, stage.folder, sites, keys, codes, ranked, problems, settings)
     shutil.rmtree(stage.folder, ignore_errors=True)
     counts = np.bincount(codes, minlength=4)
     return ScreenSummary(
         outputs=tuple(outputs), sites=len(sites), pairs=int(done_rows),
         viable=int(counts[0]), marginal=int(counts[1]), blocked=int(counts[2]), errors=int(counts[3]),
-        bad_rows=tuple(bad), samples=int(cols["samples"].astype(np.int64).sum()),
+        bad_rows=tuple(bad), samples=samples,
         seconds=time.perf_counter() - t0, resumed_pairs=resumed, min_margin_db=min_margin_db,
         problems=tuple(problems[p] for p in sorted(problems)),
     )

@@ -76,25 +76,25 @@ def _site_stats(n_sites: int, cols: dict, codes: np.ndarray, names: np.ndarray) 
     return stats
 
 
-def _link_frame(rows: np.ndarray, cols: dict, codes: np.ndarray, problems: dict, sites, settings, verdict_names):
+def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, verdict_names):
+    """One batch of rows (columns already in rank order) as a DataFrame of the link layer."""
     import pandas as pd
 
-    a, b = cols["a"][rows], cols["b"][rows]
+    a, b = cols["a"], cols["b"]
+    n = a.size
     data: dict[str, Any] = {}
     for name in LINK_COLUMNS:
-        if name == "rank":
-            continue
         if name in cols:
-            v = cols[name][rows]
+            v = cols[name]
             data[name] = v.astype(bool) if name in _BOOL else v
     data.update(
         site_a=sites.names[a], site_b=sites.names[b],
-        verdict=np.asarray(verdict_names, dtype=object)[codes[rows]],
+        verdict=np.asarray(verdict_names, dtype=object)[codes],
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
         agl_a_m=sites.antenna_agl_m[a], agl_b_m=sites.antenna_agl_m[b],
-        method=np.full(rows.size, settings.diffraction_method, dtype=object),
-        k=np.full(rows.size, settings.k), k_worst=np.full(rows.size, settings.k_worst),
-        problem=np.array([problems.get(int(p), "") for p in cols["pair"][rows]], dtype=object),
+        method=np.full(n, settings.diffraction_method, dtype=object),
+        k=np.full(n, settings.k), k_worst=np.full(n, settings.k_worst),
+        problem=np.array([problems.get(int(p), "") for p in cols["pair"]], dtype=object),
     )
     frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data})
     if sites.gain_dbi is not None:
@@ -125,26 +125,38 @@ def _lines(frame) -> Any:
 
 
 def write_outputs(
-    out: str | os.PathLike, staging: Path, sites, cols: dict, codes: np.ndarray, problems: dict, settings
+    out: str | os.PathLike, staging: Path, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
+    settings,
 ) -> list[str]:
-    """Write the ranked links and the sites; return the paths written."""
+    """Write the ranked links and the sites; return the paths written.
+
+    ``keys`` holds the columns pair, a, b and fade_margin_db of every row in
+    pair order, ``codes`` their verdict codes; ``ranked(start, stop)`` returns
+    all columns of rows ``start:stop`` in rank order (:func:`rank_order`), so
+    only one batch of rows is in memory at a time.
+    """
     import pyogrio
 
     out = Path(out)
     suffix = out.suffix.lower()
-    if suffix not in OUTPUT_SUFFIXES:
-        raise InputError(
-            f"output {out}: unknown extension {out.suffix!r}; use .gpkg, .geojson or .csv"
-        )
+    check_output_path(out)
     driver = OUTPUT_SUFFIXES[suffix]
-    order = rank_order(cols)
     # The file is private until renamed into place: no need for SQLite's crash journal.
     saved = {k: pyogrio.get_gdal_config_option(k) for k in _FAST_SQLITE}
     pyogrio.set_gdal_config_options(_FAST_SQLITE)
     try:
-        return _write(out, suffix, driver, staging, sites, cols, codes, problems, settings, order)
+        return _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, settings)
     finally:
         pyogrio.set_gdal_config_options(saved)
+
+
+def check_output_path(out: str | os.PathLike) -> None:
+    """Raise InputError unless ``out`` has a known extension and a folder that exists."""
+    out = Path(out)
+    if out.suffix.lower() not in OUTPUT_SUFFIXES:
+        raise InputError(f"output {out}: unknown extension {out.suffix!r}; use .gpkg, .geojson or .csv")
+    if not out.parent.exists():
+        raise InputError(f"output {out}: the folder {out.parent} does not exist")
 
 
 _FAST_SQLITE = {"OGR_SQLITE_SYNCHRONOUS": "OFF", "OGR_SQLITE_JOURNAL": "OFF"}
@@ -157,7 +169,7 @@ except ImportError:  # pragma: no cover - pyarrow is a dependency; tolerate its 
     _HAVE_ARROW = False
 
 
-def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings, order) -> list[str]:
+def _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, settings) -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
@@ -165,6 +177,10 @@ def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings,
     from ..screening import VERDICTS
 
     verdict_names = [VERDICTS[k] for k in sorted(VERDICTS)]
+    order = rank_order(keys)
+    ranked_codes = codes[order]
+    n_rows = order.size
+    del order
     tmp_links = staging / f"links.tmp{suffix}"
     sites_out = out if driver == "GPKG" else out.with_name(f"{out.stem}-sites{out.suffix}")
     tmp_sites = tmp_links if driver == "GPKG" else staging / f"sites.tmp{suffix}"
@@ -172,10 +188,11 @@ def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings,
         if p.exists():
             p.unlink()
     first = True
-    for start in range(0, max(order.size, 1), WRITE_BATCH):
-        rows = order[start:start + WRITE_BATCH]
-        frame = _link_frame(rows, cols, codes, problems, sites, settings, verdict_names)
-        frame.insert(0, "rank", np.arange(start + 1, start + 1 + rows.size))
+    for start in range(0, max(n_rows, 1), WRITE_BATCH):
+        stop = min(start + WRITE_BATCH, n_rows)
+        frame = _link_frame(ranked(start, stop), ranked_codes[start:stop], problems, sites, settings,
+                            verdict_names)
+        frame.insert(0, "rank", np.arange(start + 1, stop + 1))
         if driver == "CSV":
             frame.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)
         else:
@@ -183,7 +200,8 @@ def _write(out, suffix, driver, staging, sites, cols, codes, problems, settings,
             pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
                                     use_arrow=_HAVE_ARROW)
         first = False
-    stats = _site_stats(len(sites), cols, codes, sites.names)
+        del frame
+    stats = _site_stats(len(sites), keys, codes, sites.names)
     site_frame = pd.DataFrame({
         "name": sites.names, "lat": sites.lat_deg, "lon": sites.lon_deg,
         "antenna_agl_m": sites.antenna_agl_m, **stats,

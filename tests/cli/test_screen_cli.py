@@ -109,3 +109,16 @@ def test_sigint_then_resume_equals_an_uninterrupted_run(tmp_path):
     full, cut = pd.read_csv(tmp_path / "full.csv"), pd.read_csv(out)
     assert len(full) == len(cut)
     pd.testing.assert_frame_equal(full, cut)
+
+
+def test_scheduler_address_runs_the_chunks_on_a_dask_cluster(tmp_path):
+    import pandas as pd
+
+    distributed = pytest.importorskip("distributed")
+    args = ["screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--max-km", "9", "--chunk-pairs", "7"]
+    terrahop(*args, "--workers", "1", "--out", tmp_path / "local.csv")
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp", host="127.0.0.1",
+                                  dashboard_address=None) as cluster:
+        proc = terrahop(*args, "--scheduler", cluster.scheduler_address, "--out", tmp_path / "dask.csv")
+    assert "pairs of 12 sites screened" in proc.stdout
+    pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "local.csv"), pd.read_csv(tmp_path / "dask.csv"))
