@@ -85,8 +85,8 @@ class _Progress:
 
             self.bar = Progress(
                 TextColumn("screening"), BarColumn(), MofNCompleteColumn(), TaskProgressColumn(),
-                TextColumn("{task.fields[rate]}"), TimeElapsedColumn(), TextColumn("left"),
-                TimeRemainingColumn(), console=Console(stderr=True), transient=True,
+                TextColumn("{task.fields[rate]}"), TimeElapsedColumn(), TextColumn("elapsed,"),
+                TimeRemainingColumn(), TextColumn("left"), console=Console(stderr=True), transient=True,
             )
             self.bar.__enter__()
 
