@@ -29,7 +29,7 @@ from typing import Any, Callable, Iterator, Sequence
 import numpy as np
 
 from .budget import Radio
-from .errors import InputError, TerrahopError
+from .errors import InputError
 from .geodesy import WGS84
 from .io.sites import BadRow, SiteTable
 from .link import LinkBatch, Settings, Site, analyse_links
@@ -849,7 +849,3 @@ def resolve_hubs(sites: SiteTable, hub_names: Sequence[str]) -> tuple[int, ...]:
             raise InputError(f"hub {h!r} is not among the usable sites of {sites.source}")
         out.append(index[h])
     return tuple(dict.fromkeys(out))
-
-
-def error_text(exc: BaseException) -> str:  # pragma: no cover - helper for edges
-    return str(exc) if isinstance(exc, TerrahopError) else f"{exc.__class__.__name__}: {exc}"

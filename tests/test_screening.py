@@ -266,3 +266,16 @@ def test_bad_hub_and_bad_settings(tmp_path, sites25):
         _run(sites25, tmp_path / "r.gpkg", chunk_pairs=0)
     with pytest.raises(InputError, match="unknown extension"):
         _run(sites25, tmp_path / "r.xlsx", max_km=2.0)
+
+
+def test_the_command_line_imports_no_heavy_package_until_it_screens():
+    import subprocess
+    import sys
+
+    from _screening_data import REPO
+
+    code = ("import sys, profiler.cli.main, profiler.screening; "
+            "print(sorted(m for m in ('numba', 'geopandas', 'dask', 'distributed', 'pyarrow', 'pandas') "
+            "if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, check=True)
+    assert out.stdout.strip() == "[]"
