@@ -7,6 +7,7 @@ import click
 from .. import __version__
 from .demo import demo
 from .link import link
+from .sheet import sheet
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
@@ -23,6 +24,7 @@ def cli() -> None:
 
 cli.add_command(link)
 cli.add_command(demo)
+cli.add_command(sheet)
 
 
 def main() -> None:
