@@ -65,8 +65,10 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
         problem = r.problem
         if problem is None:
             try:
-                a = Site(r.name_a, r.lat_a, r.lon_a, _agl(opts.get("agl_a"), r.agl_a_m)).validate(f"row {r.row}: site a")
-                b = Site(r.name_b, r.lat_b, r.lon_b, _agl(opts.get("agl_b"), r.agl_b_m)).validate(f"row {r.row}: site b")
+                a = Site(r.name_a, r.lat_a, r.lon_a, _agl(opts.get("agl_a"), r.agl_a_m))
+                b = Site(r.name_b, r.lat_b, r.lon_b, _agl(opts.get("agl_b"), r.agl_b_m))
+                a.validate(f"row {r.row}: site a")
+                b.validate(f"row {r.row}: site b")
                 if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):
                     raise InputError(f"row {r.row}: site a and site b are at the same position")
             except InputError as exc:
@@ -79,7 +81,9 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
         names.append(r.name)
     if not sites_a:
         raise InputError(f"{pairs}: no usable pair among the {len(chosen)} selected row(s)")
-    first = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg), site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
+    # Resolve terrain, radio and analysis settings once; the first pair stands in for the sites.
+    first = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg),
+                 site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
     resolved = resolve_link(template, first)
     with _open_model(resolved) as model:
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names)
@@ -156,7 +160,8 @@ def _output_format(out: str, fmt: str | None) -> str:
               show_default=True, help="Page size, landscape.")
 @click.option("--units", type=click.Choice(["m", "ft"]), default="m", show_default=True,
               help="Height unit of the drawing and table.")
-@click.option("--dpi", type=click.IntRange(50, 1200), default=200, show_default=True, help="Resolution of PNG output.")
+@click.option("--dpi", type=click.IntRange(50, 1200), default=200, show_default=True,
+              help="Resolution of PNG output.")
 @click.option("--project", default="", help="Project name for the title block.")
 @click.option("--prepared-by", default="", help="Who prepared the sheet (title block).")
 @click.option("--checked-by", default="", help="Who checked the sheet (title block; blank for hand entry).")

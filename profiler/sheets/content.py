@@ -69,6 +69,7 @@ class ProfileDrawing:
     antenna_b_amsl_m: float
     ground_a_m: float
     ground_b_m: float
+    freq_ghz: float = float("nan")
 
     @property
     def surface_m(self) -> np.ndarray:
@@ -124,6 +125,7 @@ def profile_drawing(batch: Any, i: int) -> ProfileDrawing:
         antenna_b_amsl_m=float(batch.antenna_b_amsl_m[i]),
         ground_a_m=float(batch.ground_a_m[i]),
         ground_b_m=float(batch.ground_b_m[i]),
+        freq_ghz=float(np.broadcast_to(np.asarray(batch.radio.freq_ghz, dtype=float), (len(batch),))[i]),
     )
 
 

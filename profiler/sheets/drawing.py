@@ -58,7 +58,7 @@ def profile_limits_m(d: ProfileDrawing) -> tuple[float, float, float]:
     ])))
     span = max(high - low, 10.0)
     bottom = low - 0.10 * span
-    top = high + 0.30 * span
+    top = high + 0.34 * span
     return bottom, top, span
 
 
@@ -72,6 +72,7 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     from matplotlib.patches import Patch
 
     fs = 7.0 * type_scale
+    ts = type_scale
     u = 1.0 / HEIGHT_UNITS[units]
     x = d.distance_m / 1000.0
     bottom_m, top_m, _ = profile_limits_m(d)
@@ -81,15 +82,24 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     surface_w = (d.surface_m + d.bulge_worst_m) * u
     line = d.line_m * u
     f1 = d.f1_m * u
+    # The ray and the Fresnel zone are smooth: draw them on a dense grid, not only at terrain samples.
+    xs = np.linspace(0.0, x[-1], max(600, len(x)))
+    line_s = np.interp(xs, x, line)
+    if np.isfinite(d.freq_ghz):
+        from ..geometry import fresnel_radius_m
+
+        f1_s = fresnel_radius_m(xs * 1000.0, np.maximum(d.length_m - xs * 1000.0, 0.0), d.freq_ghz) * u
+    else:
+        f1_s = np.interp(xs, x, f1)
     kd, kw = format_k(d.k), format_k(d.k_worst)
     legend: list = []
 
     # Terrain at the design k, filled down to the curved base line.
     ax.fill_between(x, base, ground, facecolor=COLOURS["ground_fill"], edgecolor="none", zorder=1)
     lines: dict = {}
-    lines["ground"], = ax.plot(x, ground, color=COLOURS["ground_edge"], lw=0.9, zorder=3)
-    lines["base"], = ax.plot(x, base, color=COLOURS["datum"], lw=0.7, zorder=3)
-    legend.append(Patch(facecolor=COLOURS["ground_fill"], edgecolor=COLOURS["ground_edge"], lw=0.8,
+    lines["ground"], = ax.plot(x, ground, color=COLOURS["ground_edge"], lw=0.9 * ts, zorder=3)
+    lines["base"], = ax.plot(x, base, color=COLOURS["datum"], lw=0.7 * ts, zorder=3)
+    legend.append(Patch(facecolor=COLOURS["ground_fill"], edgecolor=COLOURS["ground_edge"], lw=0.8 * ts,
                         label=f"terrain at design k = {kd}"))
 
     # Obstructions (buildings, trees, surface model) on top of the ground.
@@ -111,25 +121,25 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
             label = "obstructions" if name == "clutter" else name
             legend.append(Patch(label=label, **{k: v for k, v in style.items() if k != "linewidth"}))
 
-    lines["worst_k"], = ax.plot(x, surface_w, color=COLOURS["worst_k"], lw=1.0, ls=(0, (4, 2)), zorder=4)
-    legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0, ls=(0, (4, 2)),
+    lines["worst_k"], = ax.plot(x, surface_w, color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)), zorder=4)
+    legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
                          label=f"terrain at worst-case k = {kw}"))
-    legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7, label=f"earth curvature, k = {kd}"))
+    legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7 * ts, label=f"earth curvature, k = {kd}"))
 
     # First Fresnel zone around the straight line, and the criterion boundary.
-    ax.fill_between(x, line - f1, line + f1, facecolor=COLOURS["fresnel"], alpha=0.22, lw=0, zorder=2.5)
-    lines["f1_upper"], = ax.plot(x, line + f1, color=COLOURS["fresnel"], lw=0.6, zorder=4)
-    lines["f1_lower"], = ax.plot(x, line - f1, color=COLOURS["fresnel"], lw=0.6, zorder=4)
+    ax.fill_between(xs, line_s - f1_s, line_s + f1_s, facecolor=COLOURS["fresnel"], alpha=0.22, lw=0 * ts, zorder=2.5)
+    lines["f1_upper"], = ax.plot(xs, line_s + f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
+    lines["f1_lower"], = ax.plot(xs, line_s - f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
     legend.append(Patch(facecolor=COLOURS["fresnel"], alpha=0.35, edgecolor=COLOURS["fresnel"],
                         label="first Fresnel zone (F1)"))
     frac = d.criterion_f1_fraction
     if frac > 0:
-        lines["criterion"], = ax.plot(x, line - frac * f1, color=COLOURS["criterion"], lw=1.1,
+        lines["criterion"], = ax.plot(xs, line_s - frac * f1_s, color=COLOURS["criterion"], lw=1.1 * ts,
                                       ls=(0, (1.5, 1.5)), zorder=5)
-        legend.append(Line2D([], [], color=COLOURS["criterion"], lw=1.1, ls=(0, (1.5, 1.5)),
+        legend.append(Line2D([], [], color=COLOURS["criterion"], lw=1.1 * ts, ls=(0, (1.5, 1.5)),
                              label=f"{frac:g} F1 below the line (criterion)"))
-    lines["line"], = ax.plot(x, line, color=COLOURS["line"], lw=1.4, zorder=6)
-    legend.append(Line2D([], [], color=COLOURS["line"], lw=1.4, label="line between antenna centres"))
+    lines["line"], = ax.plot(xs, line_s, color=COLOURS["line"], lw=1.4 * ts, zorder=6)
+    legend.append(Line2D([], [], color=COLOURS["line"], lw=1.4 * ts, label="line between antenna centres"))
 
     # Masts, each labelled with its antenna height above ground at mid-height.
     a_rec, b_rec = record["sites"]["a"], record["sites"]["b"]
@@ -139,38 +149,40 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
         (x[0], d.ground_a_m * u, d.antenna_a_amsl_m * u, a_rec, "left", 5),
         (x[-1], d.ground_b_m * u, d.antenna_b_amsl_m * u, b_rec, "right", -5),
     ):
-        ax.plot([xi, xi], [g, top], color=COLOURS["mast"], lw=2.4, solid_capstyle="butt", zorder=7)
-        ax.plot([xi], [top], marker="D", ms=4.5, color=COLOURS["mast"], zorder=8, clip_on=False)
+        ax.plot([xi, xi], [g, top], color=COLOURS["mast"], lw=2.4 * ts, solid_capstyle="butt", zorder=7)
+        ax.plot([xi], [top], marker="D", ms=4.5 * ts, color=COLOURS["mast"], zorder=8, clip_on=False)
         mast_labels.append(ax.annotate(
             f"{height_text(rec['antenna_agl_m'], units)} AGL", xy=(xi, (g + top) / 2), xytext=(dx, 0),
             textcoords="offset points", ha=ha, va="center", fontsize=fs * 0.95, color=COLOURS["ink"], zorder=9,
             bbox=dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.85),
         ))
         mast_tops.append((xi, g, top, dx))
-    legend.append(Line2D([], [], color=COLOURS["mast"], lw=2.4, marker="D", ms=4, label="mast and antenna"))
+    legend.append(Line2D([], [], color=COLOURS["mast"], lw=2.4 * ts, marker="D", ms=4 * ts,
+                         label="mast and antenna"))
 
     # The worst point at the design k.
     j = d.worst_index
     c = record["clearance"]
     blocked = not c["line_of_sight"]
-    ax.plot([x[j], x[j]], [surface[j], line[j]], color=COLOURS["worst_point"], lw=1.6, zorder=8)
-    marker, = ax.plot([x[j]], [surface[j]], marker="o", ms=6, mfc=COLOURS["worst_point"],
-                      mec="white", mew=0.8, ls="none", zorder=9)
-    legend.append(Line2D([], [], color=COLOURS["worst_point"], lw=1.6, marker="o", ms=5, mfc=COLOURS["worst_point"],
-                         mec="white", label="worst point and its clearance"))
+    ax.plot([x[j], x[j]], [surface[j], line[j]], color=COLOURS["worst_point"], lw=1.6 * ts, zorder=8)
+    marker, = ax.plot([x[j]], [surface[j]], marker="o", ms=6 * ts, mfc=COLOURS["worst_point"],
+                      mec="white", mew=0.8 * ts, ls="none", zorder=9)
+    legend.append(Line2D([], [], color=COLOURS["worst_point"], lw=1.6 * ts, marker="o", ms=5 * ts,
+                         mfc=COLOURS["worst_point"], mec="white", label="worst point and its clearance"))
+    head = "OBSTRUCTED" if blocked else "worst point"
     text = (
-        f"worst point at k = {kd}: {c['worst_distance_km']:.3f} km from a\n"
+        f"{head} at k = {kd}: {c['worst_distance_km']:.3f} km from a\n"
         f"clearance {height_text(c['worst_clearance_m'], units, signed=True)} = {c['worst_f1_fraction']:+.2f} F1"
     )
     if blocked:
-        text += "\nOBSTRUCTED: the surface rises above the line"
+        text += " (surface above the line)"
     length_km = x[-1]
     xa = min(max(x[j] / length_km, 0.28), 0.72) if length_km > 0 else 0.5
     worst_label = ax.annotate(
-        text, xy=(x[j], surface[j]), xytext=(xa, 0.955), textcoords="axes fraction",
+        text, xy=(x[j], max(surface[j], line[j])), xytext=(xa, 0.955), textcoords="axes fraction",
         ha="center", va="top", fontsize=fs, color=COLOURS["ink"], zorder=10,
-        bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=COLOURS["worst_point"], lw=0.8),
-        arrowprops=dict(arrowstyle="-|>", color=COLOURS["worst_point"], lw=0.8, shrinkA=0, shrinkB=4),
+        bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=COLOURS["worst_point"], lw=0.8 * ts),
+        arrowprops=dict(arrowstyle="-|>", color=COLOURS["worst_point"], lw=0.8 * ts, shrinkA=0, shrinkB=4),
     )
 
     ax.set_xlim(0.0, length_km)
@@ -183,8 +195,8 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     ax.set_ylabel(ylabel, fontsize=fs * 1.05, labelpad=3)
     ax.tick_params(labelsize=fs * 0.95, length=2.5, width=0.6, pad=2)
     ax.minorticks_on()
-    ax.grid(True, which="major", color=COLOURS["rule"], lw=0.45, alpha=0.8)
-    ax.grid(True, which="minor", color=COLOURS["rule"], lw=0.25, alpha=0.45)
+    ax.grid(True, which="major", color=COLOURS["rule"], lw=0.45 * ts, alpha=0.8)
+    ax.grid(True, which="minor", color=COLOURS["rule"], lw=0.25 * ts, alpha=0.45)
     ax.set_axisbelow(True)
     for spine in ax.spines.values():
         spine.set_linewidth(0.7)

@@ -158,27 +158,29 @@ def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index
         shade = np.where(np.isfinite(z), shade, 1.0)
         ax.imshow(shade, extent=grid.extent_m, origin="upper", cmap="gray", vmin=0, vmax=1,
                   interpolation="bilinear", zorder=0)
-    ax.plot(grid.path_x_m, grid.path_y_m, color="white", lw=3.2, solid_capstyle="round", zorder=2)
-    ax.plot(grid.path_x_m, grid.path_y_m, color=COLOURS["line"], lw=1.6, solid_capstyle="round", zorder=3)
+    ax.plot(grid.path_x_m, grid.path_y_m, color="white", lw=3.2 * type_scale, solid_capstyle="round", zorder=2)
+    ax.plot(grid.path_x_m, grid.path_y_m, color=COLOURS["line"], lw=1.6 * type_scale, solid_capstyle="round",
+            zorder=3)
     span_x, span_y = right - left, top - bottom
     if worst_index is not None and 0 <= worst_index < len(grid.path_x_m):
-        ax.plot([grid.path_x_m[worst_index]], [grid.path_y_m[worst_index]], marker="X", ms=7,
-                mfc=COLOURS["worst_point"], mec="white", mew=0.8, zorder=4)
+        ax.plot([grid.path_x_m[worst_index]], [grid.path_y_m[worst_index]], marker="X", ms=7 * type_scale,
+                mfc=COLOURS["worst_point"], mec="white", mew=0.8 * type_scale, zorder=4)
     for i, tag, colour in ((0, "a", COLOURS["site_a"]), (-1, "b", COLOURS["site_b"])):
         x, y = grid.path_x_m[i], grid.path_y_m[i]
-        ax.plot([x], [y], marker="o", ms=6.5, mfc=colour, mec="white", mew=1.0, zorder=4)
+        ax.plot([x], [y], marker="o", ms=6.5 * type_scale, mfc=colour, mec="white", mew=1.0 * type_scale, zorder=4)
         # Put the letter on the far side of the site, away from the path.
         other = grid.path_x_m[-1 - i if i == 0 else 0], grid.path_y_m[-1 - i if i == 0 else 0]
         vx, vy = x - other[0], y - other[1]
         norm = math.hypot(vx, vy) or 1.0
         ax.annotate(tag, xy=(x, y), xytext=(9 * vx / norm, 9 * vy / norm), textcoords="offset points",
                     ha="center", va="center", fontsize=fs * 1.25, fontweight="bold", color=colour, zorder=5,
-                    bbox=dict(boxstyle="circle,pad=0.12", fc="white", ec=colour, lw=0.7))
+                    bbox=dict(boxstyle="circle,pad=0.12", fc="white", ec=colour, lw=0.7 * type_scale))
     arrow_at, bar_at = _free_corners(grid)
     # North arrow (true north is up at the centre of an azimuthal frame).
     ax_x, ax_y = arrow_at
     ax.annotate("", xy=(ax_x, ax_y + 0.075), xytext=(ax_x, ax_y - 0.075), xycoords="axes fraction",
-                arrowprops=dict(arrowstyle="-|>,head_width=0.35,head_length=0.6", color=COLOURS["ink"], lw=1.2))
+                arrowprops=dict(arrowstyle="-|>,head_width=0.35,head_length=0.6", color=COLOURS["ink"],
+                                lw=1.2 * type_scale))
     ax.text(ax_x, ax_y - 0.10, "N", transform=ax.transAxes, ha="center", va="top", fontsize=fs * 1.2,
             fontweight="bold", color=COLOURS["ink"],
             bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none", alpha=0.8))
@@ -190,8 +192,8 @@ def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index
     half = bar / 2.0
     ax.add_patch(_rect(x0 - 0.02 * span_x, y0 - 0.035 * span_y, bar + 0.04 * span_x, 0.12 * span_y,
                        fc="white", ec="none", alpha=0.85))
-    ax.add_patch(_rect(x0, y0, half, h, fc=COLOURS["ink"], ec=COLOURS["ink"], lw=0.6))
-    ax.add_patch(_rect(x0 + half, y0, half, h, fc="white", ec=COLOURS["ink"], lw=0.6))
+    ax.add_patch(_rect(x0, y0, half, h, fc=COLOURS["ink"], ec=COLOURS["ink"], lw=0.6 * type_scale))
+    ax.add_patch(_rect(x0 + half, y0, half, h, fc="white", ec=COLOURS["ink"], lw=0.6 * type_scale))
     label = f"{bar / 1000:g} km" if bar >= 1000 else f"{bar:g} m"
     ax.text(x0 + bar / 2, y0 + h + 0.012 * span_y, label, ha="center", va="bottom", fontsize=fs, color=COLOURS["ink"],
             zorder=7)

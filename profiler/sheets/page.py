@@ -31,6 +31,8 @@ CAUTION = (
 )
 
 _A4 = (297.0, 210.0)
+#: Rasters listed in full in the provenance block; more are named in one line.
+_MAX_SOURCES_LISTED = 3
 
 
 class _Layout:
@@ -191,8 +193,11 @@ def _minimap(fig: Any, c: SheetContent, lay: _Layout) -> None:
                 fontsize=lay.fs(7), color=COLOURS["muted"])
         return
     draw_minimap(ax, g, type_scale=lay.s, worst_index=c.drawing.worst_index)
+    import numpy as np
+
+    blank = " White: no elevation data." if np.isnan(g.elevation_m).any() else ""
     caption = (
-        f"Hillshade of the elevation data; X marks the worst point. Local azimuthal equidistant "
+        f"Hillshade of the elevation data; X marks the worst point.{blank} Local azimuthal equidistant "
         f"frame centred at {g.centre_lat_deg:.4f}°, {g.centre_lon_deg:.4f}° (WGS 84), true north up."
     )
     fig.text(*lay.xy(x0, y0 - 1.5), _wrap(caption, w, 5.6, lay), fontsize=lay.fs(5.6), color=COLOURS["muted"],
@@ -214,7 +219,7 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
         f"({r['inputs'].get('samples', '-')} samples), bilinear between raster cells. "
         f"Antenna heights are to the antenna centre. Site a transmits, site b receives.",
     ]
-    notes.append(_obstruction_note(c))
+    notes.append(_obstruction_note(c, units))
     for wmsg in r.get("warnings", []) or []:
         notes.append(f"Warning: {wmsg}")
     body = "\n".join(_wrap(t, w, 6.0, lay) for t in notes)
@@ -226,10 +231,16 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     fig.text(*lay.xy(x0, y_next), "Elevation data", fontsize=lay.fs(7.5), fontweight="bold",
              color=COLOURS["ink"], va="top")
     lines = []
-    for s in c.sources:
+    shown = c.sources if len(c.sources) <= _MAX_SOURCES_LISTED else c.sources[: _MAX_SOURCES_LISTED - 1]
+    for s in shown:
         lines.append(f"{s['file']}  ·  {s['crs']}  ·  cell {s['cell_size']}  ·  vertical unit {s['vertical_unit']}")
-        lines.append(f"    datum: {s['vertical_datum']}")
+        lines.append(f"    vertical datum: {s['vertical_datum']}")
         lines.append(f"    SHA-256 {s['sha256']}")
+    rest = c.sources[len(shown):]
+    if rest:
+        names = ", ".join(s["file"] for s in rest)
+        lines.append(_wrap(f"and {len(rest)} more raster(s): {names}",
+                           w, 5.7, lay))
     prov = r.get("provenance", {})
     lines.append(f"Computed {prov.get('computed_at', '-')} with {prov.get('software_version', c.title.software)}.")
     t2 = fig.text(*lay.xy(x0, y_next - 4.0), "\n".join(lines), fontsize=lay.fs(5.7), color=COLOURS["ink"],
@@ -248,8 +259,9 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
              color=COLOURS["ink"], va="top", linespacing=1.25)
 
 
-def _obstruction_note(c: SheetContent) -> str:
+def _obstruction_note(c: SheetContent, units: str = "m") -> str:
     from .content import CLUTTER_KINDS
+    from .table import height_text
 
     d = c.drawing
     present = d.clutter_m > 0
@@ -262,7 +274,7 @@ def _obstruction_note(c: SheetContent) -> str:
         kinds = ", ".join(dict.fromkeys(names))
     return (
         f"Obstructions: {kinds} stand on the ground along {present.sum()} samples, up to "
-        f"{d.clutter_m.max():.1f} m high, and count in the clearance."
+        f"{height_text(float(d.clutter_m.max()), units)} high, and count in the clearance."
     )
 
 

@@ -76,9 +76,9 @@ def test_blocked_link_sheet_shows_the_obstruction_point(two_page_pdf):
     rec = _record(BLOCKED)
     c = rec["clearance"]
     text = _squash(reader.pages[1].extract_text())
-    assert _squash(f"worst point at k = 4/3: {c['worst_distance_km']:.3f} km from a") in text
-    assert _squash(f"clearance {c['worst_clearance_m']:+.1f} m = {c['worst_f1_fraction']:+.2f} F1") in text
-    assert _squash("OBSTRUCTED: the surface rises above the line") in text
+    assert _squash(f"OBSTRUCTED at k = 4/3: {c['worst_distance_km']:.3f} km from a") in text
+    assert _squash(f"clearance {c['worst_clearance_m']:+.1f} m = {c['worst_f1_fraction']:+.2f} F1 "
+                   "(surface above the line)") in text
     assert "FAILSCLEARANCECRITERION" in text
     assert "OBSTRUCTED" not in _squash(reader.pages[0].extract_text())
 
