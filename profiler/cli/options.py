@@ -82,6 +82,24 @@ def parse_number(value: Any, what: str) -> float:
         raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
 
 
+#: Diffraction methods offered on the command line; kept equal to
+#: profiler.losses.terrain_diffraction.DIFFRACTION_METHODS (a test checks) so
+#: that ``--help`` need not import numpy.
+DIFFRACTION_METHOD_NAMES = ("delta-bullington", "bullington", "deygout", "epstein-peterson", "knife-edge")
+
+
+def _diffraction_callback(ctx: click.Context, param: click.Parameter, value: str | None):
+    if value is None:
+        return None
+    from ..errors import InputError
+    from ..losses.terrain_diffraction import resolve_method
+
+    try:
+        return resolve_method(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
 def _compose(*decorators: Callable) -> Callable:
     def apply(func: Callable) -> Callable:
         for d in reversed(decorators):
@@ -138,6 +156,13 @@ analysis_options = _compose(
                  help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
     click.option("--min-f1-fraction-worst", type=float, default=None,
                  help="Clearance needed at the worst-case k, fraction of F1 [default: 0.0, LOS unobstructed]."),
+    click.option("--diffraction", "diffraction", callback=_diffraction_callback, default=None, metavar="METHOD",
+                 help="Diffraction method: " + ", ".join(DIFFRACTION_METHOD_NAMES)
+                 + " [default: delta-bullington, ITU-R P.526-15 section 4.5.2]."),
+    click.option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
+                 default=None, help="Polarisation, for the smooth-earth part of delta-bullington [default: horizontal]."),
+    click.option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
+                 help="Ground electrical constants for the smooth-earth part of delta-bullington [default: land]."),
 )
 
 
@@ -212,6 +237,8 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
                 ),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            polarisation=str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation)),
+            ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
         ).validate()
     except (TypeError, ValueError) as exc:
         if isinstance(exc, InputError):
