@@ -337,7 +337,8 @@ def test_smooth_earth_continuous_at_radio_horizon():
 
 
 def test_first_term_matches_published_mhz_form():
-    """ITU-R P.526-15 section 3.1.1.2 MHz form: X = 2.188 beta f^(1/3) ae^(-2/3) d, Y = 9.575e-3 beta f^(2/3) ae^(-1/3) h."""
+    """ITU-R P.526-15 section 3.1.1 MHz form: X = 2.188 beta f^(1/3) ae^(-2/3) d, Y = 9.575e-3 beta f^(2/3) ae^(-1/3) h
+    [read]; the MHz form of K (0.36, 18000 s / f) is converted from the GHz form [computed]."""
     f_mhz, ae_km, d_km, h1, h2 = 900.0, 8495.0, 70.0, 30.0, 80.0
     er, sigma = 22.0, 0.003
     k_h = 0.36 * (ae_km * f_mhz) ** (-1 / 3) * ((er - 1) ** 2 + (18000 * sigma / f_mhz) ** 2) ** (-0.25)

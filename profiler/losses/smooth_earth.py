@@ -8,7 +8,7 @@ boundary.
 
 Sources
 -------
-* ITU-R P.526-15 (10/2019), section 3.1.1.2: the first-term residue series
+* ITU-R P.526-15 (10/2019), section 3.1.1: the first-term residue series
   (functions F(X) and G(Y), surface admittance K, weight beta), here in its
   GHz form as written in ITU-R P.452-17 section 4.2.2.1.
 * ITU-R P.526-15, section 3.2: loss at any distance, with the interpolation
@@ -104,7 +104,7 @@ def surface_admittance_k(
 
     KH = 0.036 (ae f)^(-1/3) [(er - 1)^2 + (18 s / f)^2]^(-1/4),
     KV = KH [er^2 + (18 s / f)^2]^(1/2), ae in km, f in GHz
-    (ITU-R P.526-15 section 3.1.1.2; GHz form as in ITU-R P.452-17 section 4.2.2.1).
+    (ITU-R P.526-15 section 3.1.1; GHz form as in ITU-R P.452-17 section 4.2.2.1).
     """
     g = resolve_ground(ground)
     pol = resolve_polarisation(polarisation)
@@ -119,7 +119,7 @@ def surface_admittance_k(
 
 
 def _height_gain_db(y: np.ndarray, beta: np.ndarray, k_adm: np.ndarray) -> np.ndarray:
-    """Height-gain G(Y) in dB, floored at 2 + 20 log10 K (ITU-R P.526-15 section 3.1.1.2)."""
+    """Height-gain G(Y) in dB, floored at 2 + 20 log10 K (ITU-R P.526-15 section 3.1.1)."""
     b = beta * y
     with np.errstate(divide="ignore", invalid="ignore"):
         high = 17.6 * np.sqrt(np.maximum(b - 1.1, 0.0)) - 5.0 * np.log10(np.maximum(b - 1.1, 1e-300)) - 8.0
@@ -130,7 +130,7 @@ def _height_gain_db(y: np.ndarray, beta: np.ndarray, k_adm: np.ndarray) -> np.nd
 
 
 def _distance_term_db(x: np.ndarray) -> np.ndarray:
-    """Distance term F(X) in dB (ITU-R P.526-15 section 3.1.1.2)."""
+    """Distance term F(X) in dB (ITU-R P.526-15 section 3.1.1)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         far = 11.0 + 10.0 * np.log10(x) - 17.6 * x
         near = -20.0 * np.log10(x) - 5.6488 * x**1.425
@@ -172,7 +172,7 @@ def first_term_loss_db(
 
     Ldft = -F(X) - G(Ya) - G(Yb), X = 21.88 beta (f / ae^2)^(1/3) d,
     Y = 0.9575 beta (f^2 / ae)^(1/3) h (d, ae in km, h in m, f in GHz;
-    ITU-R P.526-15 section 3.1.1.2, GHz form as in ITU-R P.452-17 section 4.2.2.1).
+    ITU-R P.526-15 section 3.1.1, GHz form as in ITU-R P.452-17 section 4.2.2.1).
     Heights are above the smooth surface.  May be negative inside the horizon.
     """
     g = resolve_ground(ground)
