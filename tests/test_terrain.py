@@ -128,3 +128,35 @@ def test_model_pickles_without_open_handles(raster_factory):
     m.sample([10.01], [45.99])
     m2 = pickle.loads(pickle.dumps(m))
     assert m2.sample([10.01], [45.99])[0][0] == pytest.approx(m.sample([10.01], [45.99])[0][0])
+
+
+def test_vrt_mosaic_of_two_tiles(raster_factory, tmp_path):
+    west = raster_factory("w.tif", np.full((10, 10), 1.0, dtype="float32"), transform=from_origin(10.0, 46.0, 0.001, 0.001))
+    east = raster_factory("e.tif", np.full((10, 10), 2.0, dtype="float32"), transform=from_origin(10.01, 46.0, 0.001, 0.001))
+    srs = "EPSG:4326"
+    sources = "".join(
+        f"""<SimpleSource><SourceFilename relativeToVRT="1">{p.name}</SourceFilename><SourceBand>1</SourceBand>
+        <SrcRect xOff="0" yOff="0" xSize="10" ySize="10"/><DstRect xOff="{off}" yOff="0" xSize="10" ySize="10"/></SimpleSource>"""
+        for p, off in ((west, 0), (east, 10))
+    )
+    vrt = tmp_path / "mosaic.vrt"
+    vrt.write_text(
+        f"""<VRTDataset rasterXSize="20" rasterYSize="10"><SRS>{srs}</SRS>
+        <GeoTransform>10.0, 0.001, 0, 46.0, 0, -0.001</GeoTransform>
+        <VRTRasterBand dataType="Float32" band="1">{sources}</VRTRasterBand></VRTDataset>"""
+    )
+    z, covered = ElevationModel([vrt]).sample([10.005, 10.015], [45.995, 45.995])
+    assert covered.all() and z.tolist() == [1.0, 2.0]
+
+
+def test_other_gdal_format_ascii_grid(tmp_path):
+    # Esri ASCII grid with a .prj: any format GDAL reads is accepted.
+    import rasterio
+
+    arr = np.arange(25, dtype="float32").reshape(5, 5)
+    path = tmp_path / "grid.asc"
+    with rasterio.open(path, "w", driver="AAIGrid", width=5, height=5, count=1, dtype="float32",
+                       crs="EPSG:4326", transform=from_origin(10.0, 46.0, 0.01, 0.01)) as dst:
+        dst.write(arr, 1)
+    z, _ = ElevationModel([path]).sample([10.025], [45.975])
+    assert z[0] == pytest.approx(12.0)
