@@ -276,3 +276,25 @@ def test_importing_the_cli_leaves_matplotlib_out():
     code = "import sys, profiler.cli.main, profiler.sheets; print('matplotlib' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_notes_and_table_show_obstruction_and_roof_keys_when_present(batch):
+    """Records with obstruction crossings and roof mounts (added by the obstruction work) print them."""
+    from profiler.sheets.content import SheetContent
+    from profiler.sheets.page import _obstruction_note
+
+    b, _ = batch
+    rec = b.record(1)
+    rec["clutter"] = {"crossed": [
+        {"layer": "town", "feature": "Corn Exchange", "kind": "building", "from_km": 1.2, "to_km": 1.26,
+         "height_m": 24.0},
+        {"layer": "town", "feature": 7, "kind": "trees", "from_km": 2.0, "to_km": 2.1, "height_m": 15.5},
+    ]}
+    rec["sites"]["a"]["antenna_above_roof_m"] = 3.0
+    content = SheetContent(record=rec, drawing=profile_drawing(b, 1), path_lat_deg=np.zeros(2),
+                           path_lon_deg=np.zeros(2), sources=())
+    note = _obstruction_note(content)
+    assert "building Corn Exchange at 1.200-1.260 km, 24.0 m high" in note
+    assert "trees 7 at 2.000-2.100 km, 15.5 m high" in note
+    rows = {r.label: r for r in parameter_rows(rec)}
+    assert rows["Antenna above roof"].left == "3.0 m" and rows["Antenna above roof"].right == "-"

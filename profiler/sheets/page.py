@@ -8,6 +8,7 @@ layout is defined in millimetres on A4 and scaled to the other page sizes.
 
 from __future__ import annotations
 
+import math
 import re
 import textwrap
 from pathlib import Path
@@ -33,6 +34,8 @@ CAUTION = (
 _A4 = (297.0, 210.0)
 #: Rasters listed in full in the provenance block; more are named in one line.
 _MAX_SOURCES_LISTED = 3
+#: Obstructions named one by one in the drawing notes.
+_MAX_CROSSED_LISTED = 4
 
 
 class _Layout:
@@ -263,6 +266,15 @@ def _obstruction_note(c: SheetContent, units: str = "m") -> str:
     from .content import CLUTTER_KINDS
     from .table import height_text
 
+    crossed = (c.record.get("clutter") or {}).get("crossed") or []
+    if crossed:
+        parts = []
+        for f in crossed[:_MAX_CROSSED_LISTED]:
+            what = " ".join(str(v) for v in (f.get("kind", ""), f.get("feature", "")) if v not in ("", None))
+            span = f"{f.get('from_km', math.nan):.3f}-{f.get('to_km', math.nan):.3f} km"
+            parts.append(f"{what or 'obstruction'} at {span}, {height_text(f.get('height_m', math.nan), units)} high")
+        more = f"; and {len(crossed) - _MAX_CROSSED_LISTED} more" if len(crossed) > _MAX_CROSSED_LISTED else ""
+        return f"Obstructions crossed, from site a: {'; '.join(parts)}{more}. They count in the clearance."
     d = c.drawing
     present = d.clutter_m > 0
     if not present.any():

@@ -126,6 +126,11 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
             height_text(b["antenna_agl_m"], units)),
         Row("Antenna above datum", height_text(a["antenna_amsl_m"], units),
             height_text(b["antenna_amsl_m"], units)),
+    ]
+    if "antenna_above_roof_m" in a or "antenna_above_roof_m" in b:
+        rows.append(Row("Antenna above roof", height_text(a.get("antenna_above_roof_m", math.nan), units),
+                        height_text(b.get("antenna_above_roof_m", math.nan), units)))
+    rows += [
         Row("Azimuth (true north)", f"{record['azimuth_a_to_b_deg']:.2f}° to b",
             f"{record['azimuth_b_to_a_deg']:.2f}° to a"),
         Row("Antenna gain", f"{radio['gain_a_dbi']:.1f} dBi", f"{radio['gain_b_dbi']:.1f} dBi"),
