@@ -6,6 +6,7 @@ import click
 
 from .. import __version__
 from .demo import demo
+from .heights import heights
 from .link import link
 
 
@@ -23,6 +24,7 @@ def cli() -> None:
 
 cli.add_command(link)
 cli.add_command(demo)
+cli.add_command(heights)
 
 
 def main() -> None:
