@@ -453,7 +453,8 @@ class Surroundings:
         if not self.layers:
             geom = np.zeros(0, dtype=object)
             return {"geometry": geom, "height_m": np.zeros(0), "top_m": np.zeros(0),
-                    "kind": np.zeros(0, np.int8), "layer": np.zeros(0, int), "labels": (), "tree": None}
+                    "kind": np.zeros(0, np.int8), "layer": np.zeros(0, int), "labels": (), "tree": None,
+                    "allowance_m": np.zeros(0)}
         kind = np.concatenate([np.full(len(l), KIND_CODES[l.kind], np.int8) for l in self.layers])
         allowance = np.where(kind == KIND_CODES["trees"], self.tree_allowance_m, 0.0)
         geom = np.concatenate([l.geometry for l in self.layers])
@@ -461,6 +462,7 @@ class Surroundings:
             "geometry": geom,
             "height_m": np.concatenate([l.height_m for l in self.layers]) + allowance,
             "top_m": np.concatenate([l.top_m for l in self.layers]) + allowance,
+            "allowance_m": allowance,
             "kind": kind,
             "layer": np.concatenate([np.full(len(l), i) for i, l in enumerate(self.layers)]),
             "labels": sum((l.feature_labels for l in self.layers), ()),
@@ -529,7 +531,8 @@ class Surroundings:
         for j in sel:
             feat = int(crossings.feature[j])
             kind = kinds[int(f["kind"][feat])]
-            h, t = float(f["height_m"][feat]), float(f["top_m"][feat])
+            extra = float(f["allowance_m"][feat])
+            h, t = float(f["height_m"][feat]) - extra, float(f["top_m"][feat]) - extra
             out.append({
                 "layer": self.layers[int(f["layer"][feat])].spec.label,
                 "feature": f["labels"][feat],
@@ -538,7 +541,7 @@ class Surroundings:
                 "to_km": float(crossings.to_m[j]) / 1000.0,
                 "height_m": h if np.isfinite(h) else None,
                 "top_m": None if np.isfinite(h) else t,
-                "allowance_m": self.tree_allowance_m if kind == "trees" else 0.0,
+                "allowance_m": extra,
             })
         return out
 
