@@ -259,6 +259,11 @@ class LinkBatch:
                 record["sites"][tag].update(placements[i].record())
                 if placements[i].warning:
                     warnings.append(placements[i].warning)
+                geoid = placements[i].geoid
+                if geoid is not None and geoid.vertical_crs not in record["inputs"]["vertical_datum"]:
+                    record["inputs"]["vertical_datum"] = (
+                        f"{geoid.vertical_crs} (stated by the planner; the rasters do not say)"
+                    )
         if self.surroundings is not None:
             from .profile import CLUTTER_KINDS
 

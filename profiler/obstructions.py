@@ -29,7 +29,7 @@ are in the vertical datum of the elevation rasters.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from functools import cached_property
 from typing import Any, Sequence
 
@@ -190,7 +190,6 @@ def read_obstruction_layer(spec: LayerSpec) -> ObstructionLayer:
     """
     import geopandas as gpd
     import pyogrio
-    import shapely
 
     path = spec.path
     if not path.startswith("/vsi") and not os.path.exists(path):
@@ -269,7 +268,7 @@ def read_obstruction_layer(spec: LayerSpec) -> ObstructionLayer:
         )
     wgs84 = gdf.to_crs("EPSG:4326") if not gdf.crs.equals("EPSG:4326") else gdf
     return ObstructionLayer(
-        spec=replace(spec, layer=layer if (spec.layer or len(layers) > 1) else spec.layer),
+        spec=replace(spec, layer=layer if len(layers) > 1 else spec.layer),
         crs_name=gdf.crs.name,
         geometry=np.asarray(wgs84.geometry.array, dtype=object),
         height_m=height,
@@ -378,10 +377,10 @@ def find_crossings(
     for s, e in zip(starts, ends):
         p = int(path_of[s])
         feats = feat_of[s:e]
-        to_local = Transformer.from_crs(
-            "EPSG:4326",
-            f"+proj=aeqd +lat_0={float(lat_a_deg[p])!r} +lon_0={float(lon_a_deg[p])!r} +datum=WGS84 +units=m +type=crs",
-            always_xy=True,
+        # A bare PROJ pipeline: building it skips the CRS database search (~100x faster than from_crs).
+        to_local = Transformer.from_pipeline(
+            "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
+            f"+step +proj=aeqd +lat_0={float(lat_a_deg[p])!r} +lon_0={float(lon_a_deg[p])!r} +ellps=WGS84"
         )
 
         def project(xy: np.ndarray, _t=to_local) -> np.ndarray:
@@ -620,7 +619,7 @@ def _insert_samples(
         p = int(path[j])
         if problems and problems[p] is None:
             problems[p] = (
-                f"path {p + 1}: no elevation data (nodata) at {distance_m[j] / 1000:.3f} km from site a "
+                f"no elevation data (nodata) at {distance_m[j] / 1000:.3f} km from site a "
                 f"({lat_new[j]:.6f}, {lon_new[j]:.6f}); fill the hole or pass --nodata-fill-m HEIGHT"
             )
     ground = lay_out(values["ground_m"])

@@ -73,3 +73,11 @@ def test_egm96_undulation_and_site_conversion(tmp_path):
     assert a["geoid_undulation_m"] == pytest.approx(n)
     assert a["antenna_amsl_m"] == pytest.approx(130.0 - n)
     assert a["antenna_agl_m"] == pytest.approx(130.0 - n - 100.0)
+    assert record["inputs"]["vertical_datum"] == "EGM96 height"
+
+
+@pytest.mark.skipif(not _grid_available("EPSG:5773"), reason="EGM96 geoid grid not installed (Debian: proj-data)")
+def test_planner_stated_datum_is_reported(tmp_path):
+    with ElevationModel([flat_dtm(tmp_path / "flat.tif")]) as model:
+        record = _link(model, Mount("ellipsoid", 130.0, vertical_crs="EPSG:5773")).record(0)
+    assert record["inputs"]["vertical_datum"].startswith("EGM96 height (stated by the planner")
