@@ -140,3 +140,9 @@ def test_demo_town_is_regenerated_identically():
     stored = gpd.read_file(TOWN, layer="buildings")
     assert len(made) == len(stored)
     assert made.geometry.area.sum() == pytest.approx(stored.geometry.area.sum())
+
+
+def test_cli_import_leaves_vector_libraries_out():
+    code = "import sys, profiler.cli.main; print(sorted(m for m in ('geopandas', 'pandas', 'shapely', 'pyogrio') if m in sys.modules))"
+    out = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "[]"
