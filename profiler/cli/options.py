@@ -14,6 +14,7 @@ from ..errors import TerrahopError
 __all__ = [
     "friendly_errors",
     "parse_lat_lon",
+    "parse_number",
     "terrain_options",
     "site_options",
     "radio_options",
@@ -66,6 +67,42 @@ def _site_callback(ctx: click.Context, param: click.Parameter, value: str | None
     return parse_lat_lon(value, f"--{param.name.replace('_', '-')}")
 
 
+def parse_number(value: Any, what: str) -> float:
+    """A number, or a fraction written as 'P/Q' (e.g. k = '4/3'); raise InputError otherwise."""
+    from ..errors import InputError
+
+    if isinstance(value, bool):
+        raise InputError(f"{what} must be a number, got {value!r}")
+    if isinstance(value, (int, float)):
+        return float(value)
+    text = str(value).strip()
+    try:
+        if "/" in text:
+            num, den = text.split("/", 1)
+            return float(num) / float(den)
+        return float(text)
+    except (ValueError, ZeroDivisionError):
+        raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
+
+
+#: Diffraction methods offered on the command line; kept equal to
+#: profiler.losses.terrain_diffraction.DIFFRACTION_METHODS (a test checks) so
+#: that ``--help`` need not import numpy.
+DIFFRACTION_METHOD_NAMES = ("delta-bullington", "bullington", "deygout", "epstein-peterson", "knife-edge")
+
+
+def _diffraction_callback(ctx: click.Context, param: click.Parameter, value: str | None):
+    if value is None:
+        return None
+    from ..errors import InputError
+    from ..losses.terrain_diffraction import resolve_method
+
+    try:
+        return resolve_method(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
 def _compose(*decorators: Callable) -> Callable:
     def apply(func: Callable) -> Callable:
         for d in reversed(decorators):
@@ -112,14 +149,23 @@ radio_options = _compose(
 )
 
 analysis_options = _compose(
-    click.option("--k", "k", type=float, default=None, help="Design (median) k-factor [default: 4/3]."),
-    click.option("--k-worst", type=float, default=None, help="Worst-case k-factor [default: 2/3]."),
+    click.option("--k", "k", default=None, metavar="K",
+                 help="Design (median) k-factor, a number or a fraction such as 4/3 [default: 4/3]."),
+    click.option("--k-worst", default=None, metavar="K",
+                 help="Worst-case k-factor, a number or a fraction [default: 2/3]."),
     click.option("--spacing-m", type=float, default=None,
                  help="Profile sample spacing, m [default: half the finest raster cell]."),
     click.option("--min-f1-fraction", type=float, default=None,
                  help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
     click.option("--min-f1-fraction-worst", type=float, default=None,
                  help="Clearance needed at the worst-case k, fraction of F1 [default: 0.0, LOS unobstructed]."),
+    click.option("--diffraction", "diffraction", callback=_diffraction_callback, default=None, metavar="METHOD",
+                 help="Diffraction method: " + ", ".join(DIFFRACTION_METHOD_NAMES)
+                 + " [default: delta-bullington, ITU-R P.526-15 section 4.5.2]."),
+    click.option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
+                 default=None, help="Polarisation, for the smooth-earth part of delta-bullington [default: horizontal]."),
+    click.option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
+                 help="Ground electrical constants for the smooth-earth part of delta-bullington [default: land]."),
 )
 
 
@@ -231,8 +277,8 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
     defaults = Settings()
     try:
         settings = Settings(
-            k=float(_pick(opts.get("k"), an, "k", defaults.k)),
-            k_worst=float(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst)),
+            k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
+            k_worst=parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst"),
             spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
             criterion=Criterion(
                 min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
@@ -241,6 +287,8 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
                 ),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            polarisation=str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation)),
+            ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
         ).validate()
     except (TypeError, ValueError) as exc:
         if isinstance(exc, InputError):

@@ -19,7 +19,8 @@ Format (all sections optional except the two sites; paths relative to the file):
     ...
 
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
-    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst, ...
+    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
+                   # diffraction_method, polarisation, ground
 
 Rooftop and urban links add (all optional)::
 
@@ -64,7 +65,7 @@ SECTION_KEYS: dict[str, set[str]] = {
     },
     "analysis": {
         "k", "k_worst", "sample_spacing_m", "min_f1_fraction", "min_f1_fraction_worst",
-        "diffraction_method",
+        "diffraction_method", "polarisation", "ground",
     },
     "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
 }
