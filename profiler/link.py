@@ -255,7 +255,7 @@ class LinkBatch:
     crossings: Any = None
     placements_a: tuple | None = None
     placements_b: tuple | None = None
-    warnings: tuple[tuple[str, ...], ...] = ()
+    clutter_warnings: tuple[tuple[str, ...], ...] = ()
 
     def __len__(self) -> int:
         return len(self.names)
@@ -307,7 +307,8 @@ class LinkBatch:
 
     def _add_surroundings(self, record: dict, i: int) -> None:
         """Site mounts, clutter and warnings of link i (rooftop and urban links)."""
-        warnings = list(self.warnings[i]) if self.warnings else []
+        warnings = list(record.get("warnings", []))
+        warnings += list(self.clutter_warnings[i]) if self.clutter_warnings else []
         for tag, placements in (("a", self.placements_a), ("b", self.placements_b)):
             if placements is not None:
                 record["sites"][tag].update(placements[i].record())
@@ -331,7 +332,7 @@ class LinkBatch:
                 "at_worst_point_kind": CLUTTER_KINDS[kind],
             }
             record["inputs"]["surroundings"] = self.surroundings.describe()
-        if warnings:
+        if warnings or "warnings" in record:
             record["warnings"] = warnings
 
     def warnings(self, i: int) -> list[str]:
@@ -488,7 +489,7 @@ def analyse_links(
         crossings=crossings,
         placements_a=placements_a,
         placements_b=placements_b,
-        warnings=clutter_warnings,
+        clutter_warnings=clutter_warnings,
     )
 
 

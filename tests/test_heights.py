@@ -14,7 +14,7 @@ from profiler.heights import solve_heights, take_paths
 from profiler.link import Settings, Site, analyse_link
 from profiler.terrain import ElevationModel
 
-from synthetic_urban import SIZE, site_lonlat, write_raster
+from tests.synthetic_urban import SIZE, site_lonlat, write_raster
 
 A_XY, B_XY = (200.0, 1500.0), (2800.0, 1500.0)
 RIDGE_TOP_M = 140.0  # 40 m above the 100 m plain, between x = 1205 and 1215 m

@@ -12,7 +12,7 @@ from profiler.mounts import Mount
 from profiler.obstructions import LayerSpec, Surroundings, read_obstruction_layer
 from profiler.terrain import ElevationModel
 
-from synthetic_urban import X0_M, Y0_M, flat_dtm, site_lonlat, write_layer
+from tests.synthetic_urban import X0_M, Y0_M, flat_dtm, site_lonlat, write_layer
 
 
 @pytest.fixture(scope="module")

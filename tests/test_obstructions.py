@@ -18,7 +18,7 @@ from profiler.obstructions import (
 )
 from profiler.terrain import ElevationModel
 
-from synthetic_urban import CRS, X0_M, Y0_M, flat_dtm, site_lonlat, write_layer, write_raster
+from tests.synthetic_urban import CRS, X0_M, Y0_M, flat_dtm, site_lonlat, write_layer, write_raster
 
 # Path from (200, 1500) to (2800, 1700) m in the test area: 2.6 km, slightly oblique.
 A_XY, B_XY = (200.0, 1500.0), (2800.0, 1700.0)

@@ -12,7 +12,7 @@ from profiler.mounts import Mount
 from profiler.terrain import ElevationModel
 from profiler.vertical import ellipsoidal_to_raster_datum, raster_vertical_crs
 
-from synthetic_urban import flat_dtm, site_lonlat
+from tests.synthetic_urban import flat_dtm, site_lonlat
 
 
 def _grid_available(vertical: str) -> bool:

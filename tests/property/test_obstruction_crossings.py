@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -16,8 +15,7 @@ from profiler.link import Settings, Site, analyse_link
 from profiler.obstructions import LayerSpec, ObstructionLayer, Surroundings
 from profiler.terrain import ElevationModel
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from synthetic_urban import X0_M, Y0_M, flat_dtm, site_lonlat, utm_to_lonlat  # noqa: E402
+from tests.synthetic_urban import X0_M, Y0_M, flat_dtm, site_lonlat, utm_to_lonlat
 
 A_XY, B_XY = (150.0, 1200.0), (2850.0, 1900.0)
 _MODEL: list = []
