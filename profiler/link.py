@@ -79,6 +79,12 @@ class Criterion:
     min_f1_fraction: float = 0.6
     min_f1_fraction_worst: float = 0.0
 
+    def met(self, f1_fraction: np.ndarray, f1_fraction_worst: np.ndarray) -> np.ndarray:
+        """True where the worst clearances (fractions of F1 at design and worst k) meet the criterion."""
+        return (np.asarray(f1_fraction) >= self.min_f1_fraction) & (
+            np.asarray(f1_fraction_worst) >= self.min_f1_fraction_worst
+        )
+
     def describe(self, k: float, k_worst: float) -> str:
         return (
             f">= {self.min_f1_fraction:g} F1 at k={k:.4g} and "
@@ -244,6 +250,12 @@ class LinkBatch:
     worst: AtK
     meets_criterion: np.ndarray
     provenance: dict
+    # Rooftop and urban links (obstruction layers, surface models, mounts); None when unused.
+    surroundings: Any = None
+    crossings: Any = None
+    placements_a: tuple | None = None
+    placements_b: tuple | None = None
+    clutter_warnings: tuple[tuple[str, ...], ...] = ()
 
     def __len__(self) -> int:
         return len(self.names)
@@ -257,7 +269,7 @@ class LinkBatch:
         if self.problems[i] is not None:
             return {"name": self.names[i], "error": self.problems[i]}
         lines = self.profiles.lines
-        return {
+        record = {
             "name": self.names[i],
             "distance_km": float(lines.length_m[i]) / 1000.0,
             "azimuth_a_to_b_deg": float(lines.azimuth_a_to_b_deg[i]),
@@ -290,6 +302,38 @@ class LinkBatch:
             },
             "provenance": self.provenance,
         }
+        self._add_surroundings(record, i)
+        return record
+
+    def _add_surroundings(self, record: dict, i: int) -> None:
+        """Site mounts, clutter and warnings of link i (rooftop and urban links)."""
+        warnings = list(record.get("warnings", []))
+        warnings += list(self.clutter_warnings[i]) if self.clutter_warnings else []
+        for tag, placements in (("a", self.placements_a), ("b", self.placements_b)):
+            if placements is not None:
+                record["sites"][tag].update(placements[i].record())
+                if placements[i].warning:
+                    warnings.append(placements[i].warning)
+                geoid = placements[i].geoid
+                if geoid is not None and geoid.vertical_crs not in record["inputs"]["vertical_datum"]:
+                    record["inputs"]["vertical_datum"] = (
+                        f"{geoid.vertical_crs} (stated by the planner; the rasters do not say)"
+                    )
+        if self.surroundings is not None:
+            from .profile import CLUTTER_KINDS
+
+            p = self.profiles
+            j = int(self.design.clearance.worst_index[i])
+            kind = 0 if p.clutter_kind is None else int(p.clutter_kind[i, j])
+            record["clutter"] = {
+                "crossed": self.surroundings.crossing_records(self.crossings, i),
+                "max_m": float(np.max(p.clutter_m[i, : p.n_samples[i]])),
+                "at_worst_point_m": float(p.clutter_m[i, j]),
+                "at_worst_point_kind": CLUTTER_KINDS[kind],
+            }
+            record["inputs"]["surroundings"] = self.surroundings.describe()
+        if warnings or "warnings" in record:
+            record["warnings"] = warnings
 
     def warnings(self, i: int) -> list[str]:
         """Validity warnings of link i: design k first, then any new at the worst-case k."""
@@ -354,11 +398,18 @@ def analyse_links(
     settings: Settings = Settings(),
     *,
     names: Sequence[str] | None = None,
+    surroundings: Any = None,
+    mounts_a: Sequence[Any] | None = None,
+    mounts_b: Sequence[Any] | None = None,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
     Paths that cannot be profiled (outside the rasters, nodata) are kept with
     a sentence in ``problems``; their numbers are meaningless.
+    ``surroundings`` (profiler.obstructions.Surroundings) adds buildings,
+    trees and surface-model clutter; ``mounts_a``/``mounts_b``
+    (profiler.mounts.Mount per site, or None) give antenna heights above a
+    roof, as elevations or above the ellipsoid.
     """
     if len(sites_a) != len(sites_b):
         raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
@@ -367,6 +418,14 @@ def analyse_links(
     radio.validate()
     settings.validate()
     names = list(names) if names is not None else [f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)]
+    placements_a = placements_b = None
+    if surroundings is not None:
+        surroundings.check_datum(model)
+    if mounts_a is not None or mounts_b is not None:
+        from .mounts import place_sites
+
+        sites_a, placements_a = place_sites(model, sites_a, mounts_a, surroundings, "site a")
+        sites_b, placements_b = place_sites(model, sites_b, mounts_b, surroundings, "site b")
     for a, b, name in zip(sites_a, sites_b, names):
         a.validate(f"{name}: site a")
         b.validate(f"{name}: site b")
@@ -379,9 +438,14 @@ def analyse_links(
     lon_a = np.array([s.lon_deg for s in sites_a])
     lat_b = np.array([s.lat_deg for s in sites_b])
     lon_b = np.array([s.lon_deg for s in sites_b])
-    profiles = build_profiles(
-        model, lat_a, lon_a, lat_b, lon_b, spacing_m=settings.spacing_m, labels=names
-    )
+    spacing = settings.spacing_m
+    if surroundings is not None and spacing is None:
+        spacing = surroundings.default_spacing_m(model, lon_a, lat_a)
+    profiles = build_profiles(model, lat_a, lon_a, lat_b, lon_b, spacing_m=spacing, labels=names)
+    crossings, clutter_warnings = None, ()
+    if surroundings is not None:
+        surrounded = surroundings.apply(profiles, model)
+        profiles, crossings, clutter_warnings = surrounded.profiles, surrounded.crossings, surrounded.warnings
     rows = np.arange(len(names))
     last = profiles.n_samples - 1
     ground_a = profiles.ground_m[:, 0]
@@ -421,15 +485,25 @@ def analyse_links(
         worst=worst,
         meets_criterion=meets & profiles.valid,
         provenance=provenance,
+        surroundings=surroundings,
+        crossings=crossings,
+        placements_a=placements_a,
+        placements_b=placements_b,
+        clutter_warnings=clutter_warnings,
     )
 
 
 def analyse_link(
     model: ElevationModel, site_a: Site, site_b: Site, radio: Radio, settings: Settings = Settings(),
-    *, name: str | None = None,
+    *, name: str | None = None, surroundings: Any = None, mount_a: Any = None, mount_b: Any = None,
 ) -> LinkBatch:
     """Analyse one link; raise DataError if its path cannot be profiled."""
-    batch = analyse_links(model, [site_a], [site_b], radio, settings, names=[name] if name else None)
+    batch = analyse_links(
+        model, [site_a], [site_b], radio, settings, names=[name] if name else None,
+        surroundings=surroundings,
+        mounts_a=None if mount_a is None else [mount_a],
+        mounts_b=None if mount_b is None else [mount_b],
+    )
     if batch.problems[0] is not None:
         raise DataError(batch.problems[0])
     return batch

@@ -6,6 +6,7 @@ import click
 
 from .. import __version__
 from .demo import demo
+from .heights import heights
 from .link import link
 from .sheet import sheet
 
@@ -24,6 +25,7 @@ def cli() -> None:
 
 cli.add_command(link)
 cli.add_command(demo)
+cli.add_command(heights)
 cli.add_command(sheet)
 
 

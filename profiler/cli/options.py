@@ -22,6 +22,9 @@ __all__ = [
     "ResolvedLink",
     "resolve_link",
     "RADIO_FLAGS",
+    "surroundings_options",
+    "mount_options",
+    "open_surroundings_of",
 ]
 
 
@@ -166,6 +169,46 @@ analysis_options = _compose(
 )
 
 
+surroundings_options = _compose(
+    click.option("--obstructions", "obstructions", multiple=True, metavar="[KIND=]FILE[#LAYER]",
+                 help="Polygons of buildings or tree stands with heights (GeoPackage, GeoJSON, Shapefile; any CRS). "
+                      "KIND is building (default) or trees; #LAYER picks a layer of a multi-layer file. Repeatable."),
+    click.option("--height-field", default=None, metavar="NAME",
+                 help="Attribute holding the height above ground, m [default: height_m, else height]."),
+    click.option("--top-field", default=None, metavar="NAME",
+                 help="Attribute holding the absolute top elevation, m, in the rasters' datum [default: top_m]; "
+                      "used where a feature has no height."),
+    click.option("--tree-allowance-m", type=float, default=None, metavar="M",
+                 help="Added to every tree height for growth and uncertainty, m [default: 0]."),
+    click.option("--surface", "surface", multiple=True, metavar="RASTER",
+                 help="Surface model (lidar first return, DSM) beside --dem; clutter is its height above "
+                      "the terrain, clipped at 0. Repeatable."),
+)
+
+mount_options = _compose(
+    click.option("--above-roof-a", type=float, default=None, metavar="M",
+                 help="Site a antenna height above the roof of the building it stands in (from --obstructions)."),
+    click.option("--above-roof-b", type=float, default=None, metavar="M", help="As --above-roof-a, for site b."),
+    click.option("--amsl-a", type=float, default=None, metavar="M",
+                 help="Site a antenna elevation in the rasters' vertical datum, m."),
+    click.option("--amsl-b", type=float, default=None, metavar="M", help="As --amsl-a, for site b."),
+    click.option("--ellipsoidal-a", type=float, default=None, metavar="M",
+                 help="Site a antenna height above the WGS84 ellipsoid (GNSS), m; converted with a geoid grid."),
+    click.option("--ellipsoidal-b", type=float, default=None, metavar="M", help="As --ellipsoidal-a, for site b."),
+    click.option("--vertical-crs", default=None, metavar="CRS",
+                 help="Vertical datum of the raster heights when the files do not say (e.g. EPSG:5773, "
+                      "EGM96); needed to convert ellipsoidal heights."),
+)
+
+#: Site keys and flags giving an antenna height, and what each is measured from.
+MOUNT_KEYS = {
+    "antenna_agl_m": ("agl", "ground"),
+    "antenna_above_roof_m": ("above_roof", "roof"),
+    "antenna_amsl_m": ("amsl", "elevation"),
+    "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
+}
+
+
 @dataclass(frozen=True)
 class ResolvedLink:
     """Everything needed to analyse one link, flags merged over a link file."""
@@ -178,6 +221,13 @@ class ResolvedLink:
     site_b: Any
     radio: Any
     settings: Any
+    obstruction_layers: tuple = ()
+    surface_rasters: tuple[str, ...] = ()
+    tree_allowance_m: float = 0.0
+    mount_a: Any = None
+    mount_b: Any = None
+    max_mast_a_m: float | None = None
+    max_mast_b_m: float | None = None
 
 
 def _pick(flag: Any, spec: dict, key: str, default: Any = None) -> Any:
@@ -245,6 +295,7 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
             raise
         raise InputError(f"analysis settings must be numbers ({exc})") from None
     title = spec.title or f"{a.name} - {b.name}"
+    urban = _resolve_urban(spec, opts)
     return ResolvedLink(
         title=title,
         rasters=rasters,
@@ -254,7 +305,95 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         site_b=b,
         radio=radio,
         settings=settings,
+        **urban,
     )
+
+
+def _resolve_urban(spec: Any, opts: dict[str, Any]) -> dict[str, Any]:
+    """Obstruction layers, surface rasters and antenna mounts from flags over the link file."""
+    from ..errors import InputError
+    from ..mounts import Mount
+    from ..obstructions import LayerSpec, normalise_kind, parse_layer_spec
+
+    ob = spec.obstructions
+    height_field = _pick(opts.get("height_field"), ob, "height_field")
+    top_field = _pick(opts.get("top_field"), ob, "top_field")
+    if opts.get("obstructions"):
+        layers = tuple(parse_layer_spec(t, height_field=height_field, top_field=top_field)
+                       for t in opts["obstructions"])
+    else:
+        layers = tuple(
+            LayerSpec(
+                path=e["file"],
+                kind=normalise_kind(e.get("kind", "building"), f"{spec.path}: [obstructions]"),
+                layer=e.get("layer"),
+                height_field=e.get("height_field", height_field),
+                top_field=e.get("top_field", top_field),
+            )
+            for e in ob.get("layers", [])
+        )
+    surface = tuple(opts.get("surface") or ()) or tuple(spec.terrain.get("surface", ()))
+    vertical_crs = _pick(opts.get("vertical_crs"), spec.terrain, "vertical_crs")
+    try:
+        allowance = float(_pick(opts.get("tree_allowance_m"), ob, "tree_allowance_m", 0.0))
+    except (TypeError, ValueError):
+        raise InputError(f"tree allowance must be a number of metres, got {ob.get('tree_allowance_m')!r}") from None
+    if not math.isfinite(allowance) or allowance < 0:
+        raise InputError(f"tree allowance must be 0 m or more, got {allowance!r}")
+
+    def mount(tag: str) -> Any:
+        section = getattr(spec, f"site_{tag}")
+        given = [(ref, opts[f"{flag}_{tag}"]) for flag, ref in MOUNT_KEYS.values()
+                 if opts.get(f"{flag}_{tag}") is not None]
+        flags = ", ".join(f"--{flag.replace('_', '-')}-{tag}" for flag, _ in MOUNT_KEYS.values())
+        if len(given) > 1:
+            raise InputError(f"site {tag}: give one antenna height, not several ({flags})")
+        if not given:
+            given = [(ref, section[key]) for key, (_, ref) in MOUNT_KEYS.items() if key in section]
+            if len(given) > 1:
+                keys = ", ".join(k for k in MOUNT_KEYS if k in section)
+                raise InputError(f"{spec.path}: [site_{tag}] gives several antenna heights ({keys}); keep one")
+        ref, height = given[0] if given else ("ground", 10.0)
+        try:
+            height = float(height)
+        except (TypeError, ValueError):
+            raise InputError(f"site {tag}: antenna height must be a number of metres, got {height!r}") from None
+        return Mount(ref, height, vertical_crs=vertical_crs).validate(f"site {tag}")
+
+    def max_mast(tag: str) -> float | None:
+        value = _pick(opts.get(f"max_mast_{tag}"), getattr(spec, f"site_{tag}"), "max_mast_m")
+        if value is None:
+            return None
+        try:
+            value = float(value)
+        except (TypeError, ValueError):
+            raise InputError(f"site {tag}: max_mast_m must be a number of metres, got {value!r}") from None
+        if not math.isfinite(value) or value < 0:
+            raise InputError(f"site {tag}: maximum mast height must be 0 m or more, got {value!r}")
+        return value
+
+    return {
+        "obstruction_layers": layers,
+        "surface_rasters": surface,
+        "tree_allowance_m": allowance,
+        "mount_a": mount("a"),
+        "mount_b": mount("b"),
+        "max_mast_a_m": max_mast("a"),
+        "max_mast_b_m": max_mast("b"),
+    }
+
+
+def open_surroundings_of(resolved: ResolvedLink) -> Any:
+    """Read the obstruction layers and open the surface rasters of a resolved link (None if none)."""
+    from ..obstructions import Surroundings, read_obstruction_layer
+    from ..terrain import ElevationModel
+
+    if not resolved.obstruction_layers and not resolved.surface_rasters:
+        return None
+    layers = tuple(read_obstruction_layer(s) for s in resolved.obstruction_layers)
+    surface = (ElevationModel(resolved.surface_rasters, vertical_unit=resolved.vertical_unit)
+               if resolved.surface_rasters else None)
+    return Surroundings(layers=layers, surface=surface, tree_allowance_m=resolved.tree_allowance_m)
 
 
 def _opt_float(value: Any) -> float | None:

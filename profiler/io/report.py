@@ -29,6 +29,39 @@ def _at_k_lines(r: dict) -> list[str]:
     ]
 
 
+def _mount_lines(s: dict) -> list[str]:
+    """How the antenna height was given, when not plainly above ground (rooftop sites)."""
+    out = []
+    b = s.get("building")
+    if s.get("antenna_reference") == "roof" and b:
+        out.append(f"                   on the roof of {b['feature']}: roof {s['roof_m']:.1f} m "
+                   f"({b['height_m']:.1f} m above ground) + {s['antenna_above_roof_m']:g} m above the roof")
+    elif b:
+        out.append(f"                   stands in building {b['feature']} (roof {s['roof_m']:.1f} m)")
+    if s.get("antenna_reference") == "elevation":
+        out.append(f"                   antenna given as elevation {s['antenna_given_m']:g} m")
+    if s.get("antenna_reference") == "ellipsoid":
+        out.append(f"                   antenna given {s['antenna_ellipsoidal_m']:g} m above the WGS84 ellipsoid; "
+                   f"geoid undulation {s['geoid_undulation_m']:.2f} m ({s['geoid_vertical_crs']})")
+    return out
+
+
+def _clutter_lines(r: dict) -> list[str]:
+    """Buildings and trees the path crosses, and the clutter at the worst point."""
+    c = r.get("clutter")
+    if not c:
+        return []
+    out = [f"clutter            {len(c['crossed'])} obstruction(s) crossed; at the worst point "
+           f"{c['at_worst_point_m']:.1f} m ({c['at_worst_point_kind']})"]
+    for x in c["crossed"][:12]:
+        h = f"{x['height_m']:.1f} m high" if x["height_m"] is not None else f"top {x['top_m']:.1f} m"
+        extra = f" + {x['allowance_m']:g} m allowance" if x["allowance_m"] else ""
+        out.append(f"  {x['kind']:<8}  {x['from_km']:.3f}-{x['to_km']:.3f} km  {h}{extra}  {x['feature']}")
+    if len(c["crossed"]) > 12:
+        out.append(f"  ... and {len(c['crossed']) - 12} more (see --json)")
+    return out
+
+
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
@@ -46,6 +79,7 @@ def format_link_summary(r: dict) -> str:
             f"site {tag}             {s['name']}  ({s['lat']:.6f}, {s['lon']:.6f})  ground "
             f"{s['ground_m']:.1f} m, antenna {s['antenna_agl_m']:.1f} m AGL = {s['antenna_amsl_m']:.1f} m AMSL"
         )
+        lines += _mount_lines(s)
     lines += [
         f"heights            metres; vertical datum: {datum}",
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
@@ -59,6 +93,7 @@ def format_link_summary(r: dict) -> str:
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
     ]
+    lines += _clutter_lines(r)
     for w in r.get("warnings", []):
         lines.append(f"warning: {w}")
     return "\n".join(lines)
