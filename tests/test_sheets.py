@@ -298,3 +298,15 @@ def test_notes_and_table_show_obstruction_and_roof_keys_when_present(batch):
     assert "trees 7 at 2.000-2.100 km, 15.5 m high" in note
     rows = {r.label: r for r in parameter_rows(rec)}
     assert rows["Antenna above roof"].left == "3.0 m" and rows["Antenna above roof"].right == "-"
+
+
+def test_wall_samples_give_obstructions_vertical_sides():
+    from profiler.sheets.drawing import wall_samples
+
+    mask = np.array([True, False, True, True, False, True])
+    idx, zero = wall_samples(mask)
+    # Each run's first sample is repeated with a ground copy before it, its last with one after.
+    assert idx.tolist() == [0, 0, 0, 1, 2, 2, 3, 3, 4, 5, 5, 5]
+    assert zero.tolist() == [True, False, True, False, True, False, False, True, False, True, False, True]
+    idx, zero = wall_samples(np.zeros(3, dtype=bool))
+    assert idx.tolist() == [0, 1, 2] and not zero.any()

@@ -10,7 +10,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from .content import SheetContent, TitleBlock, profile_drawing, source_provenance
+from .content import SheetContent, TitleBlock, profile_drawing, source_provenance, surroundings_provenance
 
 __all__ = ["sheet_contents", "MAP_ASPECT"]
 
@@ -43,15 +43,21 @@ def sheet_contents(
         sources.append(source_provenance(s, checksums[s.path]))
     if indices is None:
         indices = [i for i, p in enumerate(batch.problems) if p is None]
+    def sha256_of(path: str) -> str:
+        if path not in checksums:
+            checksums[path] = model.checksum(path)
+        return checksums[path]
+
     out = []
     for i in indices:
         n = int(batch.profiles.n_samples[i])
         lat = np.asarray(batch.profiles.lat_deg[i, :n], dtype=float)
         lon = np.asarray(batch.profiles.lon_deg[i, :n], dtype=float)
         grid = read_map_grid(model.sources, lat, lon, aspect=MAP_ASPECT) if draw_map else None
+        record = batch.record(i)
         out.append(
             SheetContent(
-                record=batch.record(i),
+                record=record,
                 drawing=profile_drawing(batch, i),
                 path_lat_deg=lat,
                 path_lon_deg=lon,
@@ -59,6 +65,7 @@ def sheet_contents(
                 title=title,
                 map_grid=grid,
                 raster_paths=tuple(s.path for s in model.sources),
+                other_sources=surroundings_provenance(record, sha256_of),
             )
         )
     return out

@@ -23,6 +23,7 @@ __all__ = [
     "SheetContent",
     "profile_drawing",
     "source_provenance",
+    "surroundings_provenance",
 ]
 
 #: Kinds of obstruction a profile may carry per sample (``Profiles.clutter_kind``):
@@ -83,7 +84,12 @@ class ProfileDrawing:
 
 @dataclass(frozen=True)
 class SheetContent:
-    """Everything one page shows.  ``record`` is the link's JSON record (profiler.link)."""
+    """Everything one page shows.  ``record`` is the link's JSON record (profiler.link).
+
+    ``sources`` describe the elevation rasters; ``other_sources`` the
+    obstruction layers and surface models, one dict per file (keys file,
+    what, sha256).
+    """
 
     record: dict
     drawing: ProfileDrawing
@@ -95,6 +101,7 @@ class SheetContent:
     sheet_count: int = 1
     map_grid: Any = None
     raster_paths: tuple[str, ...] = ()
+    other_sources: tuple[dict, ...] = ()
 
     @property
     def name(self) -> str:
@@ -159,3 +166,30 @@ def source_provenance(source: Any, sha256: str) -> dict:
         "vertical_datum": source.vertical_datum,
         "sha256": sha256,
     }
+
+
+def surroundings_provenance(record: dict, sha256_of: Any) -> tuple[dict, ...]:
+    """Obstruction layers and surface rasters named in ``record["inputs"]["surroundings"]``, one dict per file.
+
+    ``sha256_of(path)`` returns a file's checksum.  Keys: file, what, sha256.
+    """
+    sur = (record.get("inputs") or {}).get("surroundings") or {}
+    by_file: dict[str, list[str]] = {}
+    for layer in sur.get("obstruction_layers") or []:
+        path = layer.get("path")
+        if not path:
+            continue
+        parts = [str(layer.get("layer") or "layer"), str(layer.get("kind") or "")]
+        if layer.get("features") is not None:
+            parts.append(f"{layer['features']} features")
+        if layer.get("crs"):
+            parts.append(str(layer["crs"]))
+        by_file.setdefault(path, []).append(", ".join(p for p in parts if p))
+    for src in sur.get("surface_sources") or []:
+        path = src.get("path")
+        if path:
+            by_file.setdefault(path, []).append(f"surface model, {src.get('crs', '')}".rstrip(", "))
+    return tuple(
+        {"file": os.path.basename(path) or path, "what": "; ".join(what), "sha256": sha256_of(path)}
+        for path, what in by_file.items()
+    )

@@ -17,7 +17,7 @@ from .content import CLUTTER_KINDS, ProfileDrawing
 from .style import COLOURS
 from .table import HEIGHT_UNITS, format_k, height_text
 
-__all__ = ["ProfileArtists", "draw_profile", "curvature_note", "vertical_exaggeration", "profile_limits_m"]
+__all__ = ["ProfileArtists", "draw_profile", "wall_samples", "curvature_note", "vertical_exaggeration", "profile_limits_m"]
 
 _CLUTTER_STYLE = {
     "buildings": dict(facecolor="#C9C9C9", edgecolor="#3D3D3D", hatch="////", linewidth=0.5),
@@ -37,6 +37,25 @@ class ProfileArtists:
     clutter: dict
     y_limits: tuple[float, float]
     lines: dict
+
+
+def wall_samples(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Indices that repeat the first and last sample of every run of ``mask``, and which copies sit on the ground.
+
+    Drawing ``a[idx]`` with the flagged copies at ground height gives an
+    obstruction vertical walls at its first and last sample (the footprint
+    edges, where the profile has them), instead of slopes to the neighbours.
+    """
+    mask = np.asarray(mask, dtype=bool)
+    start = mask & ~np.r_[False, mask[:-1]]
+    end = mask & ~np.r_[mask[1:], False]
+    reps = 1 + start.astype(int) + end.astype(int)
+    idx = np.repeat(np.arange(mask.size), reps)
+    first = np.cumsum(reps) - reps
+    zero = np.zeros(idx.size, dtype=bool)
+    zero[first[start]] = True
+    zero[(first + reps - 1)[end]] = True
+    return idx, zero
 
 
 def curvature_note(d: ProfileDrawing) -> str:
@@ -115,13 +134,17 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
                 kinds[name] = kinds.get(name, np.zeros_like(has_clutter)) | (has_clutter & (d.clutter_kind == code))
         for name, mask in kinds.items():
             style = _CLUTTER_STYLE.get(name, _CLUTTER_STYLE["clutter"])
-            clutter_artists[name] = ax.fill_between(
-                x, ground, surface, where=mask, step="mid", zorder=2, **style
-            )
+            idx, zero = wall_samples(mask)
+            top = np.where(zero, ground[idx], surface[idx])
+            clutter_artists[name] = ax.fill_between(x[idx], ground[idx], top, where=mask[idx], zorder=2, **style)
             label = "obstructions" if name == "clutter" else name
             legend.append(Patch(label=label, **{k: v for k, v in style.items() if k != "linewidth"}))
 
-    lines["worst_k"], = ax.plot(x, surface_w, color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)), zorder=4)
+    # The worst-case surface, with the same vertical walls at obstruction edges.
+    idx, zero = wall_samples(has_clutter)
+    surface_w_drawn = np.where(zero, ((d.ground_m + d.bulge_worst_m) * u)[idx], surface_w[idx])
+    lines["worst_k"], = ax.plot(x[idx], surface_w_drawn, color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
+                                zorder=4)
     legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
                          label=f"terrain at worst-case k = {kw}"))
     legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7 * ts, label=f"earth curvature, k = {kd}"))
@@ -149,10 +172,16 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
         (x[0], d.ground_a_m * u, d.antenna_a_amsl_m * u, a_rec, "left", 5),
         (x[-1], d.ground_b_m * u, d.antenna_b_amsl_m * u, b_rec, "right", -5),
     ):
+        # A mast on a roof stands on the roof; its label gives the height above the roof.
+        if rec.get("roof_m") is not None and rec.get("antenna_above_roof_m") is not None:
+            g = float(rec["roof_m"]) * u
+            label = f"{height_text(rec['antenna_above_roof_m'], units)} above roof"
+        else:
+            label = f"{height_text(rec['antenna_agl_m'], units)} AGL"
         ax.plot([xi, xi], [g, top], color=COLOURS["mast"], lw=2.4 * ts, solid_capstyle="butt", zorder=7)
         ax.plot([xi], [top], marker="D", ms=4.5 * ts, color=COLOURS["mast"], zorder=8, clip_on=False)
         mast_labels.append(ax.annotate(
-            f"{height_text(rec['antenna_agl_m'], units)} AGL", xy=(xi, (g + top) / 2), xytext=(dx, 0),
+            label, xy=(xi, (g + top) / 2), xytext=(dx, 0),
             textcoords="offset points", ha=ha, va="center", fontsize=fs * 0.95, color=COLOURS["ink"], zorder=9,
             bbox=dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.85),
         ))

@@ -35,7 +35,7 @@ _A4 = (297.0, 210.0)
 #: Rasters listed in full in the provenance block; more are named in one line.
 _MAX_SOURCES_LISTED = 3
 #: Obstructions named one by one in the drawing notes.
-_MAX_CROSSED_LISTED = 4
+_MAX_CROSSED_LISTED = 3
 
 
 class _Layout:
@@ -231,7 +231,7 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     inv = fig.transFigure.inverted()
     y_next = inv.transform((0, t.get_window_extent(renderer).y0))[1] * _A4[1] - 3.0
 
-    fig.text(*lay.xy(x0, y_next), "Elevation data", fontsize=lay.fs(7.5), fontweight="bold",
+    fig.text(*lay.xy(x0, y_next), "Data sources", fontsize=lay.fs(7.5), fontweight="bold",
              color=COLOURS["ink"], va="top")
     lines = []
     shown = c.sources if len(c.sources) <= _MAX_SOURCES_LISTED else c.sources[: _MAX_SOURCES_LISTED - 1]
@@ -244,11 +244,23 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
         names = ", ".join(s["file"] for s in rest)
         lines.append(_wrap(f"and {len(rest)} more raster(s): {names}",
                            w, 5.7, lay))
+    for s in c.other_sources[:_MAX_SOURCES_LISTED]:
+        lines.append(f"{s['file']}  ·  {s['what']}")
+        lines.append(f"    SHA-256 {s['sha256']}")
+    if len(c.other_sources) > _MAX_SOURCES_LISTED:
+        names = ", ".join(s["file"] for s in c.other_sources[_MAX_SOURCES_LISTED:])
+        lines.append(_wrap(f"and {len(c.other_sources) - _MAX_SOURCES_LISTED} more file(s): {names}", w, 5.7, lay))
     prov = r.get("provenance", {})
     lines.append(f"Computed {prov.get('computed_at', '-')} with {prov.get('software_version', c.title.software)}.")
     t2 = fig.text(*lay.xy(x0, y_next - 4.0), "\n".join(lines), fontsize=lay.fs(5.7), color=COLOURS["ink"],
                   va="top", linespacing=1.3, family="DejaVu Sans Mono")
     _fit(t2, fig.bbox.width * w / _A4[0], renderer, lay.fs(4.2))
+    # Keep the block above the caution box (top at 27 mm): shrink it when the notes run long.
+    floor_px = fig.bbox.height * 28.5 / _A4[1]
+    size = t2.get_fontsize()
+    while t2.get_window_extent(renderer).y0 < floor_px and size > lay.fs(3.6):
+        size -= 0.25
+        t2.set_fontsize(size)
 
     # The caution sits at the foot of the notes column.
     from matplotlib.patches import Rectangle
@@ -262,6 +274,19 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
              color=COLOURS["ink"], va="top", linespacing=1.25)
 
 
+def _feature_height(f: dict, units: str) -> str:
+    from .table import height_text
+
+    if f.get("height_m") is not None:
+        text = f"{height_text(f['height_m'], units)} high"
+        if f.get("allowance_m"):
+            text += f" + {height_text(f['allowance_m'], units)} allowance"
+        return text
+    if f.get("top_m") is not None:
+        return f"top at {height_text(f['top_m'], units)}"
+    return "height not given"
+
+
 def _obstruction_note(c: SheetContent, units: str = "m") -> str:
     from .content import CLUTTER_KINDS
     from .table import height_text
@@ -272,7 +297,7 @@ def _obstruction_note(c: SheetContent, units: str = "m") -> str:
         for f in crossed[:_MAX_CROSSED_LISTED]:
             what = " ".join(str(v) for v in (f.get("kind", ""), f.get("feature", "")) if v not in ("", None))
             span = f"{f.get('from_km', math.nan):.3f}-{f.get('to_km', math.nan):.3f} km"
-            parts.append(f"{what or 'obstruction'} at {span}, {height_text(f.get('height_m', math.nan), units)} high")
+            parts.append(f"{what or 'obstruction'} at {span}, {_feature_height(f, units)}")
         more = f"; and {len(crossed) - _MAX_CROSSED_LISTED} more" if len(crossed) > _MAX_CROSSED_LISTED else ""
         return f"Obstructions crossed, from site a: {'; '.join(parts)}{more}. They count in the clearance."
     d = c.drawing

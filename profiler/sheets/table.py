@@ -156,7 +156,8 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
         Row("Losses", f"k = {k_d}", f"k = {k_w}", kind="section"),
     ]
     ld, lw = record["loss_db"], wc["loss_db"]
-    keys = [k for k in ld if k != "total"] + (["total"] if "total" in ld else [])
+    numeric = [k for k, v in ld.items() if isinstance(v, (int, float)) and not isinstance(v, bool)]
+    keys = [k for k in numeric if k != "total"] + (["total"] if "total" in numeric else [])
     for key in keys:
         rows.append(Row(_loss_label(key), f"{ld[key]:.1f} dB", f"{lw.get(key, float('nan')):.1f} dB"))
     bd, bw = record["budget"], wc["budget"]
