@@ -1,0 +1,1 @@
+"""The ``terrahop`` command: one module per subcommand, shared options in options.py."""

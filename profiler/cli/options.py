@@ -1,0 +1,213 @@
+"""Options shared by several subcommands, and the one place errors become messages."""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import click
+
+from ..errors import TerrahopError
+
+__all__ = [
+    "friendly_errors",
+    "parse_lat_lon",
+    "terrain_options",
+    "site_options",
+    "radio_options",
+    "analysis_options",
+    "ResolvedLink",
+    "resolve_link",
+    "RADIO_FLAGS",
+]
+
+
+def friendly_errors(func: Callable) -> Callable:
+    """Turn terrahop and file errors into a one-line message and exit code 1."""
+
+    @functools.wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return func(*args, **kwargs)
+        except TerrahopError as exc:
+            raise click.ClickException(str(exc)) from None
+        except OSError as exc:
+            raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
+
+    return wrapper
+
+
+def parse_lat_lon(text: str, what: str) -> tuple[float, float]:
+    """'LAT,LON' in decimal degrees -> (lat, lon); raise click.BadParameter if garbled."""
+    parts = [p.strip() for p in str(text).replace(";", ",").split(",")]
+    if len(parts) != 2:
+        raise click.BadParameter(f"{what} must be LAT,LON in decimal degrees, got {text!r}")
+    try:
+        lat, lon = float(parts[0]), float(parts[1])
+    except ValueError:
+        raise click.BadParameter(f"{what} must be LAT,LON in decimal degrees, got {text!r}") from None
+    if not (math.isfinite(lat) and math.isfinite(lon)):
+        raise click.BadParameter(f"{what}: coordinates must be finite numbers, got {text!r}")
+    if not -90 <= lat <= 90:
+        raise click.BadParameter(f"{what}: latitude {lat} is outside -90..90 (give LAT first, then LON)")
+    if not -180 <= lon <= 360:
+        raise click.BadParameter(f"{what}: longitude {lon} is outside -180..180")
+    return lat, lon
+
+
+def _site_callback(ctx: click.Context, param: click.Parameter, value: str | None):
+    if value is None:
+        return None
+    return parse_lat_lon(value, f"--{param.name.replace('_', '-')}")
+
+
+def _compose(*decorators: Callable) -> Callable:
+    def apply(func: Callable) -> Callable:
+        for d in reversed(decorators):
+            func = d(func)
+        return func
+
+    return apply
+
+
+terrain_options = _compose(
+    click.option("--dem", "dem", multiple=True, metavar="RASTER",
+                 help="Elevation raster (GeoTIFF, VRT, any GDAL format, any CRS). Repeat for several tiles; the first given wins where they overlap."),
+    click.option("--vertical-unit", type=click.Choice(["m", "ft", "us-ft"]), default=None,
+                 help="Unit of the raster heights [default: the band's unit metadata, else m]."),
+    click.option("--nodata-fill-m", type=float, default=None, metavar="HEIGHT",
+                 help="Use this height (m) where the raster has nodata on the path, instead of refusing the path."),
+)
+
+site_options = _compose(
+    click.option("--site-a", callback=_site_callback, metavar="LAT,LON", help="Site a position, decimal degrees WGS84."),
+    click.option("--site-b", callback=_site_callback, metavar="LAT,LON", help="Site b position, decimal degrees WGS84."),
+    click.option("--name-a", default=None, help="Name of site a [default: A]."),
+    click.option("--name-b", default=None, help="Name of site b [default: B]."),
+    click.option("--agl-a", type=float, default=None, help="Antenna height of site a above ground, m [default: 10]."),
+    click.option("--agl-b", type=float, default=None, help="Antenna height of site b above ground, m [default: 10]."),
+)
+
+#: Radio flags and the Radio field each one sets.
+RADIO_FLAGS = {
+    "freq_ghz": "Frequency, GHz (required unless in the link file).",
+    "tx_power_dbm": "Transmitter power at site a, dBm [default: 20].",
+    "gain_a_dbi": "Antenna gain at site a, dBi [default: 0].",
+    "gain_b_dbi": "Antenna gain at site b, dBi [default: 0].",
+    "loss_a_db": "Feeder/connector loss at site a, dB [default: 0].",
+    "loss_b_db": "Feeder/connector loss at site b, dB [default: 0].",
+    "bandwidth_mhz": "Receiver noise bandwidth, MHz [default: 20].",
+    "noise_figure_db": "Receiver noise figure, dB [default: 6].",
+    "required_snr_db": "SNR the receiver needs for the wanted rate, dB [default: 15].",
+}
+
+radio_options = _compose(
+    *[click.option(f"--{name.replace('_', '-')}", name, type=float, default=None, help=text)
+      for name, text in RADIO_FLAGS.items()]
+)
+
+analysis_options = _compose(
+    click.option("--k", "k", type=float, default=None, help="Design (median) k-factor [default: 4/3]."),
+    click.option("--k-worst", type=float, default=None, help="Worst-case k-factor [default: 2/3]."),
+    click.option("--spacing-m", type=float, default=None,
+                 help="Profile sample spacing, m [default: half the finest raster cell]."),
+    click.option("--min-f1-fraction", type=float, default=None,
+                 help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
+    click.option("--min-f1-fraction-worst", type=float, default=None,
+                 help="Clearance needed at the worst-case k, fraction of F1 [default: 0.0, LOS unobstructed]."),
+)
+
+
+@dataclass(frozen=True)
+class ResolvedLink:
+    """Everything needed to analyse one link, flags merged over a link file."""
+
+    title: str
+    rasters: tuple[str, ...]
+    vertical_unit: str | None
+    nodata_fill_m: float | None
+    site_a: Any
+    site_b: Any
+    radio: Any
+    settings: Any
+
+
+def _pick(flag: Any, spec: dict, key: str, default: Any = None) -> Any:
+    if flag is not None:
+        return flag
+    return spec.get(key, default)
+
+
+def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
+    """Merge a link file (if any) and command-line options; flags win."""
+    from ..budget import Radio
+    from ..errors import InputError
+    from ..io.linkfile import LinkSpec, read_link_file
+    from ..link import Criterion, Settings, Site
+
+    spec = read_link_file(link_file) if link_file else LinkSpec(path="", title=None)
+    rasters = tuple(opts.get("dem") or ()) or tuple(spec.terrain.get("rasters", ()))
+    if not rasters:
+        raise InputError("no elevation raster: give --dem FILE (repeatable) or [terrain] rasters in the link file")
+
+    def site(tag: str) -> Site:
+        s = getattr(spec, f"site_{tag}")
+        pos = opts.get(f"site_{tag}")
+        lat, lon = pos if pos is not None else (s.get("lat"), s.get("lon"))
+        if lat is None or lon is None:
+            raise InputError(f"site {tag}: position missing; give --site-{tag} LAT,LON or [site_{tag}] lat/lon")
+        name = _pick(opts.get(f"name_{tag}"), s, "name", tag.upper())
+        agl = _pick(opts.get(f"agl_{tag}"), s, "antenna_agl_m", 10.0)
+        try:
+            return Site(str(name), float(lat), float(lon), float(agl)).validate(f"site {tag}")
+        except (TypeError, ValueError) as exc:
+            if isinstance(exc, InputError):
+                raise
+            raise InputError(f"site {tag}: lat, lon and antenna_agl_m must be numbers ({exc})") from None
+
+    a, b = site("a"), site("b")
+    radio_values = {k: _pick(opts.get(k), spec.radio, k) for k in RADIO_FLAGS}
+    if radio_values["freq_ghz"] is None:
+        raise InputError("frequency missing: give --freq-ghz or [radio] freq_ghz in the link file")
+    try:
+        radio = Radio(**{k: float(v) for k, v in radio_values.items() if v is not None}).validate()
+    except (TypeError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(f"radio settings must be numbers ({exc})") from None
+    an = spec.analysis
+    defaults = Settings()
+    try:
+        settings = Settings(
+            k=float(_pick(opts.get("k"), an, "k", defaults.k)),
+            k_worst=float(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst)),
+            spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
+            criterion=Criterion(
+                min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
+                min_f1_fraction_worst=float(
+                    _pick(opts.get("min_f1_fraction_worst"), an, "min_f1_fraction_worst", 0.0)
+                ),
+            ),
+            diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+        ).validate()
+    except (TypeError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(f"analysis settings must be numbers ({exc})") from None
+    title = spec.title or f"{a.name} - {b.name}"
+    return ResolvedLink(
+        title=title,
+        rasters=rasters,
+        vertical_unit=_pick(opts.get("vertical_unit"), spec.terrain, "vertical_unit"),
+        nodata_fill_m=_opt_float(_pick(opts.get("nodata_fill_m"), spec.terrain, "nodata_fill_m")),
+        site_a=a,
+        site_b=b,
+        radio=radio,
+        settings=settings,
+    )
+
+
+def _opt_float(value: Any) -> float | None:
+    return None if value is None else float(value)

@@ -1,0 +1,1 @@
+"""File edges: link files, site files, reports and exports."""

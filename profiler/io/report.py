@@ -1,0 +1,58 @@
+"""Plain-text summary of a link result (the JSON record of profiler.link)."""
+
+from __future__ import annotations
+
+__all__ = ["format_link_summary"]
+
+
+def _verdict(ok: bool) -> str:
+    return "MEETS" if ok else "FAILS"
+
+
+def _at_k_lines(r: dict) -> list[str]:
+    c, loss, b = r["clearance"], r["loss_db"], r["budget"]
+    los = "yes" if c["line_of_sight"] else "NO (line of sight obstructed)"
+    return [
+        f"  worst point        {c['worst_distance_km']:.3f} km from site a: clearance "
+        f"{c['worst_clearance_m']:+.1f} m = {c['worst_f1_fraction']:+.2f} F1",
+        f"  line of sight      {los}",
+        f"  losses (dB)        free space {loss['free_space']:.1f} + diffraction "
+        f"{loss['diffraction']:.1f} + gases {loss['gases']:.1f} = total {loss['total']:.1f}",
+        f"  received level     {b['rx_level_dbm']:.1f} dBm   noise floor {b['noise_floor_dbm']:.1f} dBm",
+        f"  SNR                {b['snr_db']:.1f} dB   fade margin {b['fade_margin_db']:+.1f} dB",
+    ]
+
+
+def format_link_summary(r: dict) -> str:
+    """Text a planner reads in a terminal; one block per link."""
+    if "error" in r:
+        return f"{r['name']}: cannot analyse: {r['error']}"
+    a, b = r["sites"]["a"], r["sites"]["b"]
+    radio = r["inputs"]["radio"]
+    datum = r["inputs"].get("vertical_datum") or "that of the elevation raster"
+    lines = [
+        f"== {r['name']} ==",
+        f"path               {r['distance_km']:.3f} km   azimuth a->b {r['azimuth_a_to_b_deg']:.2f} deg, "
+        f"b->a {r['azimuth_b_to_a_deg']:.2f} deg (true)",
+    ]
+    for tag, s in (("a", a), ("b", b)):
+        lines.append(
+            f"site {tag}             {s['name']}  ({s['lat']:.6f}, {s['lon']:.6f})  ground "
+            f"{s['ground_m']:.1f} m, antenna {s['antenna_agl_m']:.1f} m AGL = {s['antenna_amsl_m']:.1f} m AMSL"
+        )
+    lines += [
+        f"heights            metres; vertical datum: {datum}",
+        f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
+        f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
+        f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "
+        f"needs SNR {radio['required_snr_db']:g} dB",
+        f"EIRP               {r['budget']['eirp_dbm']:.1f} dBm",
+        f"design k = {r['k']:.4g} ({r['inputs'].get('diffraction_method', 'knife-edge')} diffraction)",
+        *_at_k_lines(r),
+        f"worst case k = {r['worst_case']['k']:.4g}",
+        *_at_k_lines(r["worst_case"]),
+        f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
+    ]
+    for w in r.get("warnings", []):
+        lines.append(f"warning: {w}")
+    return "\n".join(lines)

@@ -1,0 +1,372 @@
+"""Analyse one or many links: the orchestrator of the pure core.
+
+Sampling, clearance at two k-factors, losses and budget for a batch of
+paths.  A single link is a batch of one.  No printing, no file writing.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from dataclasses import asdict, dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+
+from . import __version__
+from .budget import Budget, Radio, link_budget
+from .errors import DataError, InputError
+from .geometry import Clearance, clearance
+from .losses.diffraction import fresnel_kirchhoff_v, knife_edge_loss_db
+from .losses.free_space import free_space_loss_db
+from .profile import Profiles, build_profiles
+from .terrain import ElevationModel
+
+__all__ = [
+    "Site",
+    "Criterion",
+    "Settings",
+    "AtK",
+    "LinkBatch",
+    "analyse_links",
+    "analyse_link",
+    "evaluate_profiles",
+]
+
+
+@dataclass(frozen=True)
+class Site:
+    """One end of a link: name, WGS84 position in degrees, antenna height above ground in metres."""
+
+    name: str
+    lat_deg: float
+    lon_deg: float
+    antenna_agl_m: float
+
+    def validate(self, role: str = "site") -> "Site":
+        """Raise InputError if the position or height is out of range."""
+        where = f"{role} {self.name!r}" if self.name else role
+        for attr in ("lat_deg", "lon_deg", "antenna_agl_m"):
+            value = getattr(self, attr)
+            if not isinstance(value, (int, float)) or not math.isfinite(value):
+                raise InputError(f"{where}: {attr} must be a finite number, got {value!r}")
+        if not -90.0 <= self.lat_deg <= 90.0:
+            raise InputError(f"{where}: latitude {self.lat_deg} is outside -90..90 degrees")
+        if not -180.0 <= self.lon_deg <= 360.0:
+            raise InputError(f"{where}: longitude {self.lon_deg} is outside -180..180 degrees")
+        if self.antenna_agl_m < 0:
+            raise InputError(
+                f"{where}: antenna height above ground must be 0 m or more, got {self.antenna_agl_m} m"
+            )
+        return self
+
+
+@dataclass(frozen=True)
+class Criterion:
+    """Clearance the planner asks for, as fractions of the first Fresnel radius.
+
+    Default (common practice): 0.6 F1 at the design k and the line of sight
+    unobstructed (0.0 F1) at the worst-case k.
+    """
+
+    min_f1_fraction: float = 0.6
+    min_f1_fraction_worst: float = 0.0
+
+    def describe(self, k: float, k_worst: float) -> str:
+        return (
+            f">= {self.min_f1_fraction:g} F1 at k={k:.4g} and "
+            f">= {self.min_f1_fraction_worst:g} F1 at k={k_worst:.4g}"
+        )
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Analysis settings: k-factors, sample spacing, criterion, diffraction method."""
+
+    k: float = 4.0 / 3.0
+    k_worst: float = 2.0 / 3.0
+    spacing_m: float | None = None
+    criterion: Criterion = field(default_factory=Criterion)
+    diffraction_method: str = "knife-edge"
+
+    def validate(self) -> "Settings":
+        for name in ("k", "k_worst"):
+            value = getattr(self, name)
+            if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
+                raise InputError(f"{name} (effective earth radius factor) must be greater than 0, got {value!r}")
+        if self.spacing_m is not None and not (math.isfinite(self.spacing_m) and self.spacing_m > 0):
+            raise InputError(f"sample spacing must be greater than 0 m, got {self.spacing_m!r}")
+        for name in ("min_f1_fraction", "min_f1_fraction_worst"):
+            value = getattr(self.criterion, name)
+            if not math.isfinite(value):
+                raise InputError(f"criterion {name} must be a finite number, got {value!r}")
+        return self
+
+
+@dataclass(frozen=True)
+class AtK:
+    """Clearance, losses (dB) and budget of many paths at one k-factor."""
+
+    k: float
+    clearance: Clearance
+    diffraction_db: np.ndarray
+    gases_db: np.ndarray
+    total_db: np.ndarray
+    budget: Budget
+
+
+def dominant_edge_loss_db(
+    profiles: Profiles,
+    antenna_a_amsl_m: np.ndarray,
+    antenna_b_amsl_m: np.ndarray,
+    freq_ghz: Any,
+    clear: Clearance,
+) -> np.ndarray:
+    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1).
+
+    The edge height is the surface plus earth bulge above the line between
+    the antennas; J(v) is 0 dB for v <= -0.78.
+    """
+    d1 = profiles.distance_m
+    d2 = profiles.length_m[:, None] - d1
+    f = np.asarray(freq_ghz, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v = fresnel_kirchhoff_v(-clear.clearance_m, d1, d2, f[:, None] if f.ndim else f)
+    v = np.where(profiles.interior & np.isfinite(v), v, -np.inf)
+    return knife_edge_loss_db(np.max(v, axis=1))
+
+
+def gaseous_loss_db(profiles: Profiles, freq_ghz: Any) -> np.ndarray:
+    """Gaseous absorption along the path, dB (not yet modelled: 0)."""
+    return np.zeros(profiles.length_m.shape)
+
+
+def evaluate_profiles(
+    profiles: Profiles,
+    antenna_a_amsl_m: np.ndarray,
+    antenna_b_amsl_m: np.ndarray,
+    radio: Radio,
+    k: float,
+    settings: Settings,
+) -> AtK:
+    """Clearance, losses and budget of prepared profiles at one k-factor."""
+    clear = clearance(
+        profiles.distance_m,
+        _finite_surface(profiles),
+        profiles.interior,
+        profiles.length_m,
+        antenna_a_amsl_m,
+        antenna_b_amsl_m,
+        _per_path(radio.freq_ghz),
+        k,
+    )
+    diffraction = dominant_edge_loss_db(profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, clear)
+    gases = gaseous_loss_db(profiles, radio.freq_ghz)
+    total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
+    return AtK(k, clear, diffraction, gases, total, link_budget(radio, total))
+
+
+def _per_path(value: Any) -> Any:
+    arr = np.asarray(value, dtype=float)
+    return arr if arr.ndim else float(arr)
+
+
+def _finite_surface(profiles: Profiles) -> np.ndarray:
+    surface = profiles.surface_m
+    return np.where(np.isnan(surface), 0.0, surface)
+
+
+@dataclass(frozen=True)
+class LinkBatch:
+    """Results of many links; ``record(i)`` gives the JSON object of link i."""
+
+    names: tuple[str, ...]
+    sites_a: tuple[Site, ...]
+    sites_b: tuple[Site, ...]
+    radio: Radio
+    settings: Settings
+    profiles: Profiles
+    ground_a_m: np.ndarray
+    ground_b_m: np.ndarray
+    antenna_a_amsl_m: np.ndarray
+    antenna_b_amsl_m: np.ndarray
+    free_space_db: np.ndarray
+    design: AtK
+    worst: AtK
+    meets_criterion: np.ndarray
+    provenance: dict
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    @property
+    def problems(self) -> tuple[str | None, ...]:
+        return self.profiles.problems
+
+    def record(self, i: int) -> dict:
+        """JSON-ready result of link i (keys as in the design notes)."""
+        if self.problems[i] is not None:
+            return {"name": self.names[i], "error": self.problems[i]}
+        lines = self.profiles.lines
+        return {
+            "name": self.names[i],
+            "distance_km": float(lines.length_m[i]) / 1000.0,
+            "azimuth_a_to_b_deg": float(lines.azimuth_a_to_b_deg[i]),
+            "azimuth_b_to_a_deg": float(lines.azimuth_b_to_a_deg[i]),
+            "sites": {
+                "a": _site_record(self.sites_a[i], self.ground_a_m[i], self.antenna_a_amsl_m[i]),
+                "b": _site_record(self.sites_b[i], self.ground_b_m[i], self.antenna_b_amsl_m[i]),
+            },
+            **_at_k_record(self.design, i, self.free_space_db[i]),
+            "worst_case": _at_k_record(self.worst, i, self.free_space_db[i]),
+            "meets_criterion": bool(self.meets_criterion[i]),
+            "criterion": self.settings.criterion.describe(self.settings.k, self.settings.k_worst),
+            "inputs": {
+                "radio": {k: _scalar(v, i) for k, v in asdict(self.radio).items()},
+                "k": self.settings.k,
+                "k_worst": self.settings.k_worst,
+                "sample_spacing_m": float(self.profiles.spacing_m[i]),
+                "samples": int(self.profiles.n_samples[i]),
+                "min_f1_fraction": self.settings.criterion.min_f1_fraction,
+                "min_f1_fraction_worst": self.settings.criterion.min_f1_fraction_worst,
+                "diffraction_method": self.settings.diffraction_method,
+                "earth_radius_km": 6371.0,
+                "noise_temperature_k": 290.0,
+                "vertical_datum": self.provenance.get("vertical_datum", ""),
+            },
+            "provenance": self.provenance,
+        }
+
+    def records(self) -> list[dict]:
+        return [self.record(i) for i in range(len(self))]
+
+
+def _scalar(value: Any, i: int) -> float:
+    arr = np.asarray(value, dtype=float)
+    return float(arr if arr.ndim == 0 else arr[i])
+
+
+def _site_record(site: Site, ground_m: float, amsl_m: float) -> dict:
+    return {
+        "name": site.name,
+        "lat": site.lat_deg,
+        "lon": site.lon_deg,
+        "ground_m": float(ground_m),
+        "antenna_agl_m": site.antenna_agl_m,
+        "antenna_amsl_m": float(amsl_m),
+    }
+
+
+def _at_k_record(r: AtK, i: int, free_space_db: float) -> dict:
+    c = r.clearance
+    return {
+        "k": r.k,
+        "clearance": {
+            "worst_f1_fraction": float(c.worst_f1_fraction[i]),
+            "worst_clearance_m": float(c.worst_clearance_m[i]),
+            "worst_distance_km": float(c.worst_distance_m[i]) / 1000.0,
+            "line_of_sight": bool(c.line_of_sight[i]),
+        },
+        "loss_db": {
+            "free_space": float(free_space_db),
+            "diffraction": float(r.diffraction_db[i]),
+            "gases": float(r.gases_db[i]),
+            "total": float(r.total_db[i]),
+        },
+        "budget": {
+            "eirp_dbm": float(r.budget.eirp_dbm[i]),
+            "rx_level_dbm": float(r.budget.rx_level_dbm[i]),
+            "noise_floor_dbm": float(r.budget.noise_floor_dbm[i]),
+            "snr_db": float(r.budget.snr_db[i]),
+            "fade_margin_db": float(r.budget.fade_margin_db[i]),
+        },
+    }
+
+
+def analyse_links(
+    model: ElevationModel,
+    sites_a: Sequence[Site],
+    sites_b: Sequence[Site],
+    radio: Radio,
+    settings: Settings = Settings(),
+    *,
+    names: Sequence[str] | None = None,
+) -> LinkBatch:
+    """Analyse many links at once (site a transmits to site b).
+
+    Paths that cannot be profiled (outside the rasters, nodata) are kept with
+    a sentence in ``problems``; their numbers are meaningless.
+    """
+    if len(sites_a) != len(sites_b):
+        raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
+    if not sites_a:
+        raise InputError("no links to analyse")
+    radio.validate()
+    settings.validate()
+    names = list(names) if names is not None else [f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)]
+    for a, b, name in zip(sites_a, sites_b, names):
+        a.validate(f"{name}: site a")
+        b.validate(f"{name}: site b")
+        if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):
+            raise InputError(
+                f"{name}: site a {a.name!r} and site b {b.name!r} are at the same position "
+                f"({a.lat_deg}, {a.lon_deg}); a link needs two different places"
+            )
+    lat_a = np.array([s.lat_deg for s in sites_a])
+    lon_a = np.array([s.lon_deg for s in sites_a])
+    lat_b = np.array([s.lat_deg for s in sites_b])
+    lon_b = np.array([s.lon_deg for s in sites_b])
+    profiles = build_profiles(
+        model, lat_a, lon_a, lat_b, lon_b, spacing_m=settings.spacing_m, labels=names
+    )
+    rows = np.arange(len(names))
+    last = profiles.n_samples - 1
+    ground_a = profiles.ground_m[:, 0]
+    ground_b = profiles.ground_m[rows, last]
+    agl_a = np.array([s.antenna_agl_m for s in sites_a])
+    agl_b = np.array([s.antenna_agl_m for s in sites_b])
+    antenna_a = np.nan_to_num(ground_a) + agl_a
+    antenna_b = np.nan_to_num(ground_b) + agl_b
+    fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
+    with np.errstate(invalid="ignore"):
+        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings)
+        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings)
+    crit = settings.criterion
+    meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
+        worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
+    )
+    datums = sorted({s.vertical_datum for s in model.sources})
+    provenance = {
+        "elevation_sources": model.describe(),
+        "vertical_datum": "; ".join(datums),
+        "software_version": f"terrahop {__version__}",
+        "computed_at": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+    }
+    return LinkBatch(
+        names=tuple(names),
+        sites_a=tuple(sites_a),
+        sites_b=tuple(sites_b),
+        radio=radio,
+        settings=settings,
+        profiles=profiles,
+        ground_a_m=ground_a,
+        ground_b_m=ground_b,
+        antenna_a_amsl_m=antenna_a,
+        antenna_b_amsl_m=antenna_b,
+        free_space_db=fsl,
+        design=design,
+        worst=worst,
+        meets_criterion=meets & profiles.valid,
+        provenance=provenance,
+    )
+
+
+def analyse_link(
+    model: ElevationModel, site_a: Site, site_b: Site, radio: Radio, settings: Settings = Settings(),
+    *, name: str | None = None,
+) -> LinkBatch:
+    """Analyse one link; raise DataError if its path cannot be profiled."""
+    batch = analyse_links(model, [site_a], [site_b], radio, settings, names=[name] if name else None)
+    if batch.problems[0] is not None:
+        raise DataError(batch.problems[0])
+    return batch
