@@ -14,6 +14,7 @@ from ..errors import TerrahopError
 __all__ = [
     "friendly_errors",
     "parse_lat_lon",
+    "parse_number",
     "terrain_options",
     "site_options",
     "radio_options",
@@ -63,6 +64,24 @@ def _site_callback(ctx: click.Context, param: click.Parameter, value: str | None
     return parse_lat_lon(value, f"--{param.name.replace('_', '-')}")
 
 
+def parse_number(value: Any, what: str) -> float:
+    """A number, or a fraction written as 'P/Q' (e.g. k = '4/3'); raise InputError otherwise."""
+    from ..errors import InputError
+
+    if isinstance(value, bool):
+        raise InputError(f"{what} must be a number, got {value!r}")
+    if isinstance(value, (int, float)):
+        return float(value)
+    text = str(value).strip()
+    try:
+        if "/" in text:
+            num, den = text.split("/", 1)
+            return float(num) / float(den)
+        return float(text)
+    except (ValueError, ZeroDivisionError):
+        raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
+
+
 def _compose(*decorators: Callable) -> Callable:
     def apply(func: Callable) -> Callable:
         for d in reversed(decorators):
@@ -109,8 +128,10 @@ radio_options = _compose(
 )
 
 analysis_options = _compose(
-    click.option("--k", "k", type=float, default=None, help="Design (median) k-factor [default: 4/3]."),
-    click.option("--k-worst", type=float, default=None, help="Worst-case k-factor [default: 2/3]."),
+    click.option("--k", "k", default=None, metavar="K",
+                 help="Design (median) k-factor, a number or a fraction such as 4/3 [default: 4/3]."),
+    click.option("--k-worst", default=None, metavar="K",
+                 help="Worst-case k-factor, a number or a fraction [default: 2/3]."),
     click.option("--spacing-m", type=float, default=None,
                  help="Profile sample spacing, m [default: half the finest raster cell]."),
     click.option("--min-f1-fraction", type=float, default=None,
@@ -181,8 +202,8 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
     defaults = Settings()
     try:
         settings = Settings(
-            k=float(_pick(opts.get("k"), an, "k", defaults.k)),
-            k_worst=float(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst)),
+            k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
+            k_worst=parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst"),
             spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
             criterion=Criterion(
                 min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
