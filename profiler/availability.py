@@ -56,6 +56,10 @@ __all__ = [
     "outage_components_pct",
     "evaluate_availability",
     "required_fade_margin_db",
+    "AVAILABILITY_MIN_FREQ_GHZ",
+    "AVAILABILITY_MAX_FREQ_GHZ",
+    "LinkAvailability",
+    "availability_for_links",
 ]
 
 #: Minutes in an average year of 365.25 days.
@@ -80,7 +84,7 @@ class ClimateSettings:
     """Climate and availability inputs of a hop, with stated defaults.
 
     rain_rate_mm_h: R0.01, rain rate exceeded 0.01 % of an average year (1-min).
-    polarisation: 'horizontal', 'vertical', 'circular' or a tilt angle in degrees.
+    polarisation: 'horizontal', 'vertical', 'circular' or a tilt angle in degrees (kept as text).
     target_availability_pct: availability aimed at, 99-99.999 % (P.530 rain range).
     dn1_n_per_km: refractivity gradient dN1 (ITU-R P.453).
     terrain_roughness_m: sa, terrain height standard deviation (ITU-R P.530).
@@ -95,9 +99,11 @@ class ClimateSettings:
     pressure_hpa: float = DEFAULT_PRESSURE_HPA
     temperature_c: float = DEFAULT_TEMPERATURE_C
     water_vapour_g_m3: float = DEFAULT_WATER_VAPOUR_G_M3
+    #: Names of the settings the planner gave; None: any value equal to its default counts as a default.
+    given: frozenset[str] | None = field(default=None, compare=False)
 
     def __post_init__(self) -> None:
-        numeric = {f.name: getattr(self, f.name) for f in fields(self) if f.name != "polarisation"}
+        numeric = {f.name: getattr(self, f.name) for f in fields(self) if f.name not in ("polarisation", "given")}
         for name, value in numeric.items():
             try:
                 number = float(value)
@@ -106,7 +112,11 @@ class ClimateSettings:
             if not np.isfinite(number):
                 raise InputError(f"{name} must be a finite number, got {value!r}")
             object.__setattr__(self, name, number)
-        polarisation_tilt_deg(self.polarisation)  # raises InputError if unknown
+        tau = polarisation_tilt_deg(self.polarisation)  # raises InputError if unknown
+        if isinstance(self.polarisation, str) and self.polarisation.strip().lower() in _POLARISATIONS:
+            object.__setattr__(self, "polarisation", self.polarisation.strip().lower())
+        else:
+            object.__setattr__(self, "polarisation", f"{tau:g}")
         if self.rain_rate_mm_h < 0.0:
             raise InputError(f"rain_rate_mm_h must be zero or positive, got {self.rain_rate_mm_h:g}")
         if self.rain_rate_mm_h > 300.0:
@@ -143,11 +153,16 @@ class ClimateSettings:
 
     def as_dict(self) -> dict[str, float | str]:
         """Plain mapping of every setting (for JSON ``inputs``)."""
-        return asdict(self)
+        out = asdict(self)
+        out.pop("given")
+        return out
 
     def defaults_used(self) -> tuple[str, ...]:
-        """Names of the settings left at their defaults."""
-        return tuple(f.name for f in fields(self) if getattr(self, f.name) == f.default)
+        """Names of the settings left at their defaults (not given by the planner)."""
+        names = [f.name for f in fields(self) if f.name != "given"]
+        if self.given is not None:
+            return tuple(n for n in names if n not in self.given)
+        return tuple(n for n in names if getattr(self, n) == getattr(ClimateSettings, n))
 
 
 @dataclass(frozen=True)
@@ -338,7 +353,8 @@ def _assumptions(settings: ClimateSettings, latitude_given: bool, pc: _PathClima
         "rain: ITU-R P.838-3 specific attenuation, ITU-R P.530-17 section 2.4.1 path statistics, "
         f"R0.01 = {settings.rain_rate_mm_h:g} mm/h"
         + (" (default: give the site's value from ITU-R P.837)" if "rain_rate_mm_h" in settings.defaults_used() else ""),
-        f"polarisation {settings.polarisation} (tilt {settings.tilt_deg:g} deg)",
+        f"polarisation {settings.polarisation} (tilt {settings.tilt_deg:g} deg)"
+        + (" (default)" if "polarisation" in settings.defaults_used() else ""),
         "multipath: ITU-R P.530-17 sections 2.3.1-2.3.2 with "
         f"dN1 = {settings.dn1_n_per_km:g} N-units/km"
         + (" (default)" if "dn1_n_per_km" in settings.defaults_used() else "")
@@ -407,4 +423,173 @@ def evaluate_availability(
         required_fade_margin_db=required,
         meets_target=availability >= target * (1 - 1e-15),
         assumptions=_assumptions(settings, latitude_deg is not None, pc, outside),
+    )
+
+
+#: Frequency range over which terrahop estimates availability, GHz (ITU-R P.838-3 from
+#: 1 GHz; the ITU-R P.530-17 rain method up to 100 GHz).
+AVAILABILITY_MIN_FREQ_GHZ = 1.0
+AVAILABILITY_MAX_FREQ_GHZ = 100.0
+
+
+@dataclass(frozen=True)
+class LinkAvailability:
+    """Availability of each link of a batch: results for the rows that could be estimated.
+
+    ``rows[i]`` is the index of link i in ``result`` (-1 when not estimated) and
+    ``reasons[i]`` says why not; ``notes[i]`` holds assumptions particular to link i.
+    """
+
+    settings: ClimateSettings
+    result: AvailabilityResult | None
+    rows: np.ndarray
+    reasons: tuple[str | None, ...]
+    notes: tuple[tuple[str, ...], ...]
+    inclination_mrad: np.ndarray
+    latitude_deg: np.ndarray
+    distance_m: np.ndarray
+
+    def record(self, i: int) -> dict:
+        """JSON-ready ``availability`` block of link i (keys carry their units)."""
+        s = self.settings
+        j = int(self.rows[i])
+        if j < 0 or self.result is None:
+            return {"estimated": False, "reason": self.reasons[i], "target_availability_pct": s.target_availability_pct}
+        r = self.result
+        need = float(r.required_fade_margin_db[j])
+        return {
+            "estimated": True,
+            "method": "ITU-R P.530-17 sections 2.3 (multipath) and 2.4.1 (rain), ITU-R P.838-3",
+            "fade_margin_db": float(r.fade_margin_db[j]),
+            "availability_pct": float(r.availability_pct[j]),
+            "target_availability_pct": s.target_availability_pct,
+            "meets_target": bool(r.meets_target[j]),
+            "required_fade_margin_db": need if np.isfinite(need) else None,
+            "outage": {
+                "rain_pct": float(r.rain_outage_pct[j]),
+                "rain_min_per_year": float(r.rain_outage_min_per_year[j]),
+                "multipath_pct": float(r.multipath_outage_pct[j]),
+                "multipath_min_per_year": float(r.multipath_outage_min_per_year[j]),
+                "total_pct": float(r.total_outage_pct[j]),
+                "total_min_per_year": float(r.total_outage_min_per_year[j]),
+            },
+            "rain": {
+                "rain_rate_mm_h": s.rain_rate_mm_h,
+                "polarisation": s.polarisation,
+                "tilt_deg": s.tilt_deg,
+                "attenuation_001_db": float(r.rain_attenuation_001_db[j]),
+                "outside_method_range": bool(r.rain_outside_method_range[j]),
+            },
+            "multipath": {
+                "estimated": bool(r.multipath_applicable[j]),
+                "dn1_n_per_km": s.dn1_n_per_km,
+                "terrain_roughness_m": s.terrain_roughness_m,
+                "geoclimatic_factor": float(geoclimatic_factor(s.dn1_n_per_km, s.terrain_roughness_m)),
+                "inclination_mrad": float(self.inclination_mrad[i]),
+                "latitude_deg": float(self.latitude_deg[i]),
+                "occurrence_factor_pct": float(r.multipath_occurrence_factor_pct[j]),
+                "worst_month_pct": float(r.multipath_worst_month_pct[j]),
+                "worst_month_to_year_db": float(r.worst_month_to_year_db[j]),
+            },
+            "assumptions": [*self.notes[i]],
+        }
+
+
+def availability_for_links(
+    fade_margin_db: ArrayLike,
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    latitude_deg: ArrayLike,
+    valid: ArrayLike,
+    settings: ClimateSettings = ClimateSettings(),
+) -> LinkAvailability:
+    """Availability of many links at once, skipping (with a reason) those it cannot estimate.
+
+    Links outside 1-100 GHz (ITU-R P.838-3, P.530-17 rain) or marked not
+    ``valid`` (no profile) get a reason instead of numbers; multipath is left
+    out (and said so) outside 15/d-45 GHz; paths over 60 km carry a note.
+    """
+    import warnings
+
+    from .errors import ModelValidityWarning
+    from .losses.rain import P530_RAIN_TESTED_MAX_DISTANCE_KM
+
+    d, f, ha, hb, lat, ok = np.broadcast_arrays(
+        np.asarray(distance_m, dtype=float),
+        np.asarray(freq_ghz, dtype=float),
+        np.asarray(altitude_a_m, dtype=float),
+        np.asarray(altitude_b_m, dtype=float),
+        np.asarray(latitude_deg, dtype=float),
+        np.asarray(valid, dtype=bool),
+    )
+    margin = np.broadcast_to(np.asarray(fade_margin_db, dtype=float), d.shape)
+    n = d.shape[0] if d.ndim else 1
+    d, f, ha, hb, lat, ok, margin = (np.atleast_1d(x) for x in (d, f, ha, hb, lat, ok, margin))
+    reasons: list[str | None] = [None] * n
+    in_band = (f >= AVAILABILITY_MIN_FREQ_GHZ) & (f <= AVAILABILITY_MAX_FREQ_GHZ)
+    usable = ok & in_band & np.isfinite(margin) & (d > 0) & np.isfinite(ha) & np.isfinite(hb)
+    for i in range(n):
+        if not ok[i]:
+            reasons[i] = "no profile for this path"
+        elif not in_band[i]:
+            reasons[i] = (
+                f"{f[i]:g} GHz is outside 1-100 GHz, the range of the ITU-R P.838-3 / P.530-17 "
+                "rain method; availability is not estimated"
+            )
+        elif not usable[i]:
+            reasons[i] = "fade margin or path geometry not available"
+    rows = np.full(n, -1, dtype=int)
+    idx = np.flatnonzero(usable)
+    rows[idx] = np.arange(idx.size)
+    result = None
+    shared: tuple[str, ...] = ()
+    if idx.size:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ModelValidityWarning)  # recorded per link below
+            result = evaluate_availability(
+                margin[idx], d[idx], f[idx], ha[idx], hb[idx], settings,
+                latitude_deg=lat[idx], multipath_outside_range="exclude",
+            )
+        atmosphere = ("pressure_hpa", "temperature_c", "water_vapour_g_m3")
+        shared = (
+            "fade margin taken from the budget at the design k (median conditions, gases included)",
+            f"gases: ITU-R P.676-12 Annex 1 at {settings.pressure_hpa:g} hPa, {settings.temperature_c:g} degC, "
+            f"{settings.water_vapour_g_m3:g} g/m^3"
+            + (" (defaults)" if all(a in settings.defaults_used() for a in atmosphere) else ""),
+            *(a for a in result.assumptions if "taken as 0" not in a and "is extended there" not in a),
+        )
+    notes: list[tuple[str, ...]] = []
+    for i in range(n):
+        j = rows[i]
+        if j < 0 or result is None:
+            notes.append(())
+            continue
+        extra = []
+        if not result.multipath_applicable[j]:
+            extra.append(
+                f"multipath not estimated (taken as 0): {f[i]:g} GHz on a {d[i] / 1000:.2f} km path lies outside "
+                "15/d-45 GHz, the range of ITU-R P.530-17 section 2.3"
+            )
+        if result.rain_outside_method_range[j]:
+            extra.append(
+                "rain outage lies outside 0.001-1 %, the range of ITU-R P.530-17 eq. 34; the power law is "
+                "extended there (below 0.001 % the figure is indicative only)"
+            )
+        if d[i] > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0:
+            extra.append(
+                f"path longer than {P530_RAIN_TESTED_MAX_DISTANCE_KM:g} km, the length to which the ITU-R P.530 rain "
+                "method was tested; rain outage less certain"
+            )
+        notes.append(shared + tuple(extra))
+    return LinkAvailability(
+        settings=settings,
+        result=result,
+        rows=rows,
+        reasons=tuple(reasons),
+        notes=tuple(notes),
+        inclination_mrad=path_inclination_mrad(ha, hb, np.where(d > 0, d, np.nan)),
+        latitude_deg=lat,
+        distance_m=d,
     )

@@ -14,10 +14,12 @@ from typing import Any, Sequence
 import numpy as np
 
 from . import __version__
+from .availability import ClimateSettings, LinkAvailability, availability_for_links
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
 from .losses.diffraction import fresnel_kirchhoff_v, knife_edge_loss_db
+from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
 from .losses.free_space import free_space_loss_db
 from .profile import Profiles, build_profiles
 from .terrain import ElevationModel
@@ -81,13 +83,14 @@ class Criterion:
 
 @dataclass(frozen=True)
 class Settings:
-    """Analysis settings: k-factors, sample spacing, criterion, diffraction method."""
+    """Analysis settings: k-factors, sample spacing, criterion, diffraction method, climate."""
 
     k: float = 4.0 / 3.0
     k_worst: float = 2.0 / 3.0
     spacing_m: float | None = None
     criterion: Criterion = field(default_factory=Criterion)
     diffraction_method: str = "knife-edge"
+    climate: ClimateSettings = field(default_factory=ClimateSettings)
 
     def validate(self) -> "Settings":
         for name in ("k", "k_worst"):
@@ -136,9 +139,22 @@ def dominant_edge_loss_db(
     return knife_edge_loss_db(np.max(v, axis=1))
 
 
-def gaseous_loss_db(profiles: Profiles, freq_ghz: Any) -> np.ndarray:
-    """Gaseous absorption along the path, dB (not yet modelled: 0)."""
-    return np.zeros(profiles.length_m.shape)
+def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings = ClimateSettings()) -> np.ndarray:
+    """Gaseous absorption along the path, dB (ITU-R P.676-12 Annex 1, terrestrial path A = gamma d).
+
+    Computed at the climate's pressure, temperature and water-vapour density;
+    0 outside 1-1000 GHz, where Annex 1 does not apply (below 1 GHz gases
+    take less than 0.006 dB/km) and for paths without a length.
+    """
+    length = np.asarray(profiles.length_m, dtype=float)
+    f = np.broadcast_to(np.asarray(freq_ghz, dtype=float), length.shape)
+    use = (f >= P676_MIN_FREQ_GHZ) & (f <= P676_MAX_FREQ_GHZ) & np.isfinite(length) & (length >= 0)
+    out = np.zeros(length.shape)
+    if np.any(use):
+        out[use] = gaseous_path_attenuation_db(
+            length[use], f[use], climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3
+        )
+    return out
 
 
 def evaluate_profiles(
@@ -161,7 +177,7 @@ def evaluate_profiles(
         k,
     )
     diffraction = dominant_edge_loss_db(profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, clear)
-    gases = gaseous_loss_db(profiles, radio.freq_ghz)
+    gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
     return AtK(k, clear, diffraction, gases, total, link_budget(radio, total))
 
@@ -195,6 +211,7 @@ class LinkBatch:
     worst: AtK
     meets_criterion: np.ndarray
     provenance: dict
+    availability: LinkAvailability | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -221,6 +238,7 @@ class LinkBatch:
             "worst_case": _at_k_record(self.worst, i, self.free_space_db[i]),
             "meets_criterion": bool(self.meets_criterion[i]),
             "criterion": self.settings.criterion.describe(self.settings.k, self.settings.k_worst),
+            **({"availability": self.availability.record(i)} if self.availability is not None else {}),
             "inputs": {
                 "radio": {k: _scalar(v, i) for k, v in asdict(self.radio).items()},
                 "k": self.settings.k,
@@ -233,6 +251,7 @@ class LinkBatch:
                 "earth_radius_km": 6371.0,
                 "noise_temperature_k": 290.0,
                 "vertical_datum": self.provenance.get("vertical_datum", ""),
+                "climate": self.settings.climate.as_dict(),
             },
             "provenance": self.provenance,
         }
@@ -335,6 +354,16 @@ def analyse_links(
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
     )
+    availability = availability_for_links(
+        design.budget.fade_margin_db,
+        profiles.length_m,
+        radio.freq_ghz,
+        antenna_a,
+        antenna_b,
+        (lat_a + lat_b) / 2.0,
+        profiles.valid,
+        settings.climate,
+    )
     datums = sorted({s.vertical_datum for s in model.sources})
     provenance = {
         "elevation_sources": model.describe(),
@@ -358,6 +387,7 @@ def analyse_links(
         worst=worst,
         meets_criterion=meets & profiles.valid,
         provenance=provenance,
+        availability=availability,
     )
 
 

@@ -6,7 +6,14 @@ import json
 
 import click
 
-from .options import analysis_options, friendly_errors, radio_options, site_options, terrain_options
+from .options import (
+    analysis_options,
+    climate_options,
+    friendly_errors,
+    radio_options,
+    site_options,
+    terrain_options,
+)
 
 __all__ = ["link", "run_link"]
 
@@ -31,6 +38,7 @@ def run_link(resolved) -> dict:
 @site_options
 @radio_options
 @analysis_options
+@climate_options
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
 @friendly_errors
 def link(link_file: str | None, as_json: bool, **opts) -> None:

@@ -19,6 +19,9 @@ __all__ = [
     "site_options",
     "radio_options",
     "analysis_options",
+    "climate_options",
+    "CLIMATE_FLAGS",
+    "resolve_climate",
     "ResolvedLink",
     "resolve_link",
     "RADIO_FLAGS",
@@ -141,6 +144,42 @@ analysis_options = _compose(
 )
 
 
+#: Climate and availability flags: ClimateSettings field -> (flag, value type, help).
+CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
+    "rain_rate_mm_h": ("--rain-rate-mm-h", float,
+                       "Rain rate exceeded 0.01 % of an average year (R0.01, 1-minute), mm/h; take it from "
+                       "ITU-R P.837 maps or local records [default: 42]."),
+    "polarisation": ("--polarisation", str,
+                     "horizontal, vertical, circular or a tilt angle in degrees [default: vertical]."),
+    "target_availability_pct": ("--target-availability-pct", float,
+                                "Availability aimed at, % of an average year, 99 to 99.999 [default: 99.99]."),
+    "dn1_n_per_km": ("--dn1", float,
+                     "Refractivity gradient dN1 in the lowest 65 m, not exceeded 1 % of an average year, "
+                     "N-units/km (ITU-R P.453 maps) [default: -200]."),
+    "terrain_roughness_m": ("--terrain-roughness-m", float,
+                            "sa: standard deviation of terrain heights over 110 km x 110 km around the "
+                            "path, m (ITU-R P.530) [default: 40]."),
+    "pressure_hpa": ("--pressure-hpa", float, "Dry-air pressure for gaseous attenuation, hPa [default: 1013.25]."),
+    "temperature_c": ("--temperature-c", float, "Air temperature for gaseous attenuation, degC [default: 15]."),
+    "water_vapour_g_m3": ("--water-vapour-g-m3", float,
+                          "Water-vapour density for gaseous attenuation, g/m^3 [default: 7.5]."),
+}
+
+climate_options = _compose(
+    *[click.option(flag, name, type=kind, default=None, help=text)
+      for name, (flag, kind, text) in CLIMATE_FLAGS.items()]
+)
+
+
+def resolve_climate(section: dict[str, Any], opts: dict[str, Any]) -> Any:
+    """ClimateSettings from flags over a link file's [climate] table; flags win."""
+    from ..availability import ClimateSettings
+
+    values = {name: _pick(opts.get(name), section, name) for name in CLIMATE_FLAGS}
+    given = {k: v for k, v in values.items() if v is not None}
+    return ClimateSettings(**given, given=frozenset(given))
+
+
 @dataclass(frozen=True)
 class ResolvedLink:
     """Everything needed to analyse one link, flags merged over a link file."""
@@ -200,6 +239,7 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         raise InputError(f"radio settings must be numbers ({exc})") from None
     an = spec.analysis
     defaults = Settings()
+    climate = resolve_climate(spec.climate, opts)
     try:
         settings = Settings(
             k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
@@ -212,6 +252,7 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
                 ),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            climate=climate,
         ).validate()
     except (TypeError, ValueError) as exc:
         if isinstance(exc, InputError):

@@ -20,6 +20,8 @@ Format (all sections optional except the two sites; paths relative to the file):
 
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
     [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst, ...
+    [climate]      # rain_rate_mm_h, polarisation, target_availability_pct, dn1_n_per_km,
+                   # terrain_roughness_m, pressure_hpa, temperature_c, water_vapour_g_m3
 
 Unknown keys are refused with their name, so a typing error never passes silently.
 """
@@ -48,6 +50,10 @@ SECTION_KEYS: dict[str, set[str]] = {
         "k", "k_worst", "sample_spacing_m", "min_f1_fraction", "min_f1_fraction_worst",
         "diffraction_method",
     },
+    "climate": {
+        "rain_rate_mm_h", "polarisation", "target_availability_pct", "dn1_n_per_km",
+        "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3",
+    },
 }
 TOP_KEYS = {"title", "notes"}
 
@@ -63,6 +69,7 @@ class LinkSpec:
     site_b: dict[str, Any] = field(default_factory=dict)
     radio: dict[str, Any] = field(default_factory=dict)
     analysis: dict[str, Any] = field(default_factory=dict)
+    climate: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -106,6 +113,7 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         site_b=dict(data.get("site_b", {})),
         radio=dict(data.get("radio", {})),
         analysis=dict(data.get("analysis", {})),
+        climate=dict(data.get("climate", {})),
     )
 
 

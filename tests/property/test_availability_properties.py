@@ -53,15 +53,16 @@ def test_higher_rain_rate_never_raises_availability(m, f, d_km, ha, hb, s, facto
 
 
 @settings(max_examples=80, deadline=None)
-@given(margins, freqs, lengths_km, st.floats(1.0, 2.0), heights, heights, climate, latitudes)
+@given(margins, freqs, st.floats(1.0, 40.0), st.floats(1.0, 2.0), heights, heights, climate, latitudes)
 def test_outage_grows_with_path_length(m, f, d_km, factor, ha, hb, s, lat):
+    # Up to 40 km: beyond, the effective rain length r d of ITU-R P.530-17 eq. 32
+    # levels off and dips slightly for low R0.01 (tests/test_rain.py), and with
+    # negligible multipath the total may then fall by ~1e-8 % as a path grows.
+    longer = min(d_km * factor, 40.0)
     short = _availability(m, d_km, f, ha, hb, s, lat)
-    long = _availability(m, min(d_km * factor, 60.0), f, ha, hb, s, lat)
+    long = _availability(m, longer, f, ha, hb, s, lat)
     assert long.total_outage_pct[()] >= short.total_outage_pct[()] - TOL_PCT
-    # Rain alone: the effective length r d of ITU-R P.530-17 eq. 32 saturates and dips
-    # slightly towards 60 km for low R0.01 (see tests/test_rain.py), so check it to 40 km.
-    if d_km * factor <= 40.0:
-        assert long.rain_outage_pct[()] >= short.rain_outage_pct[()] - TOL_PCT
+    assert long.rain_outage_pct[()] >= short.rain_outage_pct[()] - TOL_PCT
 
 
 @settings(max_examples=40, deadline=None)
