@@ -92,7 +92,7 @@ class ClimateSettings:
     """
 
     rain_rate_mm_h: float = DEFAULT_RAIN_RATE_MM_H
-    polarisation: str = "vertical"
+    polarisation: str = "horizontal"
     target_availability_pct: float = DEFAULT_TARGET_AVAILABILITY_PCT
     dn1_n_per_km: float = DEFAULT_DN1_N_PER_KM
     terrain_roughness_m: float = DEFAULT_TERRAIN_ROUGHNESS_M

@@ -18,9 +18,16 @@ from .availability import ClimateSettings, LinkAvailability, availability_for_li
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
-from .losses.diffraction import fresnel_kirchhoff_v, knife_edge_loss_db
 from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
 from .losses.free_space import free_space_loss_db
+from .losses.terrain_diffraction import (
+    DEFAULT_DIFFRACTION_METHOD,
+    diffraction_by_method,
+    diffraction_loss_db,
+    diffraction_validity_warnings,
+    resolve_method,
+)
+from .losses.smooth_earth import resolve_ground, resolve_polarisation
 from .profile import Profiles, build_profiles
 from .terrain import ElevationModel
 
@@ -83,16 +90,32 @@ class Criterion:
 
 @dataclass(frozen=True)
 class Settings:
-    """Analysis settings: k-factors, sample spacing, criterion, diffraction method, climate."""
+    """Analysis settings: k-factors, sample spacing, criterion, diffraction method, climate.
+
+    ``diffraction_method`` is one of ``DIFFRACTION_METHODS`` (default
+    delta-bullington, ITU-R P.526-15 section 4.5.2); ``polarisation``
+    (horizontal, vertical) and ``ground`` (land, sea) feed its smooth-earth
+    term.  ``compare_methods`` also computes every other method for the
+    ``diffraction_by_method`` record (switch off in bulk screening).
+    ``climate`` holds the atmosphere for gases (ITU-R P.676) and the rain and
+    multipath inputs of the availability estimate (ITU-R P.530); its
+    polarisation should match ``polarisation`` (the CLI sets both from one option).
+    """
 
     k: float = 4.0 / 3.0
     k_worst: float = 2.0 / 3.0
     spacing_m: float | None = None
     criterion: Criterion = field(default_factory=Criterion)
-    diffraction_method: str = "knife-edge"
+    diffraction_method: str = DEFAULT_DIFFRACTION_METHOD
+    polarisation: str = "horizontal"
+    ground: str = "land"
+    compare_methods: bool = True
     climate: ClimateSettings = field(default_factory=ClimateSettings)
 
     def validate(self) -> "Settings":
+        resolve_method(self.diffraction_method)
+        resolve_polarisation(self.polarisation)
+        resolve_ground(self.ground)
         for name in ("k", "k_worst"):
             value = getattr(self, name)
             if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
@@ -116,6 +139,8 @@ class AtK:
     gases_db: np.ndarray
     total_db: np.ndarray
     budget: Budget
+    diffraction_by_method_db: dict[str, np.ndarray] = field(default_factory=dict)
+    warnings: tuple[tuple[str, ...], ...] = ()
 
 
 def dominant_edge_loss_db(
@@ -125,18 +150,43 @@ def dominant_edge_loss_db(
     freq_ghz: Any,
     clear: Clearance,
 ) -> np.ndarray:
-    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1).
+    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1), at ``clear.k``.
 
     The edge height is the surface plus earth bulge above the line between
-    the antennas; J(v) is 0 dB for v <= -0.78.
+    the antennas; J(v) is 0 dB for v <= -0.78.  Same as the ``knife-edge``
+    method of :mod:`profiler.losses.terrain_diffraction`.
     """
-    d1 = profiles.distance_m
-    d2 = profiles.length_m[:, None] - d1
-    f = np.asarray(freq_ghz, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        v = fresnel_kirchhoff_v(-clear.clearance_m, d1, d2, f[:, None] if f.ndim else f)
-    v = np.where(profiles.interior & np.isfinite(v), v, -np.inf)
-    return knife_edge_loss_db(np.max(v, axis=1))
+    return diffraction_loss_db(
+        "knife-edge", profiles.distance_m, _finite_surface(profiles), profiles.interior,
+        antenna_a_amsl_m, antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), clear.k,
+    )
+
+
+def terrain_diffraction_db(
+    profiles: Profiles,
+    antenna_a_amsl_m: np.ndarray,
+    antenna_b_amsl_m: np.ndarray,
+    freq_ghz: Any,
+    k: float,
+    settings: Settings,
+) -> tuple[np.ndarray, dict[str, np.ndarray], tuple[tuple[str, ...], ...]]:
+    """Diffraction loss by the chosen method, by every method, and validity warnings per path.
+
+    Methods and sources: :mod:`profiler.losses.terrain_diffraction`
+    (ITU-R P.526-15 sections 4.1 and 4.5, Deygout, Epstein-Peterson).
+    """
+    method = resolve_method(settings.diffraction_method)
+    args = (
+        profiles.distance_m, _finite_surface(profiles), profiles.interior, antenna_a_amsl_m,
+        antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), k,
+    )
+    opts = {"polarisation": settings.polarisation, "ground": settings.ground}
+    if settings.compare_methods:
+        by_method = diffraction_by_method(*args, **opts)
+    else:
+        by_method = {method: diffraction_loss_db(method, *args, **opts)}
+    warnings = tuple(diffraction_validity_warnings(method, *args))
+    return by_method[method], by_method, warnings
 
 
 def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings = ClimateSettings()) -> np.ndarray:
@@ -176,10 +226,12 @@ def evaluate_profiles(
         _per_path(radio.freq_ghz),
         k,
     )
-    diffraction = dominant_edge_loss_db(profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, clear)
+    diffraction, by_method, warnings = terrain_diffraction_db(
+        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings
+    )
     gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
-    return AtK(k, clear, diffraction, gases, total, link_budget(radio, total))
+    return AtK(k, clear, diffraction, gases, total, link_budget(radio, total), by_method, warnings)
 
 
 def _per_path(value: Any) -> Any:
@@ -237,6 +289,7 @@ class LinkBatch:
             **_at_k_record(self.design, i, self.free_space_db[i]),
             "worst_case": _at_k_record(self.worst, i, self.free_space_db[i]),
             "meets_criterion": bool(self.meets_criterion[i]),
+            "warnings": self.warnings(i),
             "criterion": self.settings.criterion.describe(self.settings.k, self.settings.k_worst),
             **({"availability": self.availability.record(i)} if self.availability is not None else {}),
             "inputs": {
@@ -247,7 +300,11 @@ class LinkBatch:
                 "samples": int(self.profiles.n_samples[i]),
                 "min_f1_fraction": self.settings.criterion.min_f1_fraction,
                 "min_f1_fraction_worst": self.settings.criterion.min_f1_fraction_worst,
-                "diffraction_method": self.settings.diffraction_method,
+                "diffraction_method": resolve_method(self.settings.diffraction_method),
+                "polarisation": resolve_polarisation(self.settings.polarisation),
+                "ground": str(self.settings.ground).strip().lower(),
+                "ground_relative_permittivity": resolve_ground(self.settings.ground).relative_permittivity,
+                "ground_conductivity_s_per_m": resolve_ground(self.settings.ground).conductivity_s_per_m,
                 "earth_radius_km": 6371.0,
                 "noise_temperature_k": 290.0,
                 "vertical_datum": self.provenance.get("vertical_datum", ""),
@@ -255,6 +312,14 @@ class LinkBatch:
             },
             "provenance": self.provenance,
         }
+
+    def warnings(self, i: int) -> list[str]:
+        """Validity warnings of link i: design k first, then any new at the worst-case k."""
+        out = list(self.design.warnings[i]) if self.design.warnings else []
+        for w in self.worst.warnings[i] if self.worst.warnings else ():
+            if w not in out:
+                out.append(f"worst case (k={self.worst.k:.4g}): {w}")
+        return out
 
     def records(self) -> list[dict]:
         return [self.record(i) for i in range(len(self))]
@@ -289,6 +354,7 @@ def _at_k_record(r: AtK, i: int, free_space_db: float) -> dict:
         "loss_db": {
             "free_space": float(free_space_db),
             "diffraction": float(r.diffraction_db[i]),
+            "diffraction_by_method": {m: float(v[i]) for m, v in r.diffraction_by_method_db.items()},
             "gases": float(r.gases_db[i]),
             "total": float(r.total_db[i]),
         },

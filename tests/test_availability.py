@@ -21,11 +21,15 @@ from profiler.losses.rain import rain_attenuation_001_db, rain_attenuation_excee
 
 def test_settings_defaults_and_validation():
     s = ClimateSettings()
-    assert (s.rain_rate_mm_h, s.polarisation, s.target_availability_pct) == (42.0, "vertical", 99.99)
+    assert (s.rain_rate_mm_h, s.polarisation, s.target_availability_pct) == (42.0, "horizontal", 99.99)
     assert (s.pressure_hpa, s.temperature_c, s.water_vapour_g_m3) == (1013.25, 15.0, 7.5)
     assert set(s.defaults_used()) == set(s.as_dict())
-    t = ClimateSettings(rain_rate_mm_h=60, polarisation="horizontal")
-    assert t.tilt_deg == 0.0 and "rain_rate_mm_h" not in t.defaults_used()
+    t = ClimateSettings(rain_rate_mm_h=60, polarisation="Vertical")
+    assert t.tilt_deg == 90.0 and t.polarisation == "vertical" and "rain_rate_mm_h" not in t.defaults_used()
+    assert ClimateSettings(polarisation=30).polarisation == "30"
+    g = ClimateSettings(rain_rate_mm_h=42.0, given=frozenset({"rain_rate_mm_h"}))
+    assert "rain_rate_mm_h" not in g.defaults_used() and "dn1_n_per_km" in g.defaults_used()
+    assert "given" not in g.as_dict()
     assert isinstance(t.rain_rate_mm_h, float)
 
 
@@ -67,10 +71,10 @@ def test_components_agree_with_the_modules():
     margin = np.array([20.0, 30.0, 40.0, 35.0])
     r = evaluate_availability(margin, **PATHS, settings=s)
     elev = np.degrees(np.arctan2(np.abs(PATHS["altitude_b_m"] - PATHS["altitude_a_m"]), PATHS["distance_m"]))
-    a001 = rain_attenuation_001_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, elev, 90.0)
+    a001 = rain_attenuation_001_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, elev, 0.0)
     np.testing.assert_allclose(r.rain_attenuation_001_db, a001)
     # rain: the attenuation exceeded for the outage percentage equals the margin
-    a = rain_attenuation_exceeded_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, r.rain_outage_pct, elev, 90.0)
+    a = rain_attenuation_exceeded_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, r.rain_outage_pct, elev, 0.0)
     np.testing.assert_allclose(a, margin, rtol=1e-9)
     # multipath: no latitude, so the worst month stands for the year
     p0 = multipath_occurrence_factor_pct(

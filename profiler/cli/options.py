@@ -85,6 +85,24 @@ def parse_number(value: Any, what: str) -> float:
         raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
 
 
+#: Diffraction methods offered on the command line; kept equal to
+#: profiler.losses.terrain_diffraction.DIFFRACTION_METHODS (a test checks) so
+#: that ``--help`` need not import numpy.
+DIFFRACTION_METHOD_NAMES = ("delta-bullington", "bullington", "deygout", "epstein-peterson", "knife-edge")
+
+
+def _diffraction_callback(ctx: click.Context, param: click.Parameter, value: str | None):
+    if value is None:
+        return None
+    from ..errors import InputError
+    from ..losses.terrain_diffraction import resolve_method
+
+    try:
+        return resolve_method(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
 def _compose(*decorators: Callable) -> Callable:
     def apply(func: Callable) -> Callable:
         for d in reversed(decorators):
@@ -141,6 +159,13 @@ analysis_options = _compose(
                  help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
     click.option("--min-f1-fraction-worst", type=float, default=None,
                  help="Clearance needed at the worst-case k, fraction of F1 [default: 0.0, LOS unobstructed]."),
+    click.option("--diffraction", "diffraction", callback=_diffraction_callback, default=None, metavar="METHOD",
+                 help="Diffraction method: " + ", ".join(DIFFRACTION_METHOD_NAMES)
+                 + " [default: delta-bullington, ITU-R P.526-15 section 4.5.2]."),
+    click.option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
+                 default=None, help="Antenna polarisation, for rain attenuation (ITU-R P.838-3) and the smooth-earth part of delta-bullington [default: horizontal]."),
+    click.option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
+                 help="Ground electrical constants for the smooth-earth part of delta-bullington [default: land]."),
 )
 
 
@@ -149,8 +174,6 @@ CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
     "rain_rate_mm_h": ("--rain-rate-mm-h", float,
                        "Rain rate exceeded 0.01 % of an average year (R0.01, 1-minute), mm/h; take it from "
                        "ITU-R P.837 maps or local records [default: 42]."),
-    "polarisation": ("--polarisation", str,
-                     "horizontal, vertical, circular or a tilt angle in degrees [default: vertical]."),
     "target_availability_pct": ("--target-availability-pct", float,
                                 "Availability aimed at, % of an average year, 99 to 99.999 [default: 99.99]."),
     "dn1_n_per_km": ("--dn1", float,
@@ -171,13 +194,23 @@ climate_options = _compose(
 )
 
 
-def resolve_climate(section: dict[str, Any], opts: dict[str, Any]) -> Any:
-    """ClimateSettings from flags over a link file's [climate] table; flags win."""
+def resolve_climate(
+    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False
+) -> Any:
+    """ClimateSettings from flags over a link file's [climate] table; flags win.
+
+    The antenna polarisation is the one of ``--polarisation`` / ``[analysis]
+    polarisation``, shared with the diffraction methods.
+    """
     from ..availability import ClimateSettings
+    from ..losses.smooth_earth import resolve_polarisation
 
     values = {name: _pick(opts.get(name), section, name) for name in CLIMATE_FLAGS}
     given = {k: v for k, v in values.items() if v is not None}
-    return ClimateSettings(**given, given=frozenset(given))
+    names = set(given) | ({"polarisation"} if polarisation_given else set())
+    if polarisation is not None:
+        given["polarisation"] = resolve_polarisation(polarisation)
+    return ClimateSettings(**given, given=frozenset(names))
 
 
 @dataclass(frozen=True)
@@ -239,7 +272,9 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         raise InputError(f"radio settings must be numbers ({exc})") from None
     an = spec.analysis
     defaults = Settings()
-    climate = resolve_climate(spec.climate, opts)
+    polarisation_given = opts.get("polarisation") is not None or "polarisation" in an
+    polarisation = str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation))
+    climate = resolve_climate(spec.climate, opts, polarisation, polarisation_given)
     try:
         settings = Settings(
             k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
@@ -252,6 +287,8 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
                 ),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            polarisation=polarisation,
+            ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
             climate=climate,
         ).validate()
     except (TypeError, ValueError) as exc:

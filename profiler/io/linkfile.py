@@ -19,9 +19,10 @@ Format (all sections optional except the two sites; paths relative to the file):
     ...
 
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
-    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst, ...
-    [climate]      # rain_rate_mm_h, polarisation, target_availability_pct, dn1_n_per_km,
-                   # terrain_roughness_m, pressure_hpa, temperature_c, water_vapour_g_m3
+    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
+                   # diffraction_method, polarisation, ground
+    [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
+                   # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis])
 
 Unknown keys are refused with their name, so a typing error never passes silently.
 """
@@ -48,10 +49,10 @@ SECTION_KEYS: dict[str, set[str]] = {
     },
     "analysis": {
         "k", "k_worst", "sample_spacing_m", "min_f1_fraction", "min_f1_fraction_worst",
-        "diffraction_method",
+        "diffraction_method", "polarisation", "ground",
     },
     "climate": {
-        "rain_rate_mm_h", "polarisation", "target_availability_pct", "dn1_n_per_km",
+        "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
         "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3",
     },
 }

@@ -12,12 +12,18 @@ def _verdict(ok: bool) -> str:
 def _at_k_lines(r: dict) -> list[str]:
     c, loss, b = r["clearance"], r["loss_db"], r["budget"]
     los = "yes" if c["line_of_sight"] else "NO (line of sight obstructed)"
+    by_method = loss.get("diffraction_by_method") or {}
+    compare = (
+        ["  diffraction by     " + ", ".join(f"{m} {v:.1f}" for m, v in by_method.items()) + " dB"]
+        if len(by_method) > 1 else []
+    )
     return [
         f"  worst point        {c['worst_distance_km']:.3f} km from site a: clearance "
         f"{c['worst_clearance_m']:+.1f} m = {c['worst_f1_fraction']:+.2f} F1",
         f"  line of sight      {los}",
         f"  losses (dB)        free space {loss['free_space']:.1f} + diffraction "
         f"{loss['diffraction']:.1f} + gases {loss['gases']:.1f} = total {loss['total']:.1f}",
+        *compare,
         f"  received level     {b['rx_level_dbm']:.1f} dBm   noise floor {b['noise_floor_dbm']:.1f} dBm",
         f"  SNR                {b['snr_db']:.1f} dB   fade margin {b['fade_margin_db']:+.1f} dB",
     ]
