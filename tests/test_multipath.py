@@ -9,6 +9,7 @@ import pytest
 
 from profiler.errors import InputError, ModelValidityError
 from profiler.losses.multipath import (
+    SHALLOW_PEAK_MIN_P0_PCT,
     check_multipath_validity,
     deep_fade_exceedance_pct,
     fade_exceedance_envelope_pct,
@@ -86,6 +87,15 @@ def test_envelope_equals_curve_where_it_falls():
         assert peak_a == -np.inf
 
 
+def test_curve_falls_everywhere_below_the_peak_search_threshold():
+    # Justifies skipping the peak search below SHALLOW_PEAK_MIN_P0_PCT (and shows a margin:
+    # the ITU-R P.530-17 section 2.3.2 curve keeps falling up to 2000 %).
+    p0 = np.geomspace(1e-6, 2000.0, 120)[:, None]
+    depths = np.linspace(0.0, 60.0, 3001)[None, :]
+    assert SHALLOW_PEAK_MIN_P0_PCT <= 2000.0
+    assert np.all(np.diff(fade_exceedance_pct(depths, p0), axis=1) <= 1e-12)
+
+
 def test_envelope_is_monotone_for_very_large_occurrence_factor():
     depths = np.linspace(0, 60, 6001)
     raw = fade_exceedance_pct(depths, 1e4)
@@ -94,6 +104,9 @@ def test_envelope_is_monotone_for_very_large_occurrence_factor():
     assert np.all(np.diff(env) <= 1e-12)
     assert np.all(env >= raw)
     peak_a, peak_pw = shallow_fade_peak(1e4)
+    both_a, both_pw = shallow_fade_peak([[5.0, 1e4], [3000.0, 5e4]])
+    assert both_a[0, 0] == -np.inf and both_a[0, 1] == pytest.approx(peak_a)
+    assert np.all(np.isfinite(both_a[1])) and both_pw[1, 1] > both_pw[1, 0]
     assert raw.max(initial=0, where=depths > 1.0) == pytest.approx(peak_pw, rel=1e-6)
     assert 5.0 < peak_a < 20.0
 

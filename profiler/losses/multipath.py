@@ -24,6 +24,7 @@ from ..errors import InputError, ModelValidityError
 
 __all__ = [
     "P530_MULTIPATH_MAX_FREQ_GHZ",
+    "SHALLOW_PEAK_MIN_P0_PCT",
     "multipath_min_freq_ghz",
     "multipath_validity_problem",
     "check_multipath_validity",
@@ -39,6 +40,9 @@ __all__ = [
 
 #: Upper frequency of the P.530-17 section 2.3 multipath method, GHz (from memory).
 P530_MULTIPATH_MAX_FREQ_GHZ = 45.0
+#: Occurrence factor p0 (%) below which the section 2.3.2 curve falls with depth
+#: everywhere (it first rises again near 2500 %); smaller p0 skip the peak search.
+SHALLOW_PEAK_MIN_P0_PCT = 1000.0
 
 
 def multipath_min_freq_ghz(distance_m: ArrayLike) -> np.ndarray:
@@ -166,18 +170,23 @@ def shallow_fade_peak(p0_pct: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     flat = p0.ravel()
     peak_a = np.full(flat.shape, -np.inf)
     peak_pw = np.zeros(flat.shape)
-    if flat.size == 0:
+    # Below SHALLOW_PEAK_MIN_P0_PCT the curve falls everywhere (checked in the tests).
+    big = np.flatnonzero(flat >= SHALLOW_PEAK_MIN_P0_PCT)
+    if big.size == 0:
         return peak_a.reshape(p0.shape), peak_pw.reshape(p0.shape)
-    a_t = 25.0 + 1.2 * np.log10(flat)
+    a_t = 25.0 + 1.2 * np.log10(flat[big])
     grid = np.linspace(0.0, 1.0, 257)[None, :] * a_t[:, None]
-    on_grid = fade_exceedance_pct(grid, flat[:, None])
+    on_grid = fade_exceedance_pct(grid, flat[big][:, None])
     rises = np.diff(on_grid, axis=1) > 0.0
-    rows = np.flatnonzero(rises.any(axis=1))
+    local = np.flatnonzero(rises.any(axis=1))
+    rows = big[local]
     if rows.size:
+        rises, grid = rises[local], grid[local]
         # Last grid point before the curve turns down again brackets the peak.
-        idx = np.where(rises[rows], np.arange(rises.shape[1])[None, :], -1).max(axis=1) + 1
-        lo = grid[rows, np.maximum(idx - 1, 0)]
-        hi = grid[rows, np.minimum(idx + 1, grid.shape[1] - 1)]
+        idx = np.where(rises, np.arange(rises.shape[1])[None, :], -1).max(axis=1) + 1
+        sel = np.arange(rows.size)
+        lo = grid[sel, np.maximum(idx - 1, 0)]
+        hi = grid[sel, np.minimum(idx + 1, grid.shape[1] - 1)]
         pb = flat[rows]
         ratio = (np.sqrt(5.0) - 1.0) / 2.0
         for _ in range(80):
