@@ -14,9 +14,11 @@ from typing import Any, Sequence
 import numpy as np
 
 from . import __version__
+from .availability import ClimateSettings, LinkAvailability, availability_for_links
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
+from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
 from .losses.free_space import free_space_loss_db
 from .losses.terrain_diffraction import (
     DEFAULT_DIFFRACTION_METHOD,
@@ -94,13 +96,16 @@ class Criterion:
 
 @dataclass(frozen=True)
 class Settings:
-    """Analysis settings: k-factors, sample spacing, criterion, diffraction method.
+    """Analysis settings: k-factors, sample spacing, criterion, diffraction method, climate.
 
     ``diffraction_method`` is one of ``DIFFRACTION_METHODS`` (default
     delta-bullington, ITU-R P.526-15 section 4.5.2); ``polarisation``
     (horizontal, vertical) and ``ground`` (land, sea) feed its smooth-earth
     term.  ``compare_methods`` also computes every other method for the
     ``diffraction_by_method`` record (switch off in bulk screening).
+    ``climate`` holds the atmosphere for gases (ITU-R P.676) and the rain and
+    multipath inputs of the availability estimate (ITU-R P.530); its
+    polarisation should match ``polarisation`` (the CLI sets both from one option).
     """
 
     k: float = 4.0 / 3.0
@@ -111,6 +116,7 @@ class Settings:
     polarisation: str = "horizontal"
     ground: str = "land"
     compare_methods: bool = True
+    climate: ClimateSettings = field(default_factory=ClimateSettings)
 
     def validate(self) -> "Settings":
         resolve_method(self.diffraction_method)
@@ -189,9 +195,22 @@ def terrain_diffraction_db(
     return by_method[method], by_method, warnings
 
 
-def gaseous_loss_db(profiles: Profiles, freq_ghz: Any) -> np.ndarray:
-    """Gaseous absorption along the path, dB (not yet modelled: 0)."""
-    return np.zeros(profiles.length_m.shape)
+def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings = ClimateSettings()) -> np.ndarray:
+    """Gaseous absorption along the path, dB (ITU-R P.676-12 Annex 1, terrestrial path A = gamma d).
+
+    Computed at the climate's pressure, temperature and water-vapour density;
+    0 outside 1-1000 GHz, where Annex 1 does not apply (below 1 GHz gases
+    take less than 0.006 dB/km) and for paths without a length.
+    """
+    length = np.asarray(profiles.length_m, dtype=float)
+    f = np.broadcast_to(np.asarray(freq_ghz, dtype=float), length.shape)
+    use = (f >= P676_MIN_FREQ_GHZ) & (f <= P676_MAX_FREQ_GHZ) & np.isfinite(length) & (length >= 0)
+    out = np.zeros(length.shape)
+    if np.any(use):
+        out[use] = gaseous_path_attenuation_db(
+            length[use], f[use], climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3
+        )
+    return out
 
 
 def evaluate_profiles(
@@ -216,7 +235,7 @@ def evaluate_profiles(
     diffraction, by_method, warnings = terrain_diffraction_db(
         profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings
     )
-    gases = gaseous_loss_db(profiles, radio.freq_ghz)
+    gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
     return AtK(k, clear, diffraction, gases, total, link_budget(radio, total), by_method, warnings)
 
@@ -256,6 +275,7 @@ class LinkBatch:
     placements_a: tuple | None = None
     placements_b: tuple | None = None
     clutter_warnings: tuple[tuple[str, ...], ...] = ()
+    availability: LinkAvailability | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -283,6 +303,7 @@ class LinkBatch:
             "meets_criterion": bool(self.meets_criterion[i]),
             "warnings": self.warnings(i),
             "criterion": self.settings.criterion.describe(self.settings.k, self.settings.k_worst),
+            **({"availability": self.availability.record(i)} if self.availability is not None else {}),
             "inputs": {
                 "radio": {k: _scalar(v, i) for k, v in asdict(self.radio).items()},
                 "k": self.settings.k,
@@ -299,6 +320,7 @@ class LinkBatch:
                 "earth_radius_km": 6371.0,
                 "noise_temperature_k": 290.0,
                 "vertical_datum": self.provenance.get("vertical_datum", ""),
+                "climate": self.settings.climate.as_dict(),
             },
             "provenance": self.provenance,
         }
@@ -462,6 +484,16 @@ def analyse_links(
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
     )
+    availability = availability_for_links(
+        design.budget.fade_margin_db,
+        profiles.length_m,
+        radio.freq_ghz,
+        antenna_a,
+        antenna_b,
+        (lat_a + lat_b) / 2.0,
+        profiles.valid,
+        settings.climate,
+    )
     datums = sorted({s.vertical_datum for s in model.sources})
     provenance = {
         "elevation_sources": model.describe(),
@@ -490,6 +522,7 @@ def analyse_links(
         placements_a=placements_a,
         placements_b=placements_b,
         clutter_warnings=clutter_warnings,
+        availability=availability,
     )
 
 

@@ -8,6 +8,7 @@ import click
 
 from .options import (
     analysis_options,
+    climate_options,
     friendly_errors,
     mount_options,
     radio_options,
@@ -46,6 +47,7 @@ def run_link(resolved) -> dict:
 @surroundings_options
 @radio_options
 @analysis_options
+@climate_options
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
 @friendly_errors
 def link(link_file: str | None, as_json: bool, **opts) -> None:

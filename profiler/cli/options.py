@@ -19,6 +19,9 @@ __all__ = [
     "site_options",
     "radio_options",
     "analysis_options",
+    "climate_options",
+    "CLIMATE_FLAGS",
+    "resolve_climate",
     "ResolvedLink",
     "resolve_link",
     "RADIO_FLAGS",
@@ -163,7 +166,7 @@ analysis_options = _compose(
                  help="Diffraction method: " + ", ".join(DIFFRACTION_METHOD_NAMES)
                  + " [default: delta-bullington, ITU-R P.526-15 section 4.5.2]."),
     click.option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
-                 default=None, help="Polarisation, for the smooth-earth part of delta-bullington [default: horizontal]."),
+                 default=None, help="Antenna polarisation, for rain attenuation (ITU-R P.838-3) and the smooth-earth part of delta-bullington [default: horizontal]."),
     click.option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
                  help="Ground electrical constants for the smooth-earth part of delta-bullington [default: land]."),
 )
@@ -207,6 +210,50 @@ MOUNT_KEYS = {
     "antenna_amsl_m": ("amsl", "elevation"),
     "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
 }
+
+
+#: Climate and availability flags: ClimateSettings field -> (flag, value type, help).
+CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
+    "rain_rate_mm_h": ("--rain-rate-mm-h", float,
+                       "Rain rate exceeded 0.01 % of an average year (R0.01, 1-minute), mm/h; take it from "
+                       "ITU-R P.837 maps or local records [default: 42]."),
+    "target_availability_pct": ("--target-availability-pct", float,
+                                "Availability aimed at, % of an average year, 99 to 99.999 [default: 99.99]."),
+    "dn1_n_per_km": ("--dn1", float,
+                     "Refractivity gradient dN1 in the lowest 65 m, not exceeded 1 % of an average year, "
+                     "N-units/km (ITU-R P.453 maps) [default: -200]."),
+    "terrain_roughness_m": ("--terrain-roughness-m", float,
+                            "sa: standard deviation of terrain heights over 110 km x 110 km around the "
+                            "path, m (ITU-R P.530) [default: 40]."),
+    "pressure_hpa": ("--pressure-hpa", float, "Dry-air pressure for gaseous attenuation, hPa [default: 1013.25]."),
+    "temperature_c": ("--temperature-c", float, "Air temperature for gaseous attenuation, degC [default: 15]."),
+    "water_vapour_g_m3": ("--water-vapour-g-m3", float,
+                          "Water-vapour density for gaseous attenuation, g/m^3 [default: 7.5]."),
+}
+
+climate_options = _compose(
+    *[click.option(flag, name, type=kind, default=None, help=text)
+      for name, (flag, kind, text) in CLIMATE_FLAGS.items()]
+)
+
+
+def resolve_climate(
+    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False
+) -> Any:
+    """ClimateSettings from flags over a link file's [climate] table; flags win.
+
+    The antenna polarisation is the one of ``--polarisation`` / ``[analysis]
+    polarisation``, shared with the diffraction methods.
+    """
+    from ..availability import ClimateSettings
+    from ..losses.smooth_earth import resolve_polarisation
+
+    values = {name: _pick(opts.get(name), section, name) for name in CLIMATE_FLAGS}
+    given = {k: v for k, v in values.items() if v is not None}
+    names = set(given) | ({"polarisation"} if polarisation_given else set())
+    if polarisation is not None:
+        given["polarisation"] = resolve_polarisation(polarisation)
+    return ClimateSettings(**given, given=frozenset(names))
 
 
 @dataclass(frozen=True)
@@ -275,6 +322,9 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         raise InputError(f"radio settings must be numbers ({exc})") from None
     an = spec.analysis
     defaults = Settings()
+    polarisation_given = opts.get("polarisation") is not None or "polarisation" in an
+    polarisation = str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation))
+    climate = resolve_climate(spec.climate, opts, polarisation, polarisation_given)
     try:
         settings = Settings(
             k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
@@ -287,8 +337,9 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
                 ),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
-            polarisation=str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation)),
+            polarisation=polarisation,
             ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
+            climate=climate,
         ).validate()
     except (TypeError, ValueError) as exc:
         if isinstance(exc, InputError):

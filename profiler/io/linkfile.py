@@ -21,6 +21,8 @@ Format (all sections optional except the two sites; paths relative to the file):
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
     [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
                    # diffraction_method, polarisation, ground
+    [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
+                   # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis])
 
 Rooftop and urban links add (all optional)::
 
@@ -68,6 +70,10 @@ SECTION_KEYS: dict[str, set[str]] = {
         "diffraction_method", "polarisation", "ground",
     },
     "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
+    "climate": {
+        "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
+        "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3",
+    },
 }
 #: Keys of one entry of [obstructions] layers.
 LAYER_KEYS = {"file", "layer", "kind", "height_field", "top_field"}
@@ -86,6 +92,7 @@ class LinkSpec:
     radio: dict[str, Any] = field(default_factory=dict)
     analysis: dict[str, Any] = field(default_factory=dict)
     obstructions: dict[str, Any] = field(default_factory=dict)
+    climate: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -138,6 +145,7 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         radio=dict(data.get("radio", {})),
         analysis=dict(data.get("analysis", {})),
         obstructions=obstructions,
+        climate=dict(data.get("climate", {})),
     )
 
 

@@ -61,6 +61,37 @@ def _clutter_lines(r: dict) -> list[str]:
         out.append(f"  ... and {len(c['crossed']) - 12} more (see --json)")
     return out
 
+def _minutes(value: float) -> str:
+    return f"{value:.1f} min/yr" if value >= 0.1 else f"{value * 60:.1f} s/yr"
+
+
+def _pct(value: float) -> str:
+    return f"{value:.3g} %"
+
+
+def _availability_lines(av: dict | None) -> list[str]:
+    """Availability block of the summary (ITU-R P.530 rain and multipath outage)."""
+    if not av:
+        return []
+    if not av.get("estimated"):
+        return [f"availability       not estimated: {av.get('reason')}"]
+    o = av["outage"]
+    need = av["required_fade_margin_db"]
+    need_text = f"{need:.1f} dB" if need is not None else "not reachable"
+    mp = "not estimated" if not av["multipath"]["estimated"] else (
+        f"{_pct(o['multipath_pct'])} ({_minutes(o['multipath_min_per_year'])})"
+    )
+    lines = [
+        f"availability       {av['availability_pct']:.5f} % of an average year with fade margin "
+        f"{av['fade_margin_db']:+.1f} dB: {_verdict(av['meets_target'])} target {av['target_availability_pct']:g} %",
+        f"  outage           rain {_pct(o['rain_pct'])} ({_minutes(o['rain_min_per_year'])}), multipath {mp}, "
+        f"total {_pct(o['total_pct'])} ({_minutes(o['total_min_per_year'])})",
+        f"  margin needed    {need_text} for {av['target_availability_pct']:g} %",
+    ]
+    for n, a in enumerate(av.get("assumptions", [])):
+        lines.append(f"  {'assumes' if n == 0 else '':<17}{a}")
+    return lines
+
 
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
@@ -92,6 +123,7 @@ def format_link_summary(r: dict) -> str:
         f"worst case k = {r['worst_case']['k']:.4g}",
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
+        *_availability_lines(r.get("availability")),
     ]
     lines += _clutter_lines(r)
     for w in r.get("warnings", []):
