@@ -310,3 +310,26 @@ def test_wall_samples_give_obstructions_vertical_sides():
     assert zero.tolist() == [True, False, True, False, True, False, False, True, False, True, False, True]
     idx, zero = wall_samples(np.zeros(3, dtype=bool))
     assert idx.tolist() == [0, 1, 2] and not zero.any()
+
+
+def test_availability_rows_when_the_record_has_them(batch):
+    from profiler.sheets.table import availability_rows
+
+    b, _ = batch
+    rec = b.record(1)
+    assert availability_rows({k: v for k, v in rec.items() if k != "availability"}) == []
+    rec["availability"] = {"availability_pct": 99.98490559904604, "target_availability_pct": 99.99,
+                           "meets_target": False, "required_fade_margin_db": 30.53,
+                           "outage": {"rain_min_per_year": 78.85, "multipath_min_per_year": 0.545,
+                                      "total_min_per_year": 79.39}}
+    rows = {r.label: r for r in parameter_rows(rec)}
+    assert rows["Availability, estimated"].left == "99.9849 % (target 99.99 %)"
+    assert rows["Availability, estimated"].flag == "bad"
+    assert rows["Outage per year"].left == "rain 79 + multipath 0.55 = 79 min"
+    assert rows["Margin needed for 99.99 %"].left == "30.5 dB"
+    rec["availability"].update(availability_pct=99.9999999, outage={"rain_min_per_year": 0.0,
+                                                                    "multipath_min_per_year": 3.2e-5,
+                                                                    "total_min_per_year": 3.2e-5})
+    rows = {r.label: r for r in parameter_rows(rec)}
+    assert rows["Availability, estimated"].left == "above 99.9999 % (target 99.99 %)"
+    assert rows["Outage per year"].left == "rain 0 + multipath < 0.01 = < 0.01 min"

@@ -149,7 +149,8 @@ def _table(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     renderer = fig.canvas.get_renderer()
     ax_w = ax.get_window_extent(renderer).width
     col_a, col_b = 0.40, 0.70
-    fs = lay.fs(6.5)
+    row_pt = h / n / 25.4 * 72.0 * lay.s  # row height in points on the real page
+    fs = min(lay.fs(6.5), 0.8 * row_pt)
     from matplotlib.patches import Rectangle
 
     shade = False

@@ -20,6 +20,7 @@ __all__ = [
     "height_text",
     "vertical_datum_text",
     "criterion_text",
+    "availability_rows",
     "parameter_rows",
 ]
 
@@ -173,4 +174,42 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
         Row("Fade margin", f"{bd['fade_margin_db']:+.1f} dB", f"{bw['fade_margin_db']:+.1f} dB",
             flag="good" if bd["fade_margin_db"] >= 0 else "bad"),
     ]
+    rows += availability_rows(record)
+    return rows
+
+
+def _minutes(value: float) -> str:
+    """Minutes with sensible precision: 79, 4.2, 0.055, < 0.01, 0."""
+    if not math.isfinite(value):
+        return "-"
+    if value >= 10:
+        return f"{value:.0f}"
+    if value >= 1:
+        return f"{value:.1f}"
+    if value <= 0:
+        return "0"
+    if value < 0.01:
+        return "< 0.01"
+    return f"{value:.2g}"
+
+
+def availability_rows(record: dict) -> list[Row]:
+    """Rows of the estimated availability when the record carries one (ITU-R P.530 rain and multipath)."""
+    av = record.get("availability")
+    if not isinstance(av, dict) or "availability_pct" not in av:
+        return []
+    pct, target = av["availability_pct"], av.get("target_availability_pct")
+    text = "above 99.9999 %" if pct > 99.99995 else f"{pct:.4f} %"
+    if target is not None:
+        text += f" (target {target:g} %)"
+    rows = [Row("Availability, estimated", text,
+                flag=("good" if av.get("meets_target") else "bad") if "meets_target" in av else "")]
+    out = av.get("outage") or {}
+    if "total_min_per_year" in out:
+        rows.append(Row("Outage per year",
+                        f"rain {_minutes(out.get('rain_min_per_year', math.nan))} + multipath "
+                        f"{_minutes(out.get('multipath_min_per_year', math.nan))} = "
+                        f"{_minutes(out['total_min_per_year'])} min"))
+    if av.get("required_fade_margin_db") is not None and target is not None:
+        rows.append(Row(f"Margin needed for {target:g} %", f"{av['required_fade_margin_db']:.1f} dB"))
     return rows
