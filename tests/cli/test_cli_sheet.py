@@ -148,3 +148,19 @@ def test_pairs_with_site_flags_or_bad_columns_are_refused(tmp_path):
     assert result.exit_code == 1
     assert "lies outside the elevation rasters" in result.output
     assert "none of the selected pairs can be profiled" in result.output
+
+
+def test_rooftop_sheet_draws_buildings_trees_and_roof_masts(tmp_path):
+    """The invented town demo: obstruction layers and roof mounts reach the sheet as they reach `link`."""
+    out = tmp_path / "roof.svg"
+    result = _run("sheet", EXAMPLES / "demo-5-rooftop.toml", "-o", out)
+    assert result.exit_code == 0, result.output
+    svg = out.read_text(encoding="utf-8")
+    rec = _record(str(EXAMPLES / "demo-5-rooftop.toml"))
+    c = rec["clearance"]
+    for expected in (
+        ">buildings<", ">trees<",  # legend entries of the two obstruction layers
+        "Corn Exchange Tower (fid 752)", "3.0 m above roof", "town.gpkg",
+        f"OBSTRUCTED at k = 4/3: {c['worst_distance_km']:.3f} km from a",
+    ):
+        assert expected in svg, expected
