@@ -243,16 +243,19 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     rest = c.sources[len(shown):]
     if rest:
         names = ", ".join(s["file"] for s in rest)
-        lines.append(_wrap(f"and {len(rest)} more raster(s): {names}",
-                           w, 5.7, lay))
+        lines.append(f"and {len(rest)} more raster(s): {names}")
     for s in c.other_sources[:_MAX_SOURCES_LISTED]:
         lines.append(f"{s['file']}  ·  {s['what']}")
         lines.append(f"    SHA-256 {s['sha256']}")
     if len(c.other_sources) > _MAX_SOURCES_LISTED:
         names = ", ".join(s["file"] for s in c.other_sources[_MAX_SOURCES_LISTED:])
-        lines.append(_wrap(f"and {len(c.other_sources) - _MAX_SOURCES_LISTED} more file(s): {names}", w, 5.7, lay))
+        lines.append(f"and {len(c.other_sources) - _MAX_SOURCES_LISTED} more file(s): {names}")
     prov = r.get("provenance", {})
     lines.append(f"Computed {prov.get('computed_at', '-')} with {prov.get('software_version', c.title.software)}.")
+    # Monospaced lines: wrap at the column width (DejaVu Sans Mono advances 0.602 em).
+    per_line = max(20, int(lay.width_pt(w) / (0.602 * lay.fs(5.7))) - 1)
+    lines = [part for line in lines for part in
+             (textwrap.wrap(line, per_line, subsequent_indent="      ", drop_whitespace=False) or [line])]
     t2 = fig.text(*lay.xy(x0, y_next - 4.0), "\n".join(lines), fontsize=lay.fs(5.7), color=COLOURS["ink"],
                   va="top", linespacing=1.3, family="DejaVu Sans Mono")
     _fit(t2, fig.bbox.width * w / _A4[0], renderer, lay.fs(4.2))
