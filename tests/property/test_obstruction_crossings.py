@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import shapely
 from geographiclib.geodesic import Geodesic
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 from profiler.budget import Radio
@@ -45,6 +45,7 @@ def _layer(poly_xy, height_m: float) -> ObstructionLayer:
     height_m=st.floats(0.5, 80.0),
     spacing_m=st.sampled_from([5.0, 25.0, 100.0]),
 )
+@example(t=0.6171875, depth_m=0.0625, angle_deg=0.0, height_m=1.0, spacing_m=5.0)  # once found failing
 def test_crossed_stretch(tmp_path_factory, t, depth_m, angle_deg, height_m, spacing_m):
     model = _model(tmp_path_factory.getbasetemp())
     cx = A_XY[0] + t * (B_XY[0] - A_XY[0])
@@ -62,8 +63,12 @@ def test_crossed_stretch(tmp_path_factory, t, depth_m, angle_deg, height_m, spac
     lat_a, lon_a = site_lonlat(*A_XY)
     dist = [Geodesic.WGS84.Inverse(lat_a, lon_a, *site_lonlat(x, y))["s12"] for x, y in xy]
     d0, d1 = min(dist), max(dist)
-    inside = (d >= d0 - 0.02) & (d <= d1 + 0.02)
-    assert inside.sum() >= 1
-    np.testing.assert_allclose(clutter[inside], height_m)
-    np.testing.assert_allclose(clutter[~inside], 0.0)
-    assert abs(d[inside].min() - d0) < 0.02 and abs(d[inside].max() - d1) < 0.02
+    # The two projections (UTM here, a local frame in the engine) agree to about a centimetre,
+    # so samples within 2 cm of a footprint edge may fall either way.
+    tol = 0.02
+    raised = clutter > 0
+    assert raised.sum() >= 1
+    np.testing.assert_allclose(clutter[raised], height_m)
+    assert np.all(raised[(d >= d0 + tol) & (d <= d1 - tol)])
+    assert not np.any(raised[(d < d0 - tol) | (d > d1 + tol)])
+    assert abs(d[raised].min() - d0) < tol and abs(d[raised].max() - d1) < tol
