@@ -41,9 +41,9 @@ def path_lines(
 
 
 def sample_counts(length_m: ArrayLike, spacing_m: ArrayLike) -> np.ndarray:
-    """Number of samples (end points included) so no step exceeds ``spacing_m``."""
+    """Number of samples (end points included, at least 3) so no step exceeds ``spacing_m``."""
     length = np.asarray(length_m, dtype=float)
-    return (np.ceil(length / np.asarray(spacing_m, dtype=float)).astype(np.int64) + 1).clip(min=2)
+    return (np.ceil(length / np.asarray(spacing_m, dtype=float)).astype(np.int64) + 1).clip(min=3)
 
 
 #: Spacing of the exact geodesic points between which samples are interpolated, m.

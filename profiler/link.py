@@ -14,11 +14,20 @@ from typing import Any, Sequence
 import numpy as np
 
 from . import __version__
+from .availability import ClimateSettings, LinkAvailability, availability_for_links
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
-from .losses.diffraction import fresnel_kirchhoff_v, knife_edge_loss_db
+from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
 from .losses.free_space import free_space_loss_db
+from .losses.terrain_diffraction import (
+    DEFAULT_DIFFRACTION_METHOD,
+    diffraction_by_method,
+    diffraction_loss_db,
+    diffraction_validity_warnings,
+    resolve_method,
+)
+from .losses.smooth_earth import resolve_ground, resolve_polarisation
 from .profile import Profiles, build_profiles
 from .terrain import ElevationModel
 
@@ -72,6 +81,12 @@ class Criterion:
     min_f1_fraction: float = 0.6
     min_f1_fraction_worst: float = 0.0
 
+    def met(self, f1_fraction: np.ndarray, f1_fraction_worst: np.ndarray) -> np.ndarray:
+        """True where the worst clearances (fractions of F1 at design and worst k) meet the criterion."""
+        return (np.asarray(f1_fraction) >= self.min_f1_fraction) & (
+            np.asarray(f1_fraction_worst) >= self.min_f1_fraction_worst
+        )
+
     def describe(self, k: float, k_worst: float) -> str:
         return (
             f">= {self.min_f1_fraction:g} F1 at k={k:.4g} and "
@@ -81,15 +96,32 @@ class Criterion:
 
 @dataclass(frozen=True)
 class Settings:
-    """Analysis settings: k-factors, sample spacing, criterion, diffraction method."""
+    """Analysis settings: k-factors, sample spacing, criterion, diffraction method, climate.
+
+    ``diffraction_method`` is one of ``DIFFRACTION_METHODS`` (default
+    delta-bullington, ITU-R P.526-15 section 4.5.2); ``polarisation``
+    (horizontal, vertical) and ``ground`` (land, sea) feed its smooth-earth
+    term.  ``compare_methods`` also computes every other method for the
+    ``diffraction_by_method`` record (switch off in bulk screening).
+    ``climate`` holds the atmosphere for gases (ITU-R P.676) and the rain and
+    multipath inputs of the availability estimate (ITU-R P.530); its
+    polarisation should match ``polarisation`` (the CLI sets both from one option).
+    """
 
     k: float = 4.0 / 3.0
     k_worst: float = 2.0 / 3.0
     spacing_m: float | None = None
     criterion: Criterion = field(default_factory=Criterion)
-    diffraction_method: str = "knife-edge"
+    diffraction_method: str = DEFAULT_DIFFRACTION_METHOD
+    polarisation: str = "horizontal"
+    ground: str = "land"
+    compare_methods: bool = True
+    climate: ClimateSettings = field(default_factory=ClimateSettings)
 
     def validate(self) -> "Settings":
+        resolve_method(self.diffraction_method)
+        resolve_polarisation(self.polarisation)
+        resolve_ground(self.ground)
         for name in ("k", "k_worst"):
             value = getattr(self, name)
             if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
@@ -113,6 +145,8 @@ class AtK:
     gases_db: np.ndarray
     total_db: np.ndarray
     budget: Budget
+    diffraction_by_method_db: dict[str, np.ndarray] = field(default_factory=dict)
+    warnings: tuple[tuple[str, ...], ...] = ()
 
 
 def dominant_edge_loss_db(
@@ -122,23 +156,61 @@ def dominant_edge_loss_db(
     freq_ghz: Any,
     clear: Clearance,
 ) -> np.ndarray:
-    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1).
+    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1), at ``clear.k``.
 
     The edge height is the surface plus earth bulge above the line between
-    the antennas; J(v) is 0 dB for v <= -0.78.
+    the antennas; J(v) is 0 dB for v <= -0.78.  Same as the ``knife-edge``
+    method of :mod:`profiler.losses.terrain_diffraction`.
     """
-    d1 = profiles.distance_m
-    d2 = profiles.length_m[:, None] - d1
-    f = np.asarray(freq_ghz, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        v = fresnel_kirchhoff_v(-clear.clearance_m, d1, d2, f[:, None] if f.ndim else f)
-    v = np.where(profiles.interior & np.isfinite(v), v, -np.inf)
-    return knife_edge_loss_db(np.max(v, axis=1))
+    return diffraction_loss_db(
+        "knife-edge", profiles.distance_m, _finite_surface(profiles), profiles.interior,
+        antenna_a_amsl_m, antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), clear.k,
+    )
 
 
-def gaseous_loss_db(profiles: Profiles, freq_ghz: Any) -> np.ndarray:
-    """Gaseous absorption along the path, dB (not yet modelled: 0)."""
-    return np.zeros(profiles.length_m.shape)
+def terrain_diffraction_db(
+    profiles: Profiles,
+    antenna_a_amsl_m: np.ndarray,
+    antenna_b_amsl_m: np.ndarray,
+    freq_ghz: Any,
+    k: float,
+    settings: Settings,
+) -> tuple[np.ndarray, dict[str, np.ndarray], tuple[tuple[str, ...], ...]]:
+    """Diffraction loss by the chosen method, by every method, and validity warnings per path.
+
+    Methods and sources: :mod:`profiler.losses.terrain_diffraction`
+    (ITU-R P.526-15 sections 4.1 and 4.5, Deygout, Epstein-Peterson).
+    """
+    method = resolve_method(settings.diffraction_method)
+    args = (
+        profiles.distance_m, _finite_surface(profiles), profiles.interior, antenna_a_amsl_m,
+        antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), k,
+    )
+    opts = {"polarisation": settings.polarisation, "ground": settings.ground}
+    if settings.compare_methods:
+        by_method = diffraction_by_method(*args, **opts)
+    else:
+        by_method = {method: diffraction_loss_db(method, *args, **opts)}
+    warnings = tuple(diffraction_validity_warnings(method, *args))
+    return by_method[method], by_method, warnings
+
+
+def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings = ClimateSettings()) -> np.ndarray:
+    """Gaseous absorption along the path, dB (ITU-R P.676-12 Annex 1, terrestrial path A = gamma d).
+
+    Computed at the climate's pressure, temperature and water-vapour density;
+    0 outside 1-1000 GHz, where Annex 1 does not apply (below 1 GHz gases
+    take less than 0.006 dB/km) and for paths without a length.
+    """
+    length = np.asarray(profiles.length_m, dtype=float)
+    f = np.broadcast_to(np.asarray(freq_ghz, dtype=float), length.shape)
+    use = (f >= P676_MIN_FREQ_GHZ) & (f <= P676_MAX_FREQ_GHZ) & np.isfinite(length) & (length >= 0)
+    out = np.zeros(length.shape)
+    if np.any(use):
+        out[use] = gaseous_path_attenuation_db(
+            length[use], f[use], climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3
+        )
+    return out
 
 
 def evaluate_profiles(
@@ -160,10 +232,12 @@ def evaluate_profiles(
         _per_path(radio.freq_ghz),
         k,
     )
-    diffraction = dominant_edge_loss_db(profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, clear)
-    gases = gaseous_loss_db(profiles, radio.freq_ghz)
+    diffraction, by_method, warnings = terrain_diffraction_db(
+        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings
+    )
+    gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
-    return AtK(k, clear, diffraction, gases, total, link_budget(radio, total))
+    return AtK(k, clear, diffraction, gases, total, link_budget(radio, total), by_method, warnings)
 
 
 def _per_path(value: Any) -> Any:
@@ -195,6 +269,13 @@ class LinkBatch:
     worst: AtK
     meets_criterion: np.ndarray
     provenance: dict
+    # Rooftop and urban links (obstruction layers, surface models, mounts); None when unused.
+    surroundings: Any = None
+    crossings: Any = None
+    placements_a: tuple | None = None
+    placements_b: tuple | None = None
+    clutter_warnings: tuple[tuple[str, ...], ...] = ()
+    availability: LinkAvailability | None = None
 
     def __len__(self) -> int:
         return len(self.names)
@@ -208,7 +289,7 @@ class LinkBatch:
         if self.problems[i] is not None:
             return {"name": self.names[i], "error": self.problems[i]}
         lines = self.profiles.lines
-        return {
+        record = {
             "name": self.names[i],
             "distance_km": float(lines.length_m[i]) / 1000.0,
             "azimuth_a_to_b_deg": float(lines.azimuth_a_to_b_deg[i]),
@@ -220,7 +301,9 @@ class LinkBatch:
             **_at_k_record(self.design, i, self.free_space_db[i]),
             "worst_case": _at_k_record(self.worst, i, self.free_space_db[i]),
             "meets_criterion": bool(self.meets_criterion[i]),
+            "warnings": self.warnings(i),
             "criterion": self.settings.criterion.describe(self.settings.k, self.settings.k_worst),
+            **({"availability": self.availability.record(i)} if self.availability is not None else {}),
             "inputs": {
                 "radio": {k: _scalar(v, i) for k, v in asdict(self.radio).items()},
                 "k": self.settings.k,
@@ -229,13 +312,58 @@ class LinkBatch:
                 "samples": int(self.profiles.n_samples[i]),
                 "min_f1_fraction": self.settings.criterion.min_f1_fraction,
                 "min_f1_fraction_worst": self.settings.criterion.min_f1_fraction_worst,
-                "diffraction_method": self.settings.diffraction_method,
+                "diffraction_method": resolve_method(self.settings.diffraction_method),
+                "polarisation": resolve_polarisation(self.settings.polarisation),
+                "ground": str(self.settings.ground).strip().lower(),
+                "ground_relative_permittivity": resolve_ground(self.settings.ground).relative_permittivity,
+                "ground_conductivity_s_per_m": resolve_ground(self.settings.ground).conductivity_s_per_m,
                 "earth_radius_km": 6371.0,
                 "noise_temperature_k": 290.0,
                 "vertical_datum": self.provenance.get("vertical_datum", ""),
+                "climate": self.settings.climate.as_dict(),
             },
             "provenance": self.provenance,
         }
+        self._add_surroundings(record, i)
+        return record
+
+    def _add_surroundings(self, record: dict, i: int) -> None:
+        """Site mounts, clutter and warnings of link i (rooftop and urban links)."""
+        warnings = list(record.get("warnings", []))
+        warnings += list(self.clutter_warnings[i]) if self.clutter_warnings else []
+        for tag, placements in (("a", self.placements_a), ("b", self.placements_b)):
+            if placements is not None:
+                record["sites"][tag].update(placements[i].record())
+                if placements[i].warning:
+                    warnings.append(placements[i].warning)
+                geoid = placements[i].geoid
+                if geoid is not None and geoid.vertical_crs not in record["inputs"]["vertical_datum"]:
+                    record["inputs"]["vertical_datum"] = (
+                        f"{geoid.vertical_crs} (stated by the planner; the rasters do not say)"
+                    )
+        if self.surroundings is not None:
+            from .profile import CLUTTER_KINDS
+
+            p = self.profiles
+            j = int(self.design.clearance.worst_index[i])
+            kind = 0 if p.clutter_kind is None else int(p.clutter_kind[i, j])
+            record["clutter"] = {
+                "crossed": self.surroundings.crossing_records(self.crossings, i),
+                "max_m": float(np.max(p.clutter_m[i, : p.n_samples[i]])),
+                "at_worst_point_m": float(p.clutter_m[i, j]),
+                "at_worst_point_kind": CLUTTER_KINDS[kind],
+            }
+            record["inputs"]["surroundings"] = self.surroundings.describe()
+        if warnings or "warnings" in record:
+            record["warnings"] = warnings
+
+    def warnings(self, i: int) -> list[str]:
+        """Validity warnings of link i: design k first, then any new at the worst-case k."""
+        out = list(self.design.warnings[i]) if self.design.warnings else []
+        for w in self.worst.warnings[i] if self.worst.warnings else ():
+            if w not in out:
+                out.append(f"worst case (k={self.worst.k:.4g}): {w}")
+        return out
 
     def records(self) -> list[dict]:
         return [self.record(i) for i in range(len(self))]
@@ -270,6 +398,7 @@ def _at_k_record(r: AtK, i: int, free_space_db: float) -> dict:
         "loss_db": {
             "free_space": float(free_space_db),
             "diffraction": float(r.diffraction_db[i]),
+            "diffraction_by_method": {m: float(v[i]) for m, v in r.diffraction_by_method_db.items()},
             "gases": float(r.gases_db[i]),
             "total": float(r.total_db[i]),
         },
@@ -291,12 +420,19 @@ def analyse_links(
     settings: Settings = Settings(),
     *,
     names: Sequence[str] | None = None,
+    surroundings: Any = None,
+    mounts_a: Sequence[Any] | None = None,
+    mounts_b: Sequence[Any] | None = None,
     check_sites: bool = True,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
     Paths that cannot be profiled (outside the rasters, nodata) are kept with
     a sentence in ``problems``; their numbers are meaningless.
+    ``surroundings`` (profiler.obstructions.Surroundings) adds buildings,
+    trees and surface-model clutter; ``mounts_a``/``mounts_b``
+    (profiler.mounts.Mount per site, or None) give antenna heights above a
+    roof, as elevations or above the ellipsoid.
     ``check_sites=False`` skips the per-site checks for callers that made
     them already (screening validates each site once, not once per pair).
     """
@@ -307,6 +443,14 @@ def analyse_links(
     radio.validate()
     settings.validate()
     names = list(names) if names is not None else [f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)]
+    placements_a = placements_b = None
+    if surroundings is not None:
+        surroundings.check_datum(model)
+    if mounts_a is not None or mounts_b is not None:
+        from .mounts import place_sites
+
+        sites_a, placements_a = place_sites(model, sites_a, mounts_a, surroundings, "site a")
+        sites_b, placements_b = place_sites(model, sites_b, mounts_b, surroundings, "site b")
     for a, b, name in zip(sites_a, sites_b, names) if check_sites else ():
         a.validate(f"{name}: site a")
         b.validate(f"{name}: site b")
@@ -319,9 +463,14 @@ def analyse_links(
     lon_a = np.array([s.lon_deg for s in sites_a])
     lat_b = np.array([s.lat_deg for s in sites_b])
     lon_b = np.array([s.lon_deg for s in sites_b])
-    profiles = build_profiles(
-        model, lat_a, lon_a, lat_b, lon_b, spacing_m=settings.spacing_m, labels=names
-    )
+    spacing = settings.spacing_m
+    if surroundings is not None and spacing is None:
+        spacing = surroundings.default_spacing_m(model, lon_a, lat_a)
+    profiles = build_profiles(model, lat_a, lon_a, lat_b, lon_b, spacing_m=spacing, labels=names)
+    crossings, clutter_warnings = None, ()
+    if surroundings is not None:
+        surrounded = surroundings.apply(profiles, model)
+        profiles, crossings, clutter_warnings = surrounded.profiles, surrounded.crossings, surrounded.warnings
     rows = np.arange(len(names))
     last = profiles.n_samples - 1
     ground_a = profiles.ground_m[:, 0]
@@ -337,6 +486,16 @@ def analyse_links(
     crit = settings.criterion
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
+    )
+    availability = availability_for_links(
+        design.budget.fade_margin_db,
+        profiles.length_m,
+        radio.freq_ghz,
+        antenna_a,
+        antenna_b,
+        (lat_a + lat_b) / 2.0,
+        profiles.valid,
+        settings.climate,
     )
     datums = sorted({s.vertical_datum for s in model.sources})
     provenance = {
@@ -361,15 +520,26 @@ def analyse_links(
         worst=worst,
         meets_criterion=meets & profiles.valid,
         provenance=provenance,
+        surroundings=surroundings,
+        crossings=crossings,
+        placements_a=placements_a,
+        placements_b=placements_b,
+        clutter_warnings=clutter_warnings,
+        availability=availability,
     )
 
 
 def analyse_link(
     model: ElevationModel, site_a: Site, site_b: Site, radio: Radio, settings: Settings = Settings(),
-    *, name: str | None = None,
+    *, name: str | None = None, surroundings: Any = None, mount_a: Any = None, mount_b: Any = None,
 ) -> LinkBatch:
     """Analyse one link; raise DataError if its path cannot be profiled."""
-    batch = analyse_links(model, [site_a], [site_b], radio, settings, names=[name] if name else None)
+    batch = analyse_links(
+        model, [site_a], [site_b], radio, settings, names=[name] if name else None,
+        surroundings=surroundings,
+        mounts_a=None if mount_a is None else [mount_a],
+        mounts_b=None if mount_b is None else [mount_b],
+    )
     if batch.problems[0] is not None:
         raise DataError(batch.problems[0])
     return batch

@@ -12,7 +12,10 @@ from .errors import InputError
 from .geodesy import PathLines, sample_paths
 from .terrain import ElevationModel
 
-__all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m"]
+__all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "CLUTTER_KINDS"]
+
+#: Codes of ``Profiles.clutter_kind``.
+CLUTTER_KINDS = {0: "none", 1: "building", 2: "trees", 3: "surface model"}
 
 
 @dataclass(frozen=True)
@@ -23,6 +26,9 @@ class Profiles:
     ``ground_m`` is terrain above the raster's vertical datum; ``clutter_m``
     the height of buildings and trees above it (0 where none).  ``problems``
     holds, per path, None or a sentence saying why the path cannot be used.
+    ``clutter_kind`` (int8, same shape) says what the clutter is: 0 none,
+    1 building, 2 trees, 3 surface model (see :data:`CLUTTER_KINDS`).
+    Samples need not be evenly spaced: obstruction edges are inserted.
     """
 
     lat_deg: np.ndarray
@@ -34,6 +40,7 @@ class Profiles:
     lines: PathLines
     spacing_m: np.ndarray
     problems: tuple[str | None, ...] = field(default=())
+    clutter_kind: np.ndarray | None = None
 
     @property
     def length_m(self) -> np.ndarray:
@@ -115,6 +122,7 @@ def build_profiles(
         lines=lines,
         spacing_m=spacing,
         problems=tuple(problems),
+        clutter_kind=np.zeros(ground.shape, dtype=np.int8),
     )
 
 

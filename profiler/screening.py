@@ -66,6 +66,7 @@ COLUMNS: dict[str, str] = {
     "wc_diffraction_db": "f8", "wc_total_loss_db": "f8", "wc_rx_level_dbm": "f8", "wc_snr_db": "f8",
     "wc_fade_margin_db": "f8",
     "mast_raise_m": "f8",
+    "availability_pct": "f8", "outage_min_per_year": "f8", "meets_availability": "u1",
 }
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
@@ -346,6 +347,23 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     return out, problems
 
 
+def _availability_columns(batch: LinkBatch) -> dict[str, np.ndarray]:
+    """Availability, yearly outage and target verdict of each link (NaN/False where not estimated)."""
+    n = len(batch)
+    cols = {"availability_pct": np.full(n, np.nan), "outage_min_per_year": np.full(n, np.nan),
+            "meets_availability": np.zeros(n, dtype=bool)}
+    av = getattr(batch, "availability", None)
+    if av is None or av.result is None:
+        return cols
+    rows = np.asarray(av.rows)
+    ok = rows >= 0
+    r = av.result
+    cols["availability_pct"][ok] = np.asarray(r.availability_pct)[rows[ok]]
+    cols["outage_min_per_year"][ok] = np.asarray(r.total_outage_min_per_year)[rows[ok]]
+    cols["meets_availability"][ok] = np.asarray(r.meets_target)[rows[ok]]
+    return cols
+
+
 def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems: list) -> None:
     sites_a = [Site(str(task.names_a[k]), float(task.lat_a[k]), float(task.lon_a[k]), float(task.agl_a[k]))
                for k in idx]
@@ -355,7 +373,9 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
     if task.gain_a is not None:
         radio = dataclasses.replace(radio, gain_a_dbi=task.gain_a[idx], gain_b_dbi=task.gain_b[idx])
     # Sites were checked when read, and same-place pairs set aside, so skip the per-pair checks.
-    batch = analyse_links(model, sites_a, sites_b, radio, task.settings,
+    # The other diffraction methods are for a single link's record: not computed in bulk.
+    settings = dataclasses.replace(task.settings, compare_methods=False)
+    batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)],
                           check_sites=False)
     lines = batch.profiles.lines
@@ -385,6 +405,7 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
         "wc_rx_level_dbm": w.budget.rx_level_dbm, "wc_snr_db": w.budget.snr_db,
         "wc_fade_margin_db": w.budget.fade_margin_db,
         "mast_raise_m": mast_raise_m(batch),
+        **_availability_columns(batch),
     }
     for name, values in cols.items():
         out[name][idx] = np.asarray(values)

@@ -16,7 +16,7 @@ from profiler.link import Settings, Site, analyse_link
 from profiler.screening import PairPlan, count_pairs, iter_pair_blocks, screen
 from profiler.terrain import ElevationModel
 
-from _screening_data import DEMO_DEM, DEMO_SITES, random_sites_csv
+from tests._screening_data import DEMO_DEM, DEMO_SITES, random_sites_csv
 
 RADIO = Radio(5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
 
@@ -122,6 +122,10 @@ def test_a_screened_pair_gives_exactly_the_numbers_of_terrahop_link(tmp_path):
             assert row["wc_fade_margin_db"] == rec["worst_case"]["budget"]["fade_margin_db"]
             assert bool(row["meets_criterion"]) == rec["meets_criterion"]
             assert row["ground_a_m"] == rec["sites"]["a"]["ground_m"]
+            assert row["gases_db"] == rec["loss_db"]["gases"]
+            assert row["method"] == rec["inputs"]["diffraction_method"]
+            if rec.get("availability", {}).get("estimated"):
+                assert row["availability_pct"] == rec["availability"]["availability_pct"]
 
 
 def test_output_layers_ranked_with_crs_and_columns(tmp_path):
@@ -229,7 +233,7 @@ def test_dask_local_cluster_gives_the_same_rows(tmp_path, sites25):
     distributed = pytest.importorskip("distributed")
     _run(sites25, tmp_path / "local.gpkg", max_km=6.0, chunk_pairs=10)
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False,
-                                  dashboard_address=None) as cluster:
+                                  dashboard_address=":0") as cluster:
         with distributed.Client(cluster) as client:
             summary = _run(sites25, tmp_path / "dask.gpkg", max_km=6.0, chunk_pairs=10, scheduler=client)
     assert summary.pairs > 10
@@ -272,7 +276,7 @@ def test_the_command_line_imports_no_heavy_package_until_it_screens():
     import subprocess
     import sys
 
-    from _screening_data import REPO
+    from tests._screening_data import REPO
 
     code = ("import sys, profiler.cli.main, profiler.screening; "
             "print(sorted(m for m in ('numba', 'geopandas', 'dask', 'distributed', 'pyarrow', 'pandas') "

@@ -8,7 +8,7 @@ import pytest
 from profiler.errors import InputError
 from profiler.io.sites import read_pairs, read_sites
 
-from _screening_data import DEMO_SITES
+from tests._screening_data import DEMO_SITES
 
 
 def test_demo_csv_reads_with_default_columns():

@@ -6,7 +6,16 @@ import json
 
 import click
 
-from .options import analysis_options, friendly_errors, radio_options, site_options, terrain_options
+from .options import (
+    analysis_options,
+    climate_options,
+    friendly_errors,
+    mount_options,
+    radio_options,
+    site_options,
+    surroundings_options,
+    terrain_options,
+)
 
 __all__ = ["link", "run_link"]
 
@@ -15,13 +24,18 @@ def run_link(resolved) -> dict:
     """Analyse a resolved link and return its JSON record."""
     from ..link import analyse_link
     from ..terrain import ElevationModel
+    from .options import open_surroundings_of
 
+    surroundings = open_surroundings_of(resolved)
     with ElevationModel(
         resolved.rasters, vertical_unit=resolved.vertical_unit, nodata_fill_m=resolved.nodata_fill_m
     ) as model:
         batch = analyse_link(
-            model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings, name=resolved.title
+            model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings, name=resolved.title,
+            surroundings=surroundings, mount_a=resolved.mount_a, mount_b=resolved.mount_b,
         )
+    if surroundings is not None and surroundings.surface is not None:
+        surroundings.surface.close()
     return batch.record(0)
 
 
@@ -29,8 +43,11 @@ def run_link(resolved) -> dict:
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
 @terrain_options
 @site_options
+@mount_options
+@surroundings_options
 @radio_options
 @analysis_options
+@climate_options
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
 @friendly_errors
 def link(link_file: str | None, as_json: bool, **opts) -> None:

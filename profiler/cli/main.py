@@ -6,8 +6,10 @@ import click
 
 from .. import __version__
 from .demo import demo
+from .heights import heights
 from .link import link
 from .screen import screen
+from .sheet import sheet
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
@@ -24,6 +26,8 @@ def cli() -> None:
 
 cli.add_command(link)
 cli.add_command(demo)
+cli.add_command(heights)
+cli.add_command(sheet)
 cli.add_command(screen)
 
 

@@ -14,13 +14,22 @@ from ..errors import TerrahopError
 __all__ = [
     "friendly_errors",
     "parse_lat_lon",
+    "parse_number",
     "terrain_options",
     "site_options",
     "radio_options",
     "analysis_options",
+    "climate_options",
+    "CLIMATE_FLAGS",
+    "resolve_climate",
     "ResolvedLink",
     "resolve_link",
+    "resolve_radio",
+    "resolve_settings",
     "RADIO_FLAGS",
+    "surroundings_options",
+    "mount_options",
+    "open_surroundings_of",
 ]
 
 
@@ -61,6 +70,42 @@ def _site_callback(ctx: click.Context, param: click.Parameter, value: str | None
     if value is None:
         return None
     return parse_lat_lon(value, f"--{param.name.replace('_', '-')}")
+
+
+def parse_number(value: Any, what: str) -> float:
+    """A number, or a fraction written as 'P/Q' (e.g. k = '4/3'); raise InputError otherwise."""
+    from ..errors import InputError
+
+    if isinstance(value, bool):
+        raise InputError(f"{what} must be a number, got {value!r}")
+    if isinstance(value, (int, float)):
+        return float(value)
+    text = str(value).strip()
+    try:
+        if "/" in text:
+            num, den = text.split("/", 1)
+            return float(num) / float(den)
+        return float(text)
+    except (ValueError, ZeroDivisionError):
+        raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
+
+
+#: Diffraction methods offered on the command line; kept equal to
+#: profiler.losses.terrain_diffraction.DIFFRACTION_METHODS (a test checks) so
+#: that ``--help`` need not import numpy.
+DIFFRACTION_METHOD_NAMES = ("delta-bullington", "bullington", "deygout", "epstein-peterson", "knife-edge")
+
+
+def _diffraction_callback(ctx: click.Context, param: click.Parameter, value: str | None):
+    if value is None:
+        return None
+    from ..errors import InputError
+    from ..losses.terrain_diffraction import resolve_method
+
+    try:
+        return resolve_method(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
 
 
 def _compose(*decorators: Callable) -> Callable:
@@ -109,15 +154,108 @@ radio_options = _compose(
 )
 
 analysis_options = _compose(
-    click.option("--k", "k", type=float, default=None, help="Design (median) k-factor [default: 4/3]."),
-    click.option("--k-worst", type=float, default=None, help="Worst-case k-factor [default: 2/3]."),
+    click.option("--k", "k", default=None, metavar="K",
+                 help="Design (median) k-factor, a number or a fraction such as 4/3 [default: 4/3]."),
+    click.option("--k-worst", default=None, metavar="K",
+                 help="Worst-case k-factor, a number or a fraction [default: 2/3]."),
     click.option("--spacing-m", type=float, default=None,
                  help="Profile sample spacing, m [default: half the finest raster cell]."),
     click.option("--min-f1-fraction", type=float, default=None,
                  help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
     click.option("--min-f1-fraction-worst", type=float, default=None,
                  help="Clearance needed at the worst-case k, fraction of F1 [default: 0.0, LOS unobstructed]."),
+    click.option("--diffraction", "diffraction", callback=_diffraction_callback, default=None, metavar="METHOD",
+                 help="Diffraction method: " + ", ".join(DIFFRACTION_METHOD_NAMES)
+                 + " [default: delta-bullington, ITU-R P.526-15 section 4.5.2]."),
+    click.option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
+                 default=None, help="Antenna polarisation, for rain attenuation (ITU-R P.838-3) and the smooth-earth part of delta-bullington [default: horizontal]."),
+    click.option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
+                 help="Ground electrical constants for the smooth-earth part of delta-bullington [default: land]."),
 )
+
+
+surroundings_options = _compose(
+    click.option("--obstructions", "obstructions", multiple=True, metavar="[KIND=]FILE[#LAYER]",
+                 help="Polygons of buildings or tree stands with heights (GeoPackage, GeoJSON, Shapefile; any CRS). "
+                      "KIND is building (default) or trees; #LAYER picks a layer of a multi-layer file. Repeatable."),
+    click.option("--height-field", default=None, metavar="NAME",
+                 help="Attribute holding the height above ground, m [default: height_m, else height]."),
+    click.option("--top-field", default=None, metavar="NAME",
+                 help="Attribute holding the absolute top elevation, m, in the rasters' datum [default: top_m]; "
+                      "used where a feature has no height."),
+    click.option("--tree-allowance-m", type=float, default=None, metavar="M",
+                 help="Added to every tree height for growth and uncertainty, m [default: 0]."),
+    click.option("--surface", "surface", multiple=True, metavar="RASTER",
+                 help="Surface model (lidar first return, DSM) beside --dem; clutter is its height above "
+                      "the terrain, clipped at 0. Repeatable."),
+)
+
+mount_options = _compose(
+    click.option("--above-roof-a", type=float, default=None, metavar="M",
+                 help="Site a antenna height above the roof of the building it stands in (from --obstructions)."),
+    click.option("--above-roof-b", type=float, default=None, metavar="M", help="As --above-roof-a, for site b."),
+    click.option("--amsl-a", type=float, default=None, metavar="M",
+                 help="Site a antenna elevation in the rasters' vertical datum, m."),
+    click.option("--amsl-b", type=float, default=None, metavar="M", help="As --amsl-a, for site b."),
+    click.option("--ellipsoidal-a", type=float, default=None, metavar="M",
+                 help="Site a antenna height above the WGS84 ellipsoid (GNSS), m; converted with a geoid grid."),
+    click.option("--ellipsoidal-b", type=float, default=None, metavar="M", help="As --ellipsoidal-a, for site b."),
+    click.option("--vertical-crs", default=None, metavar="CRS",
+                 help="Vertical datum of the raster heights when the files do not say (e.g. EPSG:5773, "
+                      "EGM96); needed to convert ellipsoidal heights."),
+)
+
+#: Site keys and flags giving an antenna height, and what each is measured from.
+MOUNT_KEYS = {
+    "antenna_agl_m": ("agl", "ground"),
+    "antenna_above_roof_m": ("above_roof", "roof"),
+    "antenna_amsl_m": ("amsl", "elevation"),
+    "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
+}
+
+
+#: Climate and availability flags: ClimateSettings field -> (flag, value type, help).
+CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
+    "rain_rate_mm_h": ("--rain-rate-mm-h", float,
+                       "Rain rate exceeded 0.01 % of an average year (R0.01, 1-minute), mm/h; take it from "
+                       "ITU-R P.837 maps or local records [default: 42]."),
+    "target_availability_pct": ("--target-availability-pct", float,
+                                "Availability aimed at, % of an average year, 99 to 99.999 [default: 99.99]."),
+    "dn1_n_per_km": ("--dn1", float,
+                     "Refractivity gradient dN1 in the lowest 65 m, not exceeded 1 % of an average year, "
+                     "N-units/km (ITU-R P.453 maps) [default: -200]."),
+    "terrain_roughness_m": ("--terrain-roughness-m", float,
+                            "sa: standard deviation of terrain heights over 110 km x 110 km around the "
+                            "path, m (ITU-R P.530) [default: 40]."),
+    "pressure_hpa": ("--pressure-hpa", float, "Dry-air pressure for gaseous attenuation, hPa [default: 1013.25]."),
+    "temperature_c": ("--temperature-c", float, "Air temperature for gaseous attenuation, degC [default: 15]."),
+    "water_vapour_g_m3": ("--water-vapour-g-m3", float,
+                          "Water-vapour density for gaseous attenuation, g/m^3 [default: 7.5]."),
+}
+
+climate_options = _compose(
+    *[click.option(flag, name, type=kind, default=None, help=text)
+      for name, (flag, kind, text) in CLIMATE_FLAGS.items()]
+)
+
+
+def resolve_climate(
+    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False
+) -> Any:
+    """ClimateSettings from flags over a link file's [climate] table; flags win.
+
+    The antenna polarisation is the one of ``--polarisation`` / ``[analysis]
+    polarisation``, shared with the diffraction methods.
+    """
+    from ..availability import ClimateSettings
+    from ..losses.smooth_earth import resolve_polarisation
+
+    values = {name: _pick(opts.get(name), section, name) for name in CLIMATE_FLAGS}
+    given = {k: v for k, v in values.items() if v is not None}
+    names = set(given) | ({"polarisation"} if polarisation_given else set())
+    if polarisation is not None:
+        given["polarisation"] = resolve_polarisation(polarisation)
+    return ClimateSettings(**given, given=frozenset(names))
 
 
 @dataclass(frozen=True)
@@ -132,6 +270,13 @@ class ResolvedLink:
     site_b: Any
     radio: Any
     settings: Any
+    obstruction_layers: tuple = ()
+    surface_rasters: tuple[str, ...] = ()
+    tree_allowance_m: float = 0.0
+    mount_a: Any = None
+    mount_b: Any = None
+    max_mast_a_m: float | None = None
+    max_mast_b_m: float | None = None
 
 
 def _pick(flag: Any, spec: dict, key: str, default: Any = None) -> Any:
@@ -140,12 +285,63 @@ def _pick(flag: Any, spec: dict, key: str, default: Any = None) -> Any:
     return spec.get(key, default)
 
 
-def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
-    """Merge a link file (if any) and command-line options; flags win."""
+def resolve_radio(opts: dict[str, Any], section: dict[str, Any] | None = None) -> Any:
+    """Radio settings from flags over a link file's [radio] table; flags win."""
     from ..budget import Radio
     from ..errors import InputError
+
+    section = section or {}
+    radio_values = {k: _pick(opts.get(k), section, k) for k in RADIO_FLAGS}
+    if radio_values["freq_ghz"] is None:
+        raise InputError("frequency missing: give --freq-ghz or [radio] freq_ghz in the link file")
+    try:
+        return Radio(**{k: float(v) for k, v in radio_values.items() if v is not None}).validate()
+    except (TypeError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(f"radio settings must be numbers ({exc})") from None
+
+
+def resolve_settings(
+    opts: dict[str, Any], an: dict[str, Any] | None = None, climate_section: dict[str, Any] | None = None
+) -> Any:
+    """Analysis settings (k, criterion, diffraction, climate) from flags over a link file's tables."""
+    from ..errors import InputError
+    from ..link import Criterion, Settings
+
+    an = an or {}
+    defaults = Settings()
+    polarisation_given = opts.get("polarisation") is not None or "polarisation" in an
+    polarisation = str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation))
+    climate = resolve_climate(climate_section or {}, opts, polarisation, polarisation_given)
+    try:
+        settings = Settings(
+            k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
+            k_worst=parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst"),
+            spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
+            criterion=Criterion(
+                min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
+                min_f1_fraction_worst=float(
+                    _pick(opts.get("min_f1_fraction_worst"), an, "min_f1_fraction_worst", 0.0)
+                ),
+            ),
+            diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            polarisation=polarisation,
+            ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
+            climate=climate,
+        ).validate()
+    except (TypeError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(f"analysis settings must be numbers ({exc})") from None
+    return settings
+
+
+def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
+    """Merge a link file (if any) and command-line options; flags win."""
+    from ..errors import InputError
     from ..io.linkfile import LinkSpec, read_link_file
-    from ..link import Criterion, Settings, Site
+    from ..link import Site
 
     spec = read_link_file(link_file) if link_file else LinkSpec(path="", title=None)
     rasters = tuple(opts.get("dem") or ()) or tuple(spec.terrain.get("rasters", ()))
@@ -168,35 +364,10 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
             raise InputError(f"site {tag}: lat, lon and antenna_agl_m must be numbers ({exc})") from None
 
     a, b = site("a"), site("b")
-    radio_values = {k: _pick(opts.get(k), spec.radio, k) for k in RADIO_FLAGS}
-    if radio_values["freq_ghz"] is None:
-        raise InputError("frequency missing: give --freq-ghz or [radio] freq_ghz in the link file")
-    try:
-        radio = Radio(**{k: float(v) for k, v in radio_values.items() if v is not None}).validate()
-    except (TypeError, ValueError) as exc:
-        if isinstance(exc, InputError):
-            raise
-        raise InputError(f"radio settings must be numbers ({exc})") from None
-    an = spec.analysis
-    defaults = Settings()
-    try:
-        settings = Settings(
-            k=float(_pick(opts.get("k"), an, "k", defaults.k)),
-            k_worst=float(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst)),
-            spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
-            criterion=Criterion(
-                min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
-                min_f1_fraction_worst=float(
-                    _pick(opts.get("min_f1_fraction_worst"), an, "min_f1_fraction_worst", 0.0)
-                ),
-            ),
-            diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
-        ).validate()
-    except (TypeError, ValueError) as exc:
-        if isinstance(exc, InputError):
-            raise
-        raise InputError(f"analysis settings must be numbers ({exc})") from None
+    radio = resolve_radio(opts, spec.radio)
+    settings = resolve_settings(opts, spec.analysis, spec.climate)
     title = spec.title or f"{a.name} - {b.name}"
+    urban = _resolve_urban(spec, opts)
     return ResolvedLink(
         title=title,
         rasters=rasters,
@@ -206,7 +377,95 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         site_b=b,
         radio=radio,
         settings=settings,
+        **urban,
     )
+
+
+def _resolve_urban(spec: Any, opts: dict[str, Any]) -> dict[str, Any]:
+    """Obstruction layers, surface rasters and antenna mounts from flags over the link file."""
+    from ..errors import InputError
+    from ..mounts import Mount
+    from ..obstructions import LayerSpec, normalise_kind, parse_layer_spec
+
+    ob = spec.obstructions
+    height_field = _pick(opts.get("height_field"), ob, "height_field")
+    top_field = _pick(opts.get("top_field"), ob, "top_field")
+    if opts.get("obstructions"):
+        layers = tuple(parse_layer_spec(t, height_field=height_field, top_field=top_field)
+                       for t in opts["obstructions"])
+    else:
+        layers = tuple(
+            LayerSpec(
+                path=e["file"],
+                kind=normalise_kind(e.get("kind", "building"), f"{spec.path}: [obstructions]"),
+                layer=e.get("layer"),
+                height_field=e.get("height_field", height_field),
+                top_field=e.get("top_field", top_field),
+            )
+            for e in ob.get("layers", [])
+        )
+    surface = tuple(opts.get("surface") or ()) or tuple(spec.terrain.get("surface", ()))
+    vertical_crs = _pick(opts.get("vertical_crs"), spec.terrain, "vertical_crs")
+    try:
+        allowance = float(_pick(opts.get("tree_allowance_m"), ob, "tree_allowance_m", 0.0))
+    except (TypeError, ValueError):
+        raise InputError(f"tree allowance must be a number of metres, got {ob.get('tree_allowance_m')!r}") from None
+    if not math.isfinite(allowance) or allowance < 0:
+        raise InputError(f"tree allowance must be 0 m or more, got {allowance!r}")
+
+    def mount(tag: str) -> Any:
+        section = getattr(spec, f"site_{tag}")
+        given = [(ref, opts[f"{flag}_{tag}"]) for flag, ref in MOUNT_KEYS.values()
+                 if opts.get(f"{flag}_{tag}") is not None]
+        flags = ", ".join(f"--{flag.replace('_', '-')}-{tag}" for flag, _ in MOUNT_KEYS.values())
+        if len(given) > 1:
+            raise InputError(f"site {tag}: give one antenna height, not several ({flags})")
+        if not given:
+            given = [(ref, section[key]) for key, (_, ref) in MOUNT_KEYS.items() if key in section]
+            if len(given) > 1:
+                keys = ", ".join(k for k in MOUNT_KEYS if k in section)
+                raise InputError(f"{spec.path}: [site_{tag}] gives several antenna heights ({keys}); keep one")
+        ref, height = given[0] if given else ("ground", 10.0)
+        try:
+            height = float(height)
+        except (TypeError, ValueError):
+            raise InputError(f"site {tag}: antenna height must be a number of metres, got {height!r}") from None
+        return Mount(ref, height, vertical_crs=vertical_crs).validate(f"site {tag}")
+
+    def max_mast(tag: str) -> float | None:
+        value = _pick(opts.get(f"max_mast_{tag}"), getattr(spec, f"site_{tag}"), "max_mast_m")
+        if value is None:
+            return None
+        try:
+            value = float(value)
+        except (TypeError, ValueError):
+            raise InputError(f"site {tag}: max_mast_m must be a number of metres, got {value!r}") from None
+        if not math.isfinite(value) or value < 0:
+            raise InputError(f"site {tag}: maximum mast height must be 0 m or more, got {value!r}")
+        return value
+
+    return {
+        "obstruction_layers": layers,
+        "surface_rasters": surface,
+        "tree_allowance_m": allowance,
+        "mount_a": mount("a"),
+        "mount_b": mount("b"),
+        "max_mast_a_m": max_mast("a"),
+        "max_mast_b_m": max_mast("b"),
+    }
+
+
+def open_surroundings_of(resolved: ResolvedLink) -> Any:
+    """Read the obstruction layers and open the surface rasters of a resolved link (None if none)."""
+    from ..obstructions import Surroundings, read_obstruction_layer
+    from ..terrain import ElevationModel
+
+    if not resolved.obstruction_layers and not resolved.surface_rasters:
+        return None
+    layers = tuple(read_obstruction_layer(s) for s in resolved.obstruction_layers)
+    surface = (ElevationModel(resolved.surface_rasters, vertical_unit=resolved.vertical_unit)
+               if resolved.surface_rasters else None)
+    return Surroundings(layers=layers, surface=surface, tree_allowance_m=resolved.tree_allowance_m)
 
 
 def _opt_float(value: Any) -> float | None:

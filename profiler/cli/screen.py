@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from .options import RADIO_FLAGS, analysis_options, friendly_errors, radio_options, terrain_options
+from .options import analysis_options, climate_options, friendly_errors, radio_options, terrain_options
 
 __all__ = ["screen", "resolve_radio_settings", "format_screen_summary"]
 
@@ -15,27 +15,10 @@ SHOWN_BAD_ROWS = 20
 
 
 def resolve_radio_settings(opts: dict):
-    """Radio and analysis settings from command-line options (defaults as ``terrahop link``)."""
-    from ..budget import Radio
-    from ..errors import InputError
-    from ..link import Criterion, Settings
+    """Radio and analysis settings from command-line options, resolved as ``terrahop link`` does."""
+    from .options import resolve_radio, resolve_settings
 
-    if opts.get("freq_ghz") is None:
-        raise InputError("frequency missing: give --freq-ghz")
-    radio = Radio(**{k: float(opts[k]) for k in RADIO_FLAGS if opts.get(k) is not None}).validate()
-    defaults = Settings()
-    settings = Settings(
-        k=defaults.k if opts.get("k") is None else float(opts["k"]),
-        k_worst=defaults.k_worst if opts.get("k_worst") is None else float(opts["k_worst"]),
-        spacing_m=None if opts.get("spacing_m") is None else float(opts["spacing_m"]),
-        criterion=Criterion(
-            min_f1_fraction=0.6 if opts.get("min_f1_fraction") is None else float(opts["min_f1_fraction"]),
-            min_f1_fraction_worst=0.0 if opts.get("min_f1_fraction_worst") is None
-            else float(opts["min_f1_fraction_worst"]),
-        ),
-        diffraction_method=str(opts.get("diffraction") or defaults.diffraction_method),
-    ).validate()
-    return radio, settings
+    return resolve_radio(opts), resolve_settings(opts)
 
 
 def format_screen_summary(summary) -> str:
@@ -117,6 +100,7 @@ class _Progress:
 @terrain_options
 @radio_options
 @analysis_options
+@climate_options
 @click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
               help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it).")
 @click.option("--max-km", type=float, default=None, help="Only pairs at most this far apart, km [default: no limit].")

@@ -19,7 +19,26 @@ Format (all sections optional except the two sites; paths relative to the file):
     ...
 
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
-    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst, ...
+    [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
+                   # diffraction_method, polarisation, ground
+    [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
+                   # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis])
+
+Rooftop and urban links add (all optional)::
+
+    [terrain]
+    surface = ["dsm.tif"]        # first-return rasters; clutter = surface - terrain
+    vertical_crs = "EPSG:5773"   # the rasters' vertical datum, if they do not say
+
+    [site_a]                     # give ONE of the antenna heights:
+    antenna_above_roof_m = 3     # antenna_agl_m, antenna_above_roof_m,
+    max_mast_m = 12              # antenna_amsl_m, antenna_ellipsoidal_m
+
+    [obstructions]
+    layers = [{ file = "town.gpkg", layer = "buildings", kind = "building" },
+              { file = "town.gpkg", layer = "trees", kind = "trees" }]
+    height_field = "height_m"    # height above ground; or top_field (absolute top)
+    tree_allowance_m = 2
 
 Unknown keys are refused with their name, so a typing error never passes silently.
 """
@@ -37,18 +56,27 @@ from ..errors import DataFileError, InputError
 __all__ = ["LinkSpec", "read_link_file", "SECTION_KEYS"]
 
 SECTION_KEYS: dict[str, set[str]] = {
-    "terrain": {"rasters", "vertical_unit", "nodata_fill_m"},
-    "site_a": {"name", "lat", "lon", "antenna_agl_m"},
-    "site_b": {"name", "lat", "lon", "antenna_agl_m"},
+    "terrain": {"rasters", "vertical_unit", "nodata_fill_m", "surface", "vertical_crs"},
+    "site_a": {"name", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
+               "antenna_ellipsoidal_m", "max_mast_m"},
+    "site_b": {"name", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
+               "antenna_ellipsoidal_m", "max_mast_m"},
     "radio": {
         "freq_ghz", "tx_power_dbm", "gain_a_dbi", "gain_b_dbi", "loss_a_db", "loss_b_db",
         "bandwidth_mhz", "noise_figure_db", "required_snr_db",
     },
     "analysis": {
         "k", "k_worst", "sample_spacing_m", "min_f1_fraction", "min_f1_fraction_worst",
-        "diffraction_method",
+        "diffraction_method", "polarisation", "ground",
+    },
+    "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
+    "climate": {
+        "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
+        "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3",
     },
 }
+#: Keys of one entry of [obstructions] layers.
+LAYER_KEYS = {"file", "layer", "kind", "height_field", "top_field"}
 TOP_KEYS = {"title", "notes"}
 
 
@@ -63,6 +91,8 @@ class LinkSpec:
     site_b: dict[str, Any] = field(default_factory=dict)
     radio: dict[str, Any] = field(default_factory=dict)
     analysis: dict[str, Any] = field(default_factory=dict)
+    obstructions: dict[str, Any] = field(default_factory=dict)
+    climate: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -98,6 +128,14 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
     if not isinstance(rasters, list) or not all(isinstance(r, str) for r in rasters):
         raise InputError(f"{p}: [terrain] rasters must be a list of file paths")
     terrain["rasters"] = [_resolve(p.parent, r) for r in rasters]
+    surface = terrain.get("surface", [])
+    if isinstance(surface, str):
+        surface = [surface]
+    if not isinstance(surface, list) or not all(isinstance(r, str) for r in surface):
+        raise InputError(f"{p}: [terrain] surface must be a list of raster paths")
+    if surface:
+        terrain["surface"] = [_resolve(p.parent, r) for r in surface]
+    obstructions = _obstructions(p, dict(data.get("obstructions", {})))
     return LinkSpec(
         path=str(p),
         title=data.get("title"),
@@ -106,7 +144,33 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         site_b=dict(data.get("site_b", {})),
         radio=dict(data.get("radio", {})),
         analysis=dict(data.get("analysis", {})),
+        obstructions=obstructions,
+        climate=dict(data.get("climate", {})),
     )
+
+
+def _obstructions(p: Path, section: dict[str, Any]) -> dict[str, Any]:
+    layers = section.get("layers", [])
+    if isinstance(layers, dict):
+        layers = [layers]
+    if not isinstance(layers, list):
+        raise InputError(f"{p}: [obstructions] layers must be a list of tables {{ file = ..., kind = ... }}")
+    out = []
+    for i, entry in enumerate(layers, 1):
+        if isinstance(entry, str):
+            entry = {"file": entry}
+        if not isinstance(entry, dict) or not isinstance(entry.get("file"), str):
+            raise InputError(f"{p}: [obstructions] layer {i} needs file = \"PATH\"")
+        unknown = set(entry) - LAYER_KEYS
+        if unknown:
+            raise InputError(
+                f"{p}: unknown key(s) in [obstructions] layer {i}: {', '.join(sorted(unknown))}; "
+                f"allowed: {', '.join(sorted(LAYER_KEYS))}"
+            )
+        out.append({**entry, "file": _resolve(p.parent, entry["file"])})
+    if out:
+        section["layers"] = out
+    return section
 
 
 def _resolve(base: Path, raster: str) -> str:

@@ -12,15 +12,85 @@ def _verdict(ok: bool) -> str:
 def _at_k_lines(r: dict) -> list[str]:
     c, loss, b = r["clearance"], r["loss_db"], r["budget"]
     los = "yes" if c["line_of_sight"] else "NO (line of sight obstructed)"
+    by_method = loss.get("diffraction_by_method") or {}
+    compare = (
+        ["  diffraction by     " + ", ".join(f"{m} {v:.1f}" for m, v in by_method.items()) + " dB"]
+        if len(by_method) > 1 else []
+    )
     return [
         f"  worst point        {c['worst_distance_km']:.3f} km from site a: clearance "
         f"{c['worst_clearance_m']:+.1f} m = {c['worst_f1_fraction']:+.2f} F1",
         f"  line of sight      {los}",
         f"  losses (dB)        free space {loss['free_space']:.1f} + diffraction "
         f"{loss['diffraction']:.1f} + gases {loss['gases']:.1f} = total {loss['total']:.1f}",
+        *compare,
         f"  received level     {b['rx_level_dbm']:.1f} dBm   noise floor {b['noise_floor_dbm']:.1f} dBm",
         f"  SNR                {b['snr_db']:.1f} dB   fade margin {b['fade_margin_db']:+.1f} dB",
     ]
+
+
+def _mount_lines(s: dict) -> list[str]:
+    """How the antenna height was given, when not plainly above ground (rooftop sites)."""
+    out = []
+    b = s.get("building")
+    if s.get("antenna_reference") == "roof" and b:
+        out.append(f"                   on the roof of {b['feature']}: roof {s['roof_m']:.1f} m "
+                   f"({b['height_m']:.1f} m above ground) + {s['antenna_above_roof_m']:g} m above the roof")
+    elif b:
+        out.append(f"                   stands in building {b['feature']} (roof {s['roof_m']:.1f} m)")
+    if s.get("antenna_reference") == "elevation":
+        out.append(f"                   antenna given as elevation {s['antenna_given_m']:g} m")
+    if s.get("antenna_reference") == "ellipsoid":
+        out.append(f"                   antenna given {s['antenna_ellipsoidal_m']:g} m above the WGS84 ellipsoid; "
+                   f"geoid undulation {s['geoid_undulation_m']:.2f} m ({s['geoid_vertical_crs']})")
+    return out
+
+
+def _clutter_lines(r: dict) -> list[str]:
+    """Buildings and trees the path crosses, and the clutter at the worst point."""
+    c = r.get("clutter")
+    if not c:
+        return []
+    out = [f"clutter            {len(c['crossed'])} obstruction(s) crossed; at the worst point "
+           f"{c['at_worst_point_m']:.1f} m ({c['at_worst_point_kind']})"]
+    for x in c["crossed"][:12]:
+        h = f"{x['height_m']:.1f} m high" if x["height_m"] is not None else f"top {x['top_m']:.1f} m"
+        extra = f" + {x['allowance_m']:g} m allowance" if x["allowance_m"] else ""
+        out.append(f"  {x['kind']:<8}  {x['from_km']:.3f}-{x['to_km']:.3f} km  {h}{extra}  {x['feature']}")
+    if len(c["crossed"]) > 12:
+        out.append(f"  ... and {len(c['crossed']) - 12} more (see --json)")
+    return out
+
+def _minutes(value: float) -> str:
+    return f"{value:.1f} min/yr" if value >= 0.1 else f"{value * 60:.1f} s/yr"
+
+
+def _pct(value: float) -> str:
+    return f"{value:.3g} %"
+
+
+def _availability_lines(av: dict | None) -> list[str]:
+    """Availability block of the summary (ITU-R P.530 rain and multipath outage)."""
+    if not av:
+        return []
+    if not av.get("estimated"):
+        return [f"availability       not estimated: {av.get('reason')}"]
+    o = av["outage"]
+    need = av["required_fade_margin_db"]
+    need_text = f"{need:.1f} dB" if need is not None else "not reachable"
+    mp = "not estimated" if not av["multipath"]["estimated"] else (
+        f"{_pct(o['multipath_pct'])} ({_minutes(o['multipath_min_per_year'])})"
+    )
+    lines = [
+        f"availability       {av['availability_pct']:.5f} % of an average year with fade margin "
+        f"{av['fade_margin_db']:+.1f} dB: {_verdict(av['meets_target'])} target {av['target_availability_pct']:g} %",
+        f"  outage           rain {_pct(o['rain_pct'])} ({_minutes(o['rain_min_per_year'])}), multipath {mp}, "
+        f"total {_pct(o['total_pct'])} ({_minutes(o['total_min_per_year'])})",
+        f"  margin needed    {need_text} for {av['target_availability_pct']:g} %",
+    ]
+    for n, a in enumerate(av.get("assumptions", [])):
+        lines.append(f"  {'assumes' if n == 0 else '':<17}{a}")
+    return lines
 
 
 def format_link_summary(r: dict) -> str:
@@ -40,6 +110,7 @@ def format_link_summary(r: dict) -> str:
             f"site {tag}             {s['name']}  ({s['lat']:.6f}, {s['lon']:.6f})  ground "
             f"{s['ground_m']:.1f} m, antenna {s['antenna_agl_m']:.1f} m AGL = {s['antenna_amsl_m']:.1f} m AMSL"
         )
+        lines += _mount_lines(s)
     lines += [
         f"heights            metres; vertical datum: {datum}",
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
@@ -52,7 +123,9 @@ def format_link_summary(r: dict) -> str:
         f"worst case k = {r['worst_case']['k']:.4g}",
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
+        *_availability_lines(r.get("availability")),
     ]
+    lines += _clutter_lines(r)
     for w in r.get("warnings", []):
         lines.append(f"warning: {w}")
     return "\n".join(lines)

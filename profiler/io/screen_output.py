@@ -35,6 +35,7 @@ LINK_COLUMNS = (
     "meets_criterion", "free_space_db", "diffraction_db", "gases_db", "total_loss_db",
     "eirp_dbm", "rx_level_dbm", "noise_floor_dbm", "snr_db",
     "wc_diffraction_db", "wc_total_loss_db", "wc_rx_level_dbm", "wc_snr_db", "wc_fade_margin_db",
+    "availability_pct", "outage_min_per_year", "meets_availability",
     "method", "k", "k_worst", "samples", "spacing_m", "mast_raise_m", "problem",
 )
 #: Columns of the point layer, in order (extra site columns follow).
@@ -42,7 +43,7 @@ SITE_COLUMNS = (
     "name", "lat", "lon", "antenna_agl_m", "pairs", "viable_links", "marginal_links",
     "blocked_links", "error_links", "best_fade_margin_db", "best_partner",
 )
-_BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion"}
+_BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion", "meets_availability"}
 
 
 def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:

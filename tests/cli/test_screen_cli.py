@@ -8,12 +8,10 @@ import signal
 import subprocess
 import sys
 import time
-from pathlib import Path
 
 import pytest
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from _screening_data import DEMO_DEM, DEMO_SITES, REPO, random_sites_csv  # noqa: E402
+from tests._screening_data import DEMO_DEM, DEMO_SITES, REPO, random_sites_csv
 
 RADIO = ["--freq-ghz", "5.8", "--gain-a-dbi", "23", "--gain-b-dbi", "23", "--loss-a-db", "1", "--loss-b-db", "1"]
 
@@ -118,7 +116,7 @@ def test_scheduler_address_runs_the_chunks_on_a_dask_cluster(tmp_path):
     args = ["screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--max-km", "9", "--chunk-pairs", "7"]
     terrahop(*args, "--workers", "1", "--out", tmp_path / "local.csv")
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=False, protocol="tcp", host="127.0.0.1",
-                                  dashboard_address=None) as cluster:
+                                  dashboard_address=":0") as cluster:
         proc = terrahop(*args, "--scheduler", cluster.scheduler_address, "--out", tmp_path / "dask.csv")
     assert "pairs of 12 sites screened" in proc.stdout
     pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "local.csv"), pd.read_csv(tmp_path / "dask.csv"))

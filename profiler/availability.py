@@ -1,0 +1,595 @@
+"""Availability of a hop from its fade margin: rain and multipath outage per ITU-R P.530-17.
+
+Given the flat fade margin of each path (dB, the margin left in median
+conditions, gases already counted in the budget), this module estimates:
+
+* rain outage: the percentage of an average year that rain attenuation on the
+  path exceeds the margin, by inverting ITU-R P.530-17 section 2.4.1 (eq. 34)
+  with R0.01 from the planner and gamma_R from ITU-R P.838-3;
+* multipath outage: the percentage of the average worst month that the
+  multipath fade depth exceeds the margin (ITU-R P.530-17 sections 2.3.1 and
+  2.3.2), converted to an average year with the geoclimatic factor Delta G of
+  section 2.3.4 when the path latitude is known;
+* the total outage as the sum of the two (the mechanisms are taken as not
+  occurring together; common practice), minutes per year, availability, and
+  the fade margin needed for a target availability (vectorised bisection).
+
+Everything works on arrays of paths; a single hop is a batch of one.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass, field, fields
+from typing import Literal
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from .errors import InputError, ModelValidityError
+from .losses.atmosphere import DEFAULT_PRESSURE_HPA, DEFAULT_TEMPERATURE_C, DEFAULT_WATER_VAPOUR_G_M3
+from .losses.multipath import (
+    check_multipath_validity,
+    fade_exceedance_envelope_pct,
+    shallow_fade_peak,
+    geoclimatic_factor,
+    multipath_validity_problem,
+    path_inclination_mrad,
+    worst_month_to_year_db,
+)
+from .losses.rain import (
+    P530_RAIN_MAX_PCT,
+    P530_RAIN_MIN_PCT,
+    polarisation_tilt_deg,
+    rain_attenuation_001_db,
+    rain_exceedance_pct,
+)
+
+__all__ = [
+    "MINUTES_PER_YEAR",
+    "DEFAULT_RAIN_RATE_MM_H",
+    "DEFAULT_DN1_N_PER_KM",
+    "DEFAULT_TERRAIN_ROUGHNESS_M",
+    "DEFAULT_TARGET_AVAILABILITY_PCT",
+    "ClimateSettings",
+    "AvailabilityResult",
+    "path_elevation_deg",
+    "outage_components_pct",
+    "evaluate_availability",
+    "required_fade_margin_db",
+    "AVAILABILITY_MIN_FREQ_GHZ",
+    "AVAILABILITY_MAX_FREQ_GHZ",
+    "LinkAvailability",
+    "availability_for_links",
+]
+
+#: Minutes in an average year of 365.25 days.
+MINUTES_PER_YEAR = 365.25 * 24.0 * 60.0
+#: Default R0.01, mm/h: rain climatic zone K of ITU-R P.837-1 (superseded), typical of
+#: temperate continental climates (from memory).  Give the site's value from ITU-R P.837.
+DEFAULT_RAIN_RATE_MM_H = 42.0
+#: Default dN1, N-units/km: a temperate inland value (common practice); take the
+#: site's value from the ITU-R P.453 maps.
+DEFAULT_DN1_N_PER_KM = -200.0
+#: Default sa, m: moderately hilly terrain (common practice); compute it from the
+#: terrain within 110 km x 110 km around the path (ITU-R P.530-17 section 2.3.1).
+DEFAULT_TERRAIN_ROUGHNESS_M = 40.0
+#: Default target availability, % of an average year (common practice).
+DEFAULT_TARGET_AVAILABILITY_PCT = 99.99
+
+_POLARISATIONS = ("horizontal", "vertical", "circular")
+
+
+@dataclass(frozen=True)
+class ClimateSettings:
+    """Climate and availability inputs of a hop, with stated defaults.
+
+    rain_rate_mm_h: R0.01, rain rate exceeded 0.01 % of an average year (1-min).
+    polarisation: 'horizontal', 'vertical', 'circular' or a tilt angle in degrees (kept as text).
+    target_availability_pct: availability aimed at, 99-99.999 % (P.530 rain range).
+    dn1_n_per_km: refractivity gradient dN1 (ITU-R P.453).
+    terrain_roughness_m: sa, terrain height standard deviation (ITU-R P.530).
+    pressure_hpa, temperature_c, water_vapour_g_m3: atmosphere for ITU-R P.676.
+    """
+
+    rain_rate_mm_h: float = DEFAULT_RAIN_RATE_MM_H
+    polarisation: str = "horizontal"
+    target_availability_pct: float = DEFAULT_TARGET_AVAILABILITY_PCT
+    dn1_n_per_km: float = DEFAULT_DN1_N_PER_KM
+    terrain_roughness_m: float = DEFAULT_TERRAIN_ROUGHNESS_M
+    pressure_hpa: float = DEFAULT_PRESSURE_HPA
+    temperature_c: float = DEFAULT_TEMPERATURE_C
+    water_vapour_g_m3: float = DEFAULT_WATER_VAPOUR_G_M3
+    #: Names of the settings the planner gave; None: any value equal to its default counts as a default.
+    given: frozenset[str] | None = field(default=None, compare=False)
+
+    def __post_init__(self) -> None:
+        numeric = {f.name: getattr(self, f.name) for f in fields(self) if f.name not in ("polarisation", "given")}
+        for name, value in numeric.items():
+            try:
+                number = float(value)
+            except (TypeError, ValueError):
+                raise InputError(f"{name} must be a number, got {value!r}") from None
+            if not np.isfinite(number):
+                raise InputError(f"{name} must be a finite number, got {value!r}")
+            object.__setattr__(self, name, number)
+        tau = polarisation_tilt_deg(self.polarisation)  # raises InputError if unknown
+        if isinstance(self.polarisation, str) and self.polarisation.strip().lower() in _POLARISATIONS:
+            object.__setattr__(self, "polarisation", self.polarisation.strip().lower())
+        else:
+            object.__setattr__(self, "polarisation", f"{tau:g}")
+        if self.rain_rate_mm_h < 0.0:
+            raise InputError(f"rain_rate_mm_h must be zero or positive, got {self.rain_rate_mm_h:g}")
+        if self.rain_rate_mm_h > 300.0:
+            raise InputError(
+                f"rain_rate_mm_h {self.rain_rate_mm_h:g} is above 300 mm/h; R0.01 on earth lies below about 250 mm/h"
+            )
+        if not 0.0 < self.target_availability_pct < 100.0:
+            raise InputError(
+                f"target_availability_pct must lie between 0 and 100 %, got {self.target_availability_pct:g}"
+            )
+        outage = 100.0 - self.target_availability_pct
+        if not (P530_RAIN_MIN_PCT * (1 - 1e-9) <= outage <= P530_RAIN_MAX_PCT * (1 + 1e-9)):
+            raise ModelValidityError(
+                f"target availability {self.target_availability_pct:g} % means an outage of {outage:.6g} %, "
+                "outside 0.001-1 %, the range of the ITU-R P.530-17 rain method (targets 99-99.999 %)"
+            )
+        if self.terrain_roughness_m < 0.0:
+            raise InputError(f"terrain_roughness_m must be zero or positive, got {self.terrain_roughness_m:g}")
+        if not -2000.0 <= self.dn1_n_per_km <= 200.0:
+            raise InputError(
+                f"dn1_n_per_km {self.dn1_n_per_km:g} is implausible; ITU-R P.453 maps give about -850 to 0 N-units/km"
+            )
+        if self.pressure_hpa <= 0.0:
+            raise InputError(f"pressure_hpa must be positive, got {self.pressure_hpa:g}")
+        if self.temperature_c <= -273.15:
+            raise InputError(f"temperature_c must be above -273.15 degC, got {self.temperature_c:g}")
+        if self.water_vapour_g_m3 < 0.0:
+            raise InputError(f"water_vapour_g_m3 must be zero or positive, got {self.water_vapour_g_m3:g}")
+
+    @property
+    def tilt_deg(self) -> float:
+        """Polarisation tilt tau, degrees (ITU-R P.838-3)."""
+        return polarisation_tilt_deg(self.polarisation)
+
+    def as_dict(self) -> dict[str, float | str]:
+        """Plain mapping of every setting (for JSON ``inputs``)."""
+        out = asdict(self)
+        out.pop("given")
+        return out
+
+    def defaults_used(self) -> tuple[str, ...]:
+        """Names of the settings left at their defaults (not given by the planner)."""
+        names = [f.name for f in fields(self) if f.name != "given"]
+        if self.given is not None:
+            return tuple(n for n in names if n not in self.given)
+        return tuple(n for n in names if getattr(self, n) == getattr(ClimateSettings, n))
+
+
+@dataclass(frozen=True)
+class AvailabilityResult:
+    """Outage and availability of each path (arrays of one shape), plus the assumptions made."""
+
+    fade_margin_db: np.ndarray
+    rain_attenuation_001_db: np.ndarray
+    rain_outage_pct: np.ndarray
+    rain_outside_method_range: np.ndarray
+    multipath_applicable: np.ndarray
+    multipath_occurrence_factor_pct: np.ndarray
+    multipath_worst_month_pct: np.ndarray
+    worst_month_to_year_db: np.ndarray
+    multipath_outage_pct: np.ndarray
+    total_outage_pct: np.ndarray
+    availability_pct: np.ndarray
+    target_availability_pct: float
+    required_fade_margin_db: np.ndarray
+    meets_target: np.ndarray
+    assumptions: tuple[str, ...] = field(default=())
+
+    @property
+    def rain_outage_min_per_year(self) -> np.ndarray:
+        """Rain outage, minutes per average year."""
+        return self.rain_outage_pct / 100.0 * MINUTES_PER_YEAR
+
+    @property
+    def multipath_outage_min_per_year(self) -> np.ndarray:
+        """Multipath outage, minutes per average year."""
+        return self.multipath_outage_pct / 100.0 * MINUTES_PER_YEAR
+
+    @property
+    def total_outage_min_per_year(self) -> np.ndarray:
+        """Total outage, minutes per average year."""
+        return self.total_outage_pct / 100.0 * MINUTES_PER_YEAR
+
+
+def path_elevation_deg(altitude_a_m: ArrayLike, altitude_b_m: ArrayLike, distance_m: ArrayLike) -> np.ndarray:
+    """Magnitude of the elevation angle of the straight path between the antennas, degrees (plane geometry)."""
+    rise = np.abs(np.asarray(altitude_b_m, dtype=float) - np.asarray(altitude_a_m, dtype=float))
+    return np.degrees(np.arctan2(rise, np.asarray(distance_m, dtype=float)))
+
+
+@dataclass(frozen=True)
+class _PathClimate:
+    """Margin-independent quantities of each path, computed once."""
+
+    freq_ghz: np.ndarray
+    a001_db: np.ndarray
+    p0_year_pct: np.ndarray  # multipath occurrence factor converted to the average year
+    p0_month_pct: np.ndarray
+    delta_g_db: np.ndarray
+    multipath_applicable: np.ndarray
+    peak_year: tuple[np.ndarray, np.ndarray]
+    peak_month: tuple[np.ndarray, np.ndarray]
+
+
+def _path_climate(
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    settings: ClimateSettings,
+    latitude_deg: ArrayLike | None,
+    multipath_outside_range: Literal["error", "exclude"],
+) -> _PathClimate:
+    d, f, ha, hb = np.broadcast_arrays(
+        np.asarray(distance_m, dtype=float),
+        np.asarray(freq_ghz, dtype=float),
+        np.asarray(altitude_a_m, dtype=float),
+        np.asarray(altitude_b_m, dtype=float),
+    )
+    if np.any(~(d > 0.0)):
+        raise InputError(f"path length must be positive metres, got {d[~(d > 0.0)].flat[0]!r}")
+    if np.any(~np.isfinite(ha)) or np.any(~np.isfinite(hb)):
+        raise InputError("antenna altitudes must be finite metres above sea level")
+    elevation = path_elevation_deg(ha, hb, d)
+    a001 = rain_attenuation_001_db(d, f, settings.rain_rate_mm_h, elevation, settings.tilt_deg)
+    if multipath_outside_range == "error":
+        check_multipath_validity(d, f)
+        applicable = np.ones(d.shape, dtype=bool)
+    elif multipath_outside_range == "exclude":
+        applicable = ~multipath_validity_problem(d, f)
+    else:
+        raise InputError(f"multipath_outside_range must be 'error' or 'exclude', got {multipath_outside_range!r}")
+    d_km = d / 1000.0
+    k = geoclimatic_factor(settings.dn1_n_per_km, settings.terrain_roughness_m)
+    ep = path_inclination_mrad(ha, hb, d)
+    h_low = np.minimum(ha, hb)
+    # ITU-R P.530-17 eq. 7 at A = 0 (the validity check is done above, per path).
+    p0 = k * d_km**3.4 * (1.0 + ep) ** -1.03 * f**0.8 * np.power(10.0, -0.00076 * h_low)
+    if latitude_deg is None:
+        delta_g = np.zeros(d.shape)
+    else:
+        delta_g = np.broadcast_to(worst_month_to_year_db(latitude_deg, d, ep), d.shape).copy()
+    p0_year = p0 * np.power(10.0, -delta_g / 10.0)
+    return _PathClimate(
+        freq_ghz=f,
+        a001_db=a001,
+        p0_year_pct=p0_year,
+        p0_month_pct=p0,
+        delta_g_db=delta_g,
+        multipath_applicable=applicable,
+        peak_year=shallow_fade_peak(p0_year),
+        peak_month=shallow_fade_peak(p0),
+    )
+
+
+def _components(
+    margin_db: np.ndarray, pc: _PathClimate, worst_month: bool = True
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray | None]:
+    """(rain %, rain outside range, multipath annual %, multipath worst-month % or None) at given margins."""
+    m = np.broadcast_to(np.asarray(margin_db, dtype=float), pc.a001_db.shape)
+    positive = m > 0.0
+    m_pos = np.where(positive, m, 0.0)
+    rain, outside = rain_exceedance_pct(np.where(positive, m, 1.0), pc.a001_db, pc.freq_ghz, "extend")
+    rain = np.where(positive, rain, 100.0)
+    outside = outside & positive
+    mp_year = fade_exceedance_envelope_pct(m_pos, pc.p0_year_pct, pc.peak_year)
+    mp_year = np.where(pc.multipath_applicable, np.where(positive, mp_year, 100.0), 0.0)
+    if not worst_month:
+        return rain, outside, mp_year, None
+    mp_month = fade_exceedance_envelope_pct(m_pos, pc.p0_month_pct, pc.peak_month)
+    mp_month = np.where(pc.multipath_applicable, np.where(positive, mp_month, 100.0), 0.0)
+    return rain, outside, mp_year, mp_month
+
+
+def outage_components_pct(
+    fade_margin_db: ArrayLike,
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    settings: ClimateSettings = ClimateSettings(),
+    latitude_deg: ArrayLike | None = None,
+    multipath_outside_range: Literal["error", "exclude"] = "error",
+) -> tuple[np.ndarray, np.ndarray]:
+    """Annual outage from rain and from multipath, % each, for fade margins in dB.
+
+    Rain: ITU-R P.530-17 section 2.4.1 inverted (P.838-3 gamma_R at the path
+    elevation and polarisation).  Multipath: ITU-R P.530-17 sections 2.3.1,
+    2.3.2 (falling envelope) and 2.3.4 (Delta G; worst month taken as the year
+    when ``latitude_deg`` is None).  A margin of 0 dB or less counts as 100 %.
+    """
+    pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
+    rain, _, mp_year, _ = _components(np.asarray(fade_margin_db, dtype=float), pc, worst_month=False)
+    return rain, mp_year
+
+
+def _solve_margin(target_outage_pct: float, pc: _PathClimate, iterations: int = 64) -> np.ndarray:
+    """Smallest fade margin whose total outage is at most the target, dB (vectorised bisection)."""
+    shape = pc.a001_db.shape
+    lo = np.zeros(shape)
+    hi = np.full(shape, 400.0)
+    rain_hi, _, mp_hi, _ = _components(hi, pc, worst_month=False)
+    unreachable = rain_hi + mp_hi > target_outage_pct
+    for _ in range(iterations):
+        mid = (lo + hi) / 2.0
+        rain, _, mp, _ = _components(mid, pc, worst_month=False)
+        ok = rain + mp <= target_outage_pct
+        hi = np.where(ok, mid, hi)
+        lo = np.where(ok, lo, mid)
+    return np.where(unreachable, np.nan, hi)
+
+
+def required_fade_margin_db(
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    settings: ClimateSettings = ClimateSettings(),
+    latitude_deg: ArrayLike | None = None,
+    multipath_outside_range: Literal["error", "exclude"] = "error",
+) -> np.ndarray:
+    """Fade margin needed so that rain plus multipath outage meets ``settings.target_availability_pct``, dB.
+
+    Solves outage_rain(M) + outage_multipath(M) = 100 - target by bisection on
+    all paths at once (both terms fall with M; ITU-R P.530-17 sections 2.3 and
+    2.4.1).  NaN where no margin up to 400 dB reaches the target.
+    """
+    pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
+    return _solve_margin(100.0 - settings.target_availability_pct, pc)
+
+
+def _assumptions(settings: ClimateSettings, latitude_given: bool, pc: _PathClimate, rain_outside: np.ndarray) -> tuple[str, ...]:
+    notes = [
+        "rain: ITU-R P.838-3 specific attenuation, ITU-R P.530-17 section 2.4.1 path statistics, "
+        f"R0.01 = {settings.rain_rate_mm_h:g} mm/h"
+        + (" (default: give the site's value from ITU-R P.837)" if "rain_rate_mm_h" in settings.defaults_used() else ""),
+        f"polarisation {settings.polarisation} (tilt {settings.tilt_deg:g} deg)"
+        + (" (default)" if "polarisation" in settings.defaults_used() else ""),
+        "multipath: ITU-R P.530-17 sections 2.3.1-2.3.2 with "
+        f"dN1 = {settings.dn1_n_per_km:g} N-units/km"
+        + (" (default)" if "dn1_n_per_km" in settings.defaults_used() else "")
+        + f", sa = {settings.terrain_roughness_m:g} m"
+        + (" (default)" if "terrain_roughness_m" in settings.defaults_used() else ""),
+        "total outage = rain + multipath (taken as not occurring together); a year has "
+        f"{MINUTES_PER_YEAR:.0f} minutes",
+    ]
+    if latitude_given:
+        notes.append("multipath converted from the average worst month to the average year (ITU-R P.530-17 section 2.3.4)")
+    else:
+        notes.append("multipath outage of the average worst month used for the whole year (no latitude given; pessimistic)")
+    if not np.all(pc.multipath_applicable):
+        notes.append(
+            "multipath not computed (taken as 0) where the frequency lies outside 15/d-45 GHz, "
+            "the range of ITU-R P.530-17 section 2.3"
+        )
+    if np.any(rain_outside):
+        notes.append(
+            "rain outage outside 0.001-1 %, the range of ITU-R P.530-17 eq. 34: the power law is extended there"
+        )
+    return tuple(notes)
+
+
+def evaluate_availability(
+    fade_margin_db: ArrayLike,
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    settings: ClimateSettings = ClimateSettings(),
+    latitude_deg: ArrayLike | None = None,
+    multipath_outside_range: Literal["error", "exclude"] = "error",
+) -> AvailabilityResult:
+    """Outage per mechanism, availability and the margin needed for the target, for many paths.
+
+    ``fade_margin_db`` is the flat fade margin at median conditions; antenna
+    altitudes are above sea level (m); ``latitude_deg`` (mid-path) enables the
+    worst-month to year conversion.  With ``multipath_outside_range="exclude"``
+    paths outside 15/d-45 GHz get no multipath term instead of an error.
+    Sources: ITU-R P.838-3; ITU-R P.530-17 sections 2.3 and 2.4.1.
+    """
+    margin = np.asarray(fade_margin_db, dtype=float)
+    if np.any(np.isnan(margin)):
+        raise InputError("fade margin is NaN; compute the link budget first")
+    pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
+    margin = np.broadcast_to(margin, pc.a001_db.shape)
+    rain, outside, mp_year, mp_month = _components(margin, pc)
+    total = np.minimum(rain + mp_year, 100.0)
+    target = settings.target_availability_pct
+    required = _solve_margin(100.0 - target, pc)
+    availability = 100.0 - total
+    return AvailabilityResult(
+        fade_margin_db=margin.copy(),
+        rain_attenuation_001_db=pc.a001_db,
+        rain_outage_pct=rain,
+        rain_outside_method_range=outside,
+        multipath_applicable=pc.multipath_applicable,
+        multipath_occurrence_factor_pct=pc.p0_month_pct,
+        multipath_worst_month_pct=mp_month,
+        worst_month_to_year_db=pc.delta_g_db,
+        multipath_outage_pct=mp_year,
+        total_outage_pct=total,
+        availability_pct=availability,
+        target_availability_pct=target,
+        required_fade_margin_db=required,
+        meets_target=availability >= target * (1 - 1e-15),
+        assumptions=_assumptions(settings, latitude_deg is not None, pc, outside),
+    )
+
+
+#: Frequency range over which terrahop estimates availability, GHz (ITU-R P.838-3 from
+#: 1 GHz; the ITU-R P.530-17 rain method up to 100 GHz).
+AVAILABILITY_MIN_FREQ_GHZ = 1.0
+AVAILABILITY_MAX_FREQ_GHZ = 100.0
+
+
+@dataclass(frozen=True)
+class LinkAvailability:
+    """Availability of each link of a batch: results for the rows that could be estimated.
+
+    ``rows[i]`` is the index of link i in ``result`` (-1 when not estimated) and
+    ``reasons[i]`` says why not; ``notes[i]`` holds assumptions particular to link i.
+    """
+
+    settings: ClimateSettings
+    result: AvailabilityResult | None
+    rows: np.ndarray
+    reasons: tuple[str | None, ...]
+    notes: tuple[tuple[str, ...], ...]
+    inclination_mrad: np.ndarray
+    latitude_deg: np.ndarray
+    distance_m: np.ndarray
+
+    def record(self, i: int) -> dict:
+        """JSON-ready ``availability`` block of link i (keys carry their units)."""
+        s = self.settings
+        j = int(self.rows[i])
+        if j < 0 or self.result is None:
+            return {"estimated": False, "reason": self.reasons[i], "target_availability_pct": s.target_availability_pct}
+        r = self.result
+        need = float(r.required_fade_margin_db[j])
+        return {
+            "estimated": True,
+            "method": "ITU-R P.530-17 sections 2.3 (multipath) and 2.4.1 (rain), ITU-R P.838-3",
+            "fade_margin_db": float(r.fade_margin_db[j]),
+            "availability_pct": float(r.availability_pct[j]),
+            "target_availability_pct": s.target_availability_pct,
+            "meets_target": bool(r.meets_target[j]),
+            "required_fade_margin_db": need if np.isfinite(need) else None,
+            "outage": {
+                "rain_pct": float(r.rain_outage_pct[j]),
+                "rain_min_per_year": float(r.rain_outage_min_per_year[j]),
+                "multipath_pct": float(r.multipath_outage_pct[j]),
+                "multipath_min_per_year": float(r.multipath_outage_min_per_year[j]),
+                "total_pct": float(r.total_outage_pct[j]),
+                "total_min_per_year": float(r.total_outage_min_per_year[j]),
+            },
+            "rain": {
+                "rain_rate_mm_h": s.rain_rate_mm_h,
+                "polarisation": s.polarisation,
+                "tilt_deg": s.tilt_deg,
+                "attenuation_001_db": float(r.rain_attenuation_001_db[j]),
+                "outside_method_range": bool(r.rain_outside_method_range[j]),
+            },
+            "multipath": {
+                "estimated": bool(r.multipath_applicable[j]),
+                "dn1_n_per_km": s.dn1_n_per_km,
+                "terrain_roughness_m": s.terrain_roughness_m,
+                "geoclimatic_factor": float(geoclimatic_factor(s.dn1_n_per_km, s.terrain_roughness_m)),
+                "inclination_mrad": float(self.inclination_mrad[i]),
+                "latitude_deg": float(self.latitude_deg[i]),
+                "occurrence_factor_pct": float(r.multipath_occurrence_factor_pct[j]),
+                "worst_month_pct": float(r.multipath_worst_month_pct[j]),
+                "worst_month_to_year_db": float(r.worst_month_to_year_db[j]),
+            },
+            "assumptions": [*self.notes[i]],
+        }
+
+
+def availability_for_links(
+    fade_margin_db: ArrayLike,
+    distance_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    altitude_a_m: ArrayLike,
+    altitude_b_m: ArrayLike,
+    latitude_deg: ArrayLike,
+    valid: ArrayLike,
+    settings: ClimateSettings = ClimateSettings(),
+) -> LinkAvailability:
+    """Availability of many links at once, skipping (with a reason) those it cannot estimate.
+
+    Links outside 1-100 GHz (ITU-R P.838-3, P.530-17 rain) or marked not
+    ``valid`` (no profile) get a reason instead of numbers; multipath is left
+    out (and said so) outside 15/d-45 GHz; paths over 60 km carry a note.
+    """
+    import warnings
+
+    from .errors import ModelValidityWarning
+    from .losses.rain import P530_RAIN_TESTED_MAX_DISTANCE_KM
+
+    d, f, ha, hb, lat, ok = np.broadcast_arrays(
+        np.asarray(distance_m, dtype=float),
+        np.asarray(freq_ghz, dtype=float),
+        np.asarray(altitude_a_m, dtype=float),
+        np.asarray(altitude_b_m, dtype=float),
+        np.asarray(latitude_deg, dtype=float),
+        np.asarray(valid, dtype=bool),
+    )
+    margin = np.broadcast_to(np.asarray(fade_margin_db, dtype=float), d.shape)
+    n = d.shape[0] if d.ndim else 1
+    d, f, ha, hb, lat, ok, margin = (np.atleast_1d(x) for x in (d, f, ha, hb, lat, ok, margin))
+    reasons: list[str | None] = [None] * n
+    in_band = (f >= AVAILABILITY_MIN_FREQ_GHZ) & (f <= AVAILABILITY_MAX_FREQ_GHZ)
+    usable = ok & in_band & np.isfinite(margin) & (d > 0) & np.isfinite(ha) & np.isfinite(hb)
+    for i in range(n):
+        if not ok[i]:
+            reasons[i] = "no profile for this path"
+        elif not in_band[i]:
+            reasons[i] = (
+                f"{f[i]:g} GHz is outside 1-100 GHz, the range of the ITU-R P.838-3 / P.530-17 "
+                "rain method; availability is not estimated"
+            )
+        elif not usable[i]:
+            reasons[i] = "fade margin or path geometry not available"
+    rows = np.full(n, -1, dtype=int)
+    idx = np.flatnonzero(usable)
+    rows[idx] = np.arange(idx.size)
+    result = None
+    shared: tuple[str, ...] = ()
+    if idx.size:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ModelValidityWarning)  # recorded per link below
+            result = evaluate_availability(
+                margin[idx], d[idx], f[idx], ha[idx], hb[idx], settings,
+                latitude_deg=lat[idx], multipath_outside_range="exclude",
+            )
+        atmosphere = ("pressure_hpa", "temperature_c", "water_vapour_g_m3")
+        shared = (
+            "fade margin taken from the budget at the design k (median conditions, gases included)",
+            f"gases: ITU-R P.676-12 Annex 1 at {settings.pressure_hpa:g} hPa, {settings.temperature_c:g} degC, "
+            f"{settings.water_vapour_g_m3:g} g/m^3"
+            + (" (defaults)" if all(a in settings.defaults_used() for a in atmosphere) else ""),
+            *(a for a in result.assumptions if "taken as 0" not in a and "is extended there" not in a),
+        )
+    notes: list[tuple[str, ...]] = []
+    for i in range(n):
+        j = rows[i]
+        if j < 0 or result is None:
+            notes.append(())
+            continue
+        extra = []
+        if not result.multipath_applicable[j]:
+            extra.append(
+                f"multipath not estimated (taken as 0): {f[i]:g} GHz on a {d[i] / 1000:.2f} km path lies outside "
+                "15/d-45 GHz, the range of ITU-R P.530-17 section 2.3"
+            )
+        if result.rain_outside_method_range[j]:
+            extra.append(
+                "rain outage lies outside 0.001-1 %, the range of ITU-R P.530-17 eq. 34; the power law is "
+                "extended there (below 0.001 % the figure is indicative only)"
+            )
+        if d[i] > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0:
+            extra.append(
+                f"path longer than {P530_RAIN_TESTED_MAX_DISTANCE_KM:g} km, the length to which the ITU-R P.530 rain "
+                "method was tested; rain outage less certain"
+            )
+        notes.append(shared + tuple(extra))
+    return LinkAvailability(
+        settings=settings,
+        result=result,
+        rows=rows,
+        reasons=tuple(reasons),
+        notes=tuple(notes),
+        inclination_mrad=path_inclination_mrad(ha, hb, np.where(d > 0, d, np.nan)),
+        latitude_deg=lat,
+        distance_m=d,
+    )

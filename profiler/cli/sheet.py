@@ -1,0 +1,223 @@
+"""``terrahop sheet``: profile sheets (PDF, PNG or SVG), one page per link."""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+from pathlib import Path
+from typing import Any
+
+import click
+
+from .options import (
+    analysis_options,
+    friendly_errors,
+    mount_options,
+    radio_options,
+    site_options,
+    surroundings_options,
+    terrain_options,
+)
+
+__all__ = ["sheet", "build_sheet_contents"]
+
+_SUFFIX_FORMATS = {".pdf": "pdf", ".png": "png", ".svg": "svg"}
+
+
+def _close_surroundings(surroundings: Any) -> None:
+    if surroundings is not None and surroundings.surface is not None:
+        surroundings.surface.close()
+
+
+def _analyse_resolved(resolved: Any, model: Any, surroundings: Any) -> Any:
+    """Analyse one resolved link on an open model, with obstructions and mounts (as ``terrahop link`` does)."""
+    from ..link import analyse_link
+
+    return analyse_link(model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings,
+                        name=resolved.title, surroundings=surroundings, mount_a=resolved.mount_a,
+                        mount_b=resolved.mount_b)
+
+
+def _open_model(resolved: Any) -> Any:
+    from ..terrain import ElevationModel
+
+    return ElevationModel(resolved.rasters, vertical_unit=resolved.vertical_unit,
+                          nodata_fill_m=resolved.nodata_fill_m)
+
+
+def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
+    from ..sheets.build import sheet_contents
+    from .options import open_surroundings_of, resolve_link
+
+    contents: list = []
+    checksums: dict[str, str] = {}
+    for f in files or (None,):
+        resolved = resolve_link(f, opts)
+        surroundings = open_surroundings_of(resolved)
+        try:
+            with _open_model(resolved) as model:
+                batch = _analyse_resolved(resolved, model, surroundings)
+                contents += sheet_contents(batch, model, title=title, checksums=checksums)
+        finally:
+            _close_surroundings(surroundings)
+    return contents
+
+
+def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
+                opts: dict, title: Any) -> list:
+    from ..errors import InputError
+    from ..io.pairs import parse_row_spec, read_pairs, select_pairs
+    from ..link import Site, analyse_links
+    from ..sheets.build import sheet_contents
+    from .options import open_surroundings_of, resolve_link
+
+    if opts.get("site_a") is not None or opts.get("site_b") is not None:
+        raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
+    table = read_pairs(pairs, layer=layer)
+    chosen = select_pairs(table, rows=parse_row_spec(rows) if rows else None, best=best)
+    if best is not None and not table.ranked:
+        click.echo(f"note: {pairs} has no fade-margin column; --best takes the first {best} row(s) in file order",
+                   err=True)
+    sites_a, sites_b, names = [], [], []
+    for r in chosen:
+        problem = r.problem
+        if problem is None:
+            try:
+                a = Site(r.name_a, r.lat_a, r.lon_a, _agl(opts.get("agl_a"), r.agl_a_m))
+                b = Site(r.name_b, r.lat_b, r.lon_b, _agl(opts.get("agl_b"), r.agl_b_m))
+                a.validate(f"row {r.row}: site a")
+                b.validate(f"row {r.row}: site b")
+                if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):
+                    raise InputError(f"row {r.row}: site a and site b are at the same position")
+            except InputError as exc:
+                problem = str(exc)
+        if problem is not None:
+            click.echo(f"skipped: {pairs}: {problem}", err=True)
+            continue
+        sites_a.append(a)
+        sites_b.append(b)
+        names.append(r.name)
+    if not sites_a:
+        raise InputError(f"{pairs}: no usable pair among the {len(chosen)} selected row(s)")
+    # Resolve terrain, radio and analysis settings once; the first pair stands in for the sites.
+    first = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg),
+                 site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
+    resolved = resolve_link(template, first)
+    n = len(sites_a)
+    mounts_a = None if resolved.mount_a is None else [resolved.mount_a] * n
+    mounts_b = None if resolved.mount_b is None else [resolved.mount_b] * n
+    surroundings = open_surroundings_of(resolved)
+    try:
+        with _open_model(resolved) as model:
+            batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
+                                  surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
+            good = []
+            for i, problem in enumerate(batch.problems):
+                if problem is None:
+                    good.append(i)
+                else:
+                    click.echo(f"skipped: {problem}", err=True)
+            if not good:
+                raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
+            return sheet_contents(batch, model, title=title, indices=good)
+    finally:
+        _close_surroundings(surroundings)
+
+
+def _agl(flag: float | None, column: float | None) -> float:
+    from ..errors import InputError
+
+    if flag is not None:
+        return float(flag)
+    if column is None:
+        raise InputError("antenna height above ground missing (no agl_a_m/agl_b_m value); "
+                         "add the column or give --agl-a/--agl-b")
+    return float(column)
+
+
+def build_sheet_contents(link_files: tuple[str, ...], opts: dict, title: Any, *, pairs: str | None = None,
+                         layer: str | None = None, rows: str | None = None, best: int | None = None) -> list:
+    """Sheet contents for link files (or flags alone), or for pairs picked from a table; numbered 1..N."""
+    from ..errors import InputError
+
+    if pairs:
+        if len(link_files) > 1:
+            raise InputError("with --pairs give at most one link file (its terrain, radio and analysis "
+                             "settings apply to every pair)")
+        contents = _from_pairs(pairs, link_files[0] if link_files else None, layer, rows, best, opts, title)
+    else:
+        if rows or best is not None or layer:
+            raise InputError("--rows, --best and --layer select rows of a pair table; give the table with --pairs")
+        contents = _from_link_files(link_files, opts, title)
+    n = len(contents)
+    return [dataclasses.replace(c, sheet_number=i + 1, sheet_count=n) for i, c in enumerate(contents)]
+
+
+def _output_format(out: str, fmt: str | None) -> str:
+    from ..errors import InputError
+
+    if fmt:
+        return fmt.lower()
+    suffix = Path(out).suffix.lower()
+    if suffix not in _SUFFIX_FORMATS:
+        raise InputError(f"cannot tell the sheet format from {out!r}; end the name in .pdf, .png or .svg "
+                         "or give --format")
+    return _SUFFIX_FORMATS[suffix]
+
+
+@click.command()
+@click.argument("link_files", nargs=-1, type=click.Path(dir_okay=False))
+@terrain_options
+@site_options
+@mount_options
+@surroundings_options
+@radio_options
+@analysis_options
+@click.option("--pairs", type=click.Path(dir_okay=False), default=None, metavar="TABLE",
+              help="CSV or GeoPackage of site pairs (e.g. a screening result): columns name_a, lat_a, lon_a, "
+                   "agl_a_m, name_b, lat_b, lon_b, agl_b_m; optional name, fade_margin_db.")
+@click.option("--layer", default=None, help="Layer of the --pairs GeoPackage [default: the first].")
+@click.option("--rows", default=None, metavar="LIST", help="Rows of --pairs to draw, counted from 1: e.g. 1,3,5-7.")
+@click.option("--best", type=int, default=None, metavar="N",
+              help="Draw the N pairs of --pairs with the highest fade_margin_db (file order if no such column).")
+@click.option("-o", "--out", required=True, type=click.Path(dir_okay=False),
+              help="Output file. PDF: one page per link. PNG/SVG: one file per link (-NN-name added when several).")
+@click.option("--format", "fmt", type=click.Choice(["pdf", "png", "svg"], case_sensitive=False), default=None,
+              help="Output format [default: from the --out suffix].")
+@click.option("--page", type=click.Choice(["a4", "letter", "a3"], case_sensitive=False), default="a4",
+              show_default=True, help="Page size, landscape.")
+@click.option("--units", type=click.Choice(["m", "ft"]), default="m", show_default=True,
+              help="Height unit of the drawing and table.")
+@click.option("--dpi", type=click.IntRange(50, 1200), default=200, show_default=True,
+              help="Resolution of PNG output.")
+@click.option("--project", default="", help="Project name for the title block.")
+@click.option("--prepared-by", default="", help="Who prepared the sheet (title block).")
+@click.option("--checked-by", default="", help="Who checked the sheet (title block; blank for hand entry).")
+@click.option("--date", "date_text", default=None, help="Date in the title block [default: today].")
+@click.option("--revision", default="A", show_default=True, help="Revision mark in the title block.")
+@friendly_errors
+def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, rows: str | None, best: int | None,
+          out: str, fmt: str | None, page: str, units: str, dpi: int, project: str, prepared_by: str,
+          checked_by: str, date_text: str | None, revision: str, **opts: Any) -> None:
+    """Draw profile sheets for permit files: one page per link.
+
+    LINK_FILES are TOML link files (several allowed; flags override their
+    values), or none with the link given by flags as for `terrahop link`.
+    With --pairs TABLE the sites come from a table of pairs; at most one link
+    file then supplies terrain, radio and analysis settings for every pair.
+    """
+    from ..sheets import TitleBlock, write_sheets
+
+    fmt = _output_format(out, fmt)
+    title = TitleBlock(
+        project=project, prepared_by=prepared_by, checked_by=checked_by,
+        date=date_text if date_text is not None else _dt.date.today().isoformat(), revision=revision,
+    )
+    contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
+    paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
+    pages = f"{len(contents)} page{'s' if len(contents) != 1 else ''}"
+    if fmt == "pdf":
+        click.echo(f"wrote {paths[0]} ({pages})")
+    else:
+        for p in paths:
+            click.echo(f"wrote {p}")

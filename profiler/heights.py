@@ -1,0 +1,272 @@
+"""Lowest antenna heights that meet the clearance criterion.
+
+The criterion asks, at every interior sample i and at each k-factor, that
+the line between the antennas clear the surface plus earth bulge by c F1_i
+(c = the criterion's fraction of the first Fresnel radius at that k).  The
+line's height there is A (1 - t_i) + B t_i, with A and B the antenna
+elevations and t_i = d_i / d, so each sample gives one linear constraint
+
+    A (1 - t_i) + B t_i >= r_i,    r_i = surface_i + bulge_i + c F1_i.
+
+``r_i`` is read from the engine's own clearance arrays (line minus
+clearance plus c F1, from :func:`profiler.link.evaluate_profiles`), so there
+is no second implementation of the geometry.  For one end, the least height
+is a maximum over the samples; for both ends, every height of a on a grid
+(multiples of ``step_m`` above the site's reference, up to its mast limit)
+gives the least height of b, and the pair of least sum is chosen.  Every
+pair reported is then evaluated by the engine, and the chosen pair is
+checked with one step less at each end it solved (which must fail).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+from .link import AtK, LinkBatch, evaluate_profiles
+from .profile import Profiles
+
+__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths"]
+
+#: Which ends to solve: a (b fixed), b (a fixed) or both (least sum).
+SOLVE_CHOICES = ("a", "b", "both")
+
+#: Default mast limit per site above its reference, m (an arbitrary default; set your own).
+DEFAULT_MAX_MAST_M = 30.0
+
+_TOLERANCE_M = 1e-9
+
+
+@dataclass(frozen=True)
+class HeightPair:
+    """Antenna heights above each site's reference (ground or roof) and their verdict by the engine."""
+
+    antenna_a_m: float
+    antenna_b_m: float
+    antenna_a_amsl_m: float
+    antenna_b_amsl_m: float
+    f1_fraction: float
+    f1_fraction_worst: float
+    meets_criterion: bool
+
+    @property
+    def sum_m(self) -> float:
+        return self.antenna_a_m + self.antenna_b_m
+
+    def record(self) -> dict:
+        return {**dataclasses.asdict(self), "sum_m": self.sum_m}
+
+
+@dataclass(frozen=True)
+class HeightSolution:
+    """The answer of :func:`solve_heights` (heights in metres)."""
+
+    solve: str
+    step_m: float
+    reference_a: str
+    reference_b: str
+    base_a_m: float
+    base_b_m: float
+    max_mast_a_m: float
+    max_mast_b_m: float
+    criterion: str
+    chosen: HeightPair | None
+    pairs: tuple[HeightPair, ...]
+    one_step_lower: tuple[HeightPair, ...]
+    at_limits: HeightPair
+
+    @property
+    def feasible(self) -> bool:
+        return self.chosen is not None
+
+    def record(self) -> dict:
+        """JSON-ready form."""
+        return {
+            "solve": self.solve,
+            "step_m": self.step_m,
+            "criterion": self.criterion,
+            "feasible": self.feasible,
+            "sites": {
+                "a": {"reference": self.reference_a, "reference_m": self.base_a_m, "max_mast_m": self.max_mast_a_m},
+                "b": {"reference": self.reference_b, "reference_m": self.base_b_m, "max_mast_m": self.max_mast_b_m},
+            },
+            "chosen": None if self.chosen is None else self.chosen.record(),
+            "pairs": [p.record() for p in self.pairs],
+            "one_step_lower": [p.record() for p in self.one_step_lower],
+            "at_limits": self.at_limits.record(),
+        }
+
+
+def take_paths(profiles: Profiles, index: np.ndarray) -> Profiles:
+    """Profiles of the paths at ``index`` (repeats allowed), every per-path field taken alike."""
+    n = len(profiles.n_samples)
+    index = np.asarray(index, dtype=int)
+
+    def take(value: Any) -> Any:
+        if isinstance(value, np.ndarray) and value.ndim >= 1 and value.shape[0] == n:
+            return value[index]
+        if isinstance(value, tuple) and len(value) == n:
+            return tuple(value[j] for j in index)
+        if dataclasses.is_dataclass(value) and not isinstance(value, type):
+            return dataclasses.replace(value, **{f.name: take(getattr(value, f.name))
+                                                 for f in dataclasses.fields(value)})
+        return value
+
+    return dataclasses.replace(profiles, **{f.name: take(getattr(profiles, f.name))
+                                            for f in dataclasses.fields(profiles)})
+
+
+def _requirement_m(at: AtK, fraction: float, profiles: Profiles, i: int) -> tuple[np.ndarray, np.ndarray]:
+    """Least line height r at the interior samples of path i, and t = d / length there."""
+    c = at.clearance
+    inside = profiles.interior[i]
+    need = c.line_m[i] - c.clearance_m[i] + fraction * c.f1_m[i]
+    t = profiles.distance_m[i] / profiles.length_m[i]
+    return need[inside], t[inside]
+
+
+def _grid(max_m: float, step_m: float) -> np.ndarray:
+    return np.arange(int(math.floor(max_m / step_m + _TOLERANCE_M)) + 1) * step_m
+
+
+def _up(height_m: np.ndarray, step_m: float) -> np.ndarray:
+    """Round up to the grid of multiples of step, never below 0."""
+    return np.maximum(np.ceil(np.asarray(height_m) / step_m - _TOLERANCE_M), 0.0) * step_m
+
+
+def solve_heights(
+    batch: LinkBatch,
+    *,
+    solve: str = "both",
+    max_mast_a_m: float = DEFAULT_MAX_MAST_M,
+    max_mast_b_m: float = DEFAULT_MAX_MAST_M,
+    step_m: float = 1.0,
+    i: int = 0,
+) -> HeightSolution:
+    """Lowest antenna heights for link ``i`` of ``batch`` that meet its clearance criterion.
+
+    ``solve`` 'a' or 'b' solves that end with the other at its height in the
+    batch; 'both' minimises the sum.  Heights are above each site's
+    reference: the roof for a site given above its roof, else the ground.
+    """
+    if solve not in SOLVE_CHOICES:
+        raise InputError(f"solve must be one of {', '.join(SOLVE_CHOICES)}, got {solve!r}")
+    for name, value in (("max_mast_a_m", max_mast_a_m), ("max_mast_b_m", max_mast_b_m)):
+        if not math.isfinite(value) or value < 0:
+            raise InputError(f"{name} must be 0 m or more, got {value!r}")
+    if not math.isfinite(step_m) or step_m <= 0:
+        raise InputError(f"height step must be greater than 0 m, got {step_m!r}")
+    if batch.problems[i] is not None:
+        raise InputError(batch.problems[i])
+    profiles, settings = batch.profiles, batch.settings
+    crit = settings.criterion
+    ref_a, base_a = _reference(batch, "a", i)
+    ref_b, base_b = _reference(batch, "b", i)
+    now_a = float(batch.antenna_a_amsl_m[i]) - base_a
+    now_b = float(batch.antenna_b_amsl_m[i]) - base_b
+    r1, t1 = _requirement_m(batch.design, crit.min_f1_fraction, profiles, i)
+    r2, t2 = _requirement_m(batch.worst, crit.min_f1_fraction_worst, profiles, i)
+    need, t = np.concatenate([r1, r2]), np.concatenate([t1, t2])
+
+    def least_b(a_m: np.ndarray) -> np.ndarray:
+        a_amsl = base_a + np.asarray(a_m, dtype=float)[..., None]
+        top = np.max((need - a_amsl * (1.0 - t)) / t, axis=-1, initial=-np.inf)
+        return _up(top - base_b, step_m)
+
+    def least_a(b_m: np.ndarray) -> np.ndarray:
+        b_amsl = base_b + np.asarray(b_m, dtype=float)[..., None]
+        top = np.max((need - b_amsl * t) / (1.0 - t), axis=-1, initial=-np.inf)
+        return _up(top - base_a, step_m)
+
+    if solve == "both":
+        grid_a = _grid(max_mast_a_m, step_m)
+        b_for_a = least_b(grid_a)
+        ok = b_for_a <= max_mast_b_m + _TOLERANCE_M
+        running = np.minimum.accumulate(np.where(ok, b_for_a, np.inf))
+        frontier = ok & (b_for_a < np.r_[np.inf, running[:-1]])
+        candidates = np.column_stack([grid_a[frontier], b_for_a[frontier]])
+    elif solve == "a":
+        a = float(least_a(np.array(now_b))) + step_m * np.arange(4)
+        a = a[a <= max_mast_a_m + _TOLERANCE_M]
+        candidates = np.column_stack([a, np.full(a.shape, now_b)])
+    else:
+        b = float(least_b(np.array(now_a))) + step_m * np.arange(4)
+        b = b[b <= max_mast_b_m + _TOLERANCE_M]
+        candidates = np.column_stack([np.full(b.shape, now_a), b])
+    limits = np.array([
+        max_mast_a_m if solve != "b" else now_a,
+        max_mast_b_m if solve != "a" else now_b,
+    ])
+
+    def verify(pairs: np.ndarray) -> list[HeightPair]:
+        if len(pairs) == 0:
+            return []
+        sub = take_paths(profiles, np.full(len(pairs), i))
+        amsl_a = base_a + pairs[:, 0]
+        amsl_b = base_b + pairs[:, 1]
+        radio = batch.radio
+        with np.errstate(invalid="ignore", divide="ignore"):
+            design = evaluate_profiles(sub, amsl_a, amsl_b, radio, settings.k, settings)
+            worst = evaluate_profiles(sub, amsl_a, amsl_b, radio, settings.k_worst, settings)
+        f1 = design.clearance.worst_f1_fraction
+        f1w = worst.clearance.worst_f1_fraction
+        meets = crit.met(f1, f1w)
+        return [
+            HeightPair(float(p[0]), float(p[1]), float(a), float(b), float(x), float(y), bool(m))
+            for p, a, b, x, y, m in zip(pairs, amsl_a, amsl_b, f1, f1w, meets)
+        ]
+
+    pairs = verify(candidates)
+    # Rounding can leave a pair a hair short of the criterion: raise the solved end a step.
+    for _ in range(3):
+        short = [j for j, p in enumerate(pairs) if not p.meets_criterion]
+        if not short:
+            break
+        bump = np.array([step_m, 0.0]) if solve == "a" else np.array([0.0, step_m])
+        fixed = candidates.copy()
+        fixed[short] += bump
+        keep = (fixed[:, 0] <= limits[0] + _TOLERANCE_M) & (fixed[:, 1] <= limits[1] + _TOLERANCE_M)
+        candidates = fixed[keep]
+        pairs = verify(candidates)
+    pairs = [p for p in pairs if p.meets_criterion]
+    chosen = None
+    if pairs:
+        chosen = min(pairs, key=lambda p: (round(p.sum_m, 9), round(max(p.antenna_a_m, p.antenna_b_m), 9),
+                                           p.antenna_a_m))
+    lower = []
+    if chosen is not None:
+        tries = []
+        if solve in ("a", "both") and chosen.antenna_a_m >= step_m - _TOLERANCE_M:
+            tries.append([chosen.antenna_a_m - step_m, chosen.antenna_b_m])
+        if solve in ("b", "both") and chosen.antenna_b_m >= step_m - _TOLERANCE_M:
+            tries.append([chosen.antenna_a_m, chosen.antenna_b_m - step_m])
+        lower = verify(np.array(tries).reshape(-1, 2))
+    at_limits = verify(limits[None, :])[0]
+    return HeightSolution(
+        solve=solve,
+        step_m=step_m,
+        reference_a=ref_a,
+        reference_b=ref_b,
+        base_a_m=base_a,
+        base_b_m=base_b,
+        max_mast_a_m=max_mast_a_m,
+        max_mast_b_m=max_mast_b_m,
+        criterion=crit.describe(settings.k, settings.k_worst),
+        chosen=chosen,
+        pairs=tuple(pairs),
+        one_step_lower=tuple(lower),
+        at_limits=at_limits,
+    )
+
+
+def _reference(batch: LinkBatch, tag: str, i: int) -> tuple[str, float]:
+    """('roof', roof elevation) for a site given above its roof, else ('ground', ground elevation)."""
+    placements = getattr(batch, f"placements_{tag}", None)
+    if placements is not None and placements[i].reference == "roof" and placements[i].roof is not None:
+        return "roof", float(placements[i].roof.roof_m)
+    return "ground", float(getattr(batch, f"ground_{tag}_m")[i])

@@ -1,0 +1,274 @@
+"""The profile drawing of one link on a matplotlib Axes.
+
+The drawing is flat-ray: the radio ray is a straight line and the terrain is
+raised by the earth bulge h = d1 d2 / (2 k a), a = 6371 km (handbook form,
+ITU-R P.453-14 / P.526-15 effective earth radius).  The terrain at the
+worst-case k is drawn as a dashed line on the same axes.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .content import CLUTTER_KINDS, ProfileDrawing
+from .style import COLOURS
+from .table import HEIGHT_UNITS, format_k, height_text
+
+__all__ = ["ProfileArtists", "draw_profile", "wall_samples", "curvature_note", "vertical_exaggeration", "profile_limits_m"]
+
+_CLUTTER_STYLE = {
+    "buildings": dict(facecolor="#C9C9C9", edgecolor="#3D3D3D", hatch="////", linewidth=0.5),
+    "trees": dict(facecolor=COLOURS["trees"], edgecolor="#00664A", hatch="oo", linewidth=0.5, alpha=0.55),
+    "surface model": dict(facecolor=COLOURS["surface model"], edgecolor="#8A8200", linewidth=0.5, alpha=0.7),
+    "clutter": dict(facecolor="#BDBDBD", edgecolor="#4D4D4D", hatch="xx", linewidth=0.5),
+}
+
+
+@dataclass
+class ProfileArtists:
+    """Handles of the drawn elements (for the legend and for tests)."""
+
+    legend: list
+    worst_marker: Any
+    worst_label: Any
+    clutter: dict
+    y_limits: tuple[float, float]
+    lines: dict
+
+
+def wall_samples(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Indices that repeat the first and last sample of every run of ``mask``, and which copies sit on the ground.
+
+    Drawing ``a[idx]`` with the flagged copies at ground height gives an
+    obstruction vertical walls at its first and last sample (the footprint
+    edges, where the profile has them), instead of slopes to the neighbours.
+    """
+    mask = np.asarray(mask, dtype=bool)
+    start = mask & ~np.r_[False, mask[:-1]]
+    end = mask & ~np.r_[mask[1:], False]
+    reps = 1 + start.astype(int) + end.astype(int)
+    idx = np.repeat(np.arange(mask.size), reps)
+    first = np.cumsum(reps) - reps
+    zero = np.zeros(idx.size, dtype=bool)
+    zero[first[start]] = True
+    zero[(first + reps - 1)[end]] = True
+    return idx, zero
+
+
+def curvature_note(d: ProfileDrawing) -> str:
+    """One sentence saying how the earth's curvature is drawn."""
+    return (
+        f"Earth curvature: the ray is drawn straight and the terrain raised by the earth bulge "
+        f"d1·d2/(2·k·6371 km) at the design k = {format_k(d.k)} (shaded ground, curved base line); "
+        f"the dashed line is the terrain at the worst-case k = {format_k(d.k_worst)}."
+    )
+
+
+def profile_limits_m(d: ProfileDrawing) -> tuple[float, float, float]:
+    """Bottom, top and base-curve offset (m) of the drawing's vertical axis."""
+    surf_d = d.surface_m + d.bulge_m
+    surf_w = d.surface_m + d.bulge_worst_m
+    low = float(np.nanmin(d.ground_m))
+    high = float(np.nanmax(np.concatenate([
+        d.line_m + d.f1_m, surf_d, surf_w, [d.antenna_a_amsl_m, d.antenna_b_amsl_m],
+    ])))
+    span = max(high - low, 10.0)
+    bottom = low - 0.10 * span
+    top = high + 0.34 * span
+    return bottom, top, span
+
+
+def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
+                 type_scale: float = 1.0, datum_label: str = "") -> ProfileArtists:
+    """Draw terrain, clutter, ray, Fresnel zone, masts and the worst point on ``ax``.
+
+    Heights are shown in ``units`` ("m" or "ft"); distances in km from site a.
+    """
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    fs = 7.0 * type_scale
+    ts = type_scale
+    u = 1.0 / HEIGHT_UNITS[units]
+    x = d.distance_m / 1000.0
+    bottom_m, top_m, _ = profile_limits_m(d)
+    base = (bottom_m + d.bulge_m) * u
+    ground = (d.ground_m + d.bulge_m) * u
+    surface = (d.surface_m + d.bulge_m) * u
+    surface_w = (d.surface_m + d.bulge_worst_m) * u
+    line = d.line_m * u
+    f1 = d.f1_m * u
+    # The ray and the Fresnel zone are smooth: draw them on a dense grid, not only at terrain samples.
+    xs = np.linspace(0.0, x[-1], max(600, len(x)))
+    line_s = np.interp(xs, x, line)
+    if np.isfinite(d.freq_ghz):
+        from ..geometry import fresnel_radius_m
+
+        f1_s = fresnel_radius_m(xs * 1000.0, np.maximum(d.length_m - xs * 1000.0, 0.0), d.freq_ghz) * u
+    else:
+        f1_s = np.interp(xs, x, f1)
+    kd, kw = format_k(d.k), format_k(d.k_worst)
+    legend: list = []
+
+    # Terrain at the design k, filled down to the curved base line.
+    ax.fill_between(x, base, ground, facecolor=COLOURS["ground_fill"], edgecolor="none", zorder=1)
+    lines: dict = {}
+    lines["ground"], = ax.plot(x, ground, color=COLOURS["ground_edge"], lw=0.9 * ts, zorder=3)
+    lines["base"], = ax.plot(x, base, color=COLOURS["datum"], lw=0.7 * ts, zorder=3)
+    legend.append(Patch(facecolor=COLOURS["ground_fill"], edgecolor=COLOURS["ground_edge"], lw=0.8 * ts,
+                        label=f"terrain at design k = {kd}"))
+
+    # Obstructions (buildings, trees, surface model) on top of the ground.
+    clutter_artists: dict = {}
+    has_clutter = d.clutter_m > 0
+    if has_clutter.any():
+        if d.clutter_kind is None:
+            kinds = {"clutter": has_clutter}
+        else:
+            kinds = {}
+            for code in np.unique(d.clutter_kind[has_clutter]):
+                name = CLUTTER_KINDS.get(int(code), "clutter")
+                kinds[name] = kinds.get(name, np.zeros_like(has_clutter)) | (has_clutter & (d.clutter_kind == code))
+        for name, mask in kinds.items():
+            style = _CLUTTER_STYLE.get(name, _CLUTTER_STYLE["clutter"])
+            idx, zero = wall_samples(mask)
+            top = np.where(zero, ground[idx], surface[idx])
+            clutter_artists[name] = ax.fill_between(x[idx], ground[idx], top, where=mask[idx], zorder=2, **style)
+            label = "obstructions" if name == "clutter" else name
+            legend.append(Patch(label=label, **{k: v for k, v in style.items() if k != "linewidth"}))
+
+    # The worst-case surface, with the same vertical walls at obstruction edges.
+    idx, zero = wall_samples(has_clutter)
+    surface_w_drawn = np.where(zero, ((d.ground_m + d.bulge_worst_m) * u)[idx], surface_w[idx])
+    lines["worst_k"], = ax.plot(x[idx], surface_w_drawn, color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
+                                zorder=4)
+    legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
+                         label=f"terrain at worst-case k = {kw}"))
+    legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7 * ts, label=f"earth curvature, k = {kd}"))
+
+    # First Fresnel zone around the straight line, and the criterion boundary.
+    ax.fill_between(xs, line_s - f1_s, line_s + f1_s, facecolor=COLOURS["fresnel"], alpha=0.22, lw=0 * ts, zorder=2.5)
+    lines["f1_upper"], = ax.plot(xs, line_s + f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
+    lines["f1_lower"], = ax.plot(xs, line_s - f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
+    legend.append(Patch(facecolor=COLOURS["fresnel"], alpha=0.35, edgecolor=COLOURS["fresnel"],
+                        label="first Fresnel zone (F1)"))
+    frac = d.criterion_f1_fraction
+    if frac > 0:
+        lines["criterion"], = ax.plot(xs, line_s - frac * f1_s, color=COLOURS["criterion"], lw=1.1 * ts,
+                                      ls=(0, (1.5, 1.5)), zorder=5)
+        legend.append(Line2D([], [], color=COLOURS["criterion"], lw=1.1 * ts, ls=(0, (1.5, 1.5)),
+                             label=f"{frac:g} F1 below the line (criterion)"))
+    lines["line"], = ax.plot(xs, line_s, color=COLOURS["line"], lw=1.4 * ts, zorder=6)
+    legend.append(Line2D([], [], color=COLOURS["line"], lw=1.4 * ts, label="line between antenna centres"))
+
+    # Masts, each labelled with its antenna height above ground at mid-height.
+    a_rec, b_rec = record["sites"]["a"], record["sites"]["b"]
+    mast_labels: list = []
+    mast_tops: list = []
+    for xi, g, top, rec, ha, dx in (
+        (x[0], d.ground_a_m * u, d.antenna_a_amsl_m * u, a_rec, "left", 5),
+        (x[-1], d.ground_b_m * u, d.antenna_b_amsl_m * u, b_rec, "right", -5),
+    ):
+        # A mast on a roof stands on the roof; its label gives the height above the roof.
+        if rec.get("roof_m") is not None and rec.get("antenna_above_roof_m") is not None:
+            g = float(rec["roof_m"]) * u
+            label = f"{height_text(rec['antenna_above_roof_m'], units)} above roof"
+        else:
+            label = f"{height_text(rec['antenna_agl_m'], units)} AGL"
+        ax.plot([xi, xi], [g, top], color=COLOURS["mast"], lw=2.4 * ts, solid_capstyle="butt", zorder=7)
+        ax.plot([xi], [top], marker="D", ms=4.5 * ts, color=COLOURS["mast"], zorder=8, clip_on=False)
+        mast_labels.append(ax.annotate(
+            label, xy=(xi, (g + top) / 2), xytext=(dx, 0),
+            textcoords="offset points", ha=ha, va="center", fontsize=fs * 0.95, color=COLOURS["ink"], zorder=9,
+            bbox=dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.85),
+        ))
+        mast_tops.append((xi, g, top, dx))
+    legend.append(Line2D([], [], color=COLOURS["mast"], lw=2.4 * ts, marker="D", ms=4 * ts,
+                         label="mast and antenna"))
+
+    # The worst point at the design k.
+    j = d.worst_index
+    c = record["clearance"]
+    blocked = not c["line_of_sight"]
+    ax.plot([x[j], x[j]], [surface[j], line[j]], color=COLOURS["worst_point"], lw=1.6 * ts, zorder=8)
+    marker, = ax.plot([x[j]], [surface[j]], marker="o", ms=6 * ts, mfc=COLOURS["worst_point"],
+                      mec="white", mew=0.8 * ts, ls="none", zorder=9)
+    legend.append(Line2D([], [], color=COLOURS["worst_point"], lw=1.6 * ts, marker="o", ms=5 * ts,
+                         mfc=COLOURS["worst_point"], mec="white", label="worst point and its clearance"))
+    head = "OBSTRUCTED" if blocked else "worst point"
+    text = (
+        f"{head} at k = {kd}: {c['worst_distance_km']:.3f} km from a\n"
+        f"clearance {height_text(c['worst_clearance_m'], units, signed=True)} = {c['worst_f1_fraction']:+.2f} F1"
+    )
+    if blocked:
+        text += " (surface above the line)"
+    length_km = x[-1]
+    xa = min(max(x[j] / length_km, 0.28), 0.72) if length_km > 0 else 0.5
+    worst_label = ax.annotate(
+        text, xy=(x[j], max(surface[j], line[j])), xytext=(xa, 0.955), textcoords="axes fraction",
+        ha="center", va="top", fontsize=fs, color=COLOURS["ink"], zorder=10,
+        bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=COLOURS["worst_point"], lw=0.8 * ts),
+        arrowprops=dict(arrowstyle="-|>", color=COLOURS["worst_point"], lw=0.8 * ts, shrinkA=0, shrinkB=4),
+    )
+
+    ax.set_xlim(0.0, length_km)
+    ax.set_ylim(bottom_m * u, top_m * u)
+    _move_off_worst_point(ax, mast_labels, mast_tops, (x[j], min(surface[j], line[j]), max(surface[j], line[j])))
+    ax.set_xlabel("Distance from site a, km", fontsize=fs * 1.05, labelpad=2)
+    ylabel = f"Elevation, {units}"
+    if datum_label:
+        ylabel += f" ({datum_label})"
+    ax.set_ylabel(ylabel, fontsize=fs * 1.05, labelpad=3)
+    ax.tick_params(labelsize=fs * 0.95, length=2.5, width=0.6, pad=2)
+    ax.minorticks_on()
+    ax.grid(True, which="major", color=COLOURS["rule"], lw=0.45 * ts, alpha=0.8)
+    ax.grid(True, which="minor", color=COLOURS["rule"], lw=0.25 * ts, alpha=0.45)
+    ax.set_axisbelow(True)
+    for spine in ax.spines.values():
+        spine.set_linewidth(0.7)
+    return ProfileArtists(legend, marker, worst_label, clutter_artists, (bottom_m * u, top_m * u), lines)
+
+
+def _move_off_worst_point(ax: Any, labels: list, masts: list, worst: tuple[float, float, float]) -> None:
+    """Move a mast label that would cover the worst point: mid-mast, else above the antenna, else below the foot."""
+    renderer = ax.figure.canvas.get_renderer()
+    xw, y_lo, y_hi = worst
+    (px0, py0), (_, py1) = ax.transData.transform([(xw, y_lo), (xw, y_hi)])
+    pad = 9.0
+
+    def hits() -> bool:
+        box = label.get_window_extent(renderer)
+        return box.x0 - pad <= px0 <= box.x1 + pad and box.y0 - pad <= py1 and py0 <= box.y1 + pad
+
+    for label, (xi, foot, top, dx) in zip(labels, masts):
+        mid = (xi, (foot + top) / 2)
+        for xy, offset, va, rotation in (
+            ((xi, top), (dx, 6), "bottom", 0),
+            ((xi, foot), (dx, -5), "top", 0),
+            (mid, (dx * 0.6, 0), "center", 90),
+        ):
+            if not hits():
+                break
+            label.xy = xy
+            label.set_position(offset)
+            label.set_verticalalignment(va)
+            label.set_rotation(rotation)
+        if hits():  # nowhere free: back to mid-mast, drawn beneath the worst point
+            label.xy = mid
+            label.set_position((dx, 0))
+            label.set_verticalalignment("center")
+            label.set_rotation(0)
+            label.set_zorder(7.5)
+
+
+def vertical_exaggeration(ax: Any, units: str = "m") -> float:
+    """Ratio of the drawing's vertical to horizontal scale (metres per inch along each axis)."""
+    bbox = ax.get_window_extent().transformed(ax.figure.dpi_scale_trans.inverted())
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    horiz = (x1 - x0) * 1000.0 / bbox.width
+    vert = (y1 - y0) * HEIGHT_UNITS[units] / bbox.height
+    return horiz / vert if vert > 0 else float("nan")

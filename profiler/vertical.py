@@ -1,0 +1,134 @@
+"""Vertical datums: which one heights refer to, and ellipsoidal -> raster datum.
+
+terrahop works in the vertical datum of the elevation rasters.  A planner
+who measured an antenna with GNSS has a height above the WGS84 ellipsoid;
+it is converted to the raster's datum with a geoid grid through PROJ
+(H = h - N, N the geoid undulation), or refused with a message when the
+raster's datum is unknown or PROJ lacks the grid.  Datums are never mixed
+silently.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import DataError, InputError
+from .terrain import ElevationModel
+
+__all__ = ["GeoidConversion", "raster_vertical_crs", "ellipsoidal_to_raster_datum", "SYSTEM_GRID_DIRS"]
+
+#: Folders where operating-system packages put PROJ grids (Debian's proj-data
+#: installs egm96_15.gtx in /usr/share/proj); searched after pyproj's own.
+SYSTEM_GRID_DIRS = ("/usr/share/proj", "/usr/local/share/proj")
+
+
+@dataclass(frozen=True)
+class GeoidConversion:
+    """An ellipsoidal height brought to the raster's vertical datum, metres."""
+
+    ellipsoidal_m: float
+    height_m: float
+    undulation_m: float
+    vertical_crs: str
+    operation: str
+
+
+def raster_vertical_crs(model: ElevationModel, given: str | None = None):
+    """The vertical CRS of the terrain: stated in the rasters, or ``given`` (e.g. 'EPSG:5773').
+
+    Raises InputError when neither says, or when they disagree.
+    """
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    stated = []
+    for s in model.sources:
+        crs = CRS.from_wkt(s.crs_wkt)
+        if crs.is_compound:
+            stated += [sub for sub in crs.sub_crs_list if sub.is_vertical]
+    given_crs = None
+    if given:
+        try:
+            given_crs = CRS.from_user_input(given)
+        except CRSError:
+            raise InputError(f"vertical CRS {given!r} is not known to PROJ; give e.g. EPSG:5773 (EGM96 height)") from None
+        if not given_crs.is_vertical:
+            raise InputError(f"{given!r} ({given_crs.name}) is not a vertical CRS; give e.g. EPSG:5773 (EGM96 height)")
+    if stated:
+        names = sorted({c.name for c in stated})
+        if len(names) > 1:
+            raise DataError(f"the elevation rasters use different vertical datums ({', '.join(names)})")
+        if given_crs is not None and given_crs.name != stated[0].name:
+            raise InputError(
+                f"the elevation rasters state their heights are {stated[0].name}, "
+                f"but {given!r} ({given_crs.name}) was given; drop the option or fix the raster"
+            )
+        return stated[0]
+    if given_crs is None:
+        raise InputError(
+            "the elevation rasters do not state their vertical datum, so an ellipsoidal (GNSS) "
+            "height cannot be converted; say which it is with --vertical-crs (e.g. EPSG:5773 for "
+            "EGM96 heights, EPSG:3855 for EGM2008) or give the antenna height above ground"
+        )
+    return given_crs
+
+
+def _add_system_grid_dirs() -> None:
+    import pyproj.datadir
+
+    current = pyproj.datadir.get_data_dir().split(os.pathsep)
+    for d in SYSTEM_GRID_DIRS:
+        if os.path.isdir(d) and d not in current:
+            pyproj.datadir.append_data_dir(d)
+
+
+def ellipsoidal_to_raster_datum(lon_deg: float, lat_deg: float, ellipsoidal_m: float, vertical_crs) -> GeoidConversion:
+    """Convert a WGS84 ellipsoidal height to ``vertical_crs`` with the geoid grid PROJ holds.
+
+    H = h - N (geoid undulation N from the grid; e.g. the EGM96 15' grid for
+    EPSG:5773).  Refuses (DataError) when PROJ has no grid-based operation
+    available: the ballpark fallback (N = 0) is never used.
+    """
+    from pyproj import CRS
+    from pyproj.crs import CompoundCRS
+    from pyproj.transformer import TransformerGroup
+
+    _add_system_grid_dirs()
+    target = CompoundCRS(name=f"WGS 84 + {vertical_crs.name}", components=[CRS("EPSG:4326"), vertical_crs])
+    try:
+        import warnings
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            group = TransformerGroup(CRS("EPSG:4979"), target, always_xy=True)
+    except Exception as exc:  # pragma: no cover - PROJ errors vary
+        raise DataError(f"PROJ cannot relate WGS84 ellipsoidal heights to {vertical_crs.name}: {exc}") from None
+    usable = [t for t in group.transformers if "ballpark" not in t.description.lower()]
+    if not usable:
+        missing = sorted({g.short_name for op in group.unavailable_operations for g in op.grids})
+        hint = (
+            f"PROJ lacks the geoid grid {', '.join(missing)}; install it (Debian: apt-get install "
+            f"proj-data, or projsync --file {missing[0]})" if missing
+            else f"PROJ knows no geoid model for {vertical_crs.name}"
+        )
+        raise DataError(
+            f"cannot convert an ellipsoidal (GNSS) height to {vertical_crs.name}: {hint}; "
+            "or give the antenna height above ground"
+        )
+    t = usable[0]
+    _, _, height = t.transform(lon_deg, lat_deg, ellipsoidal_m)
+    height = float(height)
+    if not np.isfinite(height):
+        raise DataError(
+            f"the geoid grid for {vertical_crs.name} does not cover ({lat_deg:.6f}, {lon_deg:.6f})"
+        )
+    return GeoidConversion(
+        ellipsoidal_m=float(ellipsoidal_m),
+        height_m=height,
+        undulation_m=float(ellipsoidal_m) - height,
+        vertical_crs=vertical_crs.name,
+        operation=t.description,
+    )

@@ -1,0 +1,83 @@
+"""The real `terrahop link` / `terrahop demo` with gases and availability (demo data, invented)."""
+
+import json
+
+import pytest
+
+from tests.conftest import DEMO_DEM, EXAMPLES, run_cli
+
+DEMO_18 = EXAMPLES / "demo-6-availability-18ghz.toml"
+
+
+def test_demo_link_file_has_availability(cli):
+    r = json.loads(cli("link", str(DEMO_18), "--json").output)
+    av = r["availability"]
+    assert r["inputs"]["radio"]["freq_ghz"] == 18.0
+    assert av["estimated"] is True
+    assert av["rain"]["rain_rate_mm_h"] == 42.0 and av["rain"]["polarisation"] == "vertical"
+    assert av["multipath"]["dn1_n_per_km"] == -250.0 and av["multipath"]["terrain_roughness_m"] == 35.0
+    assert r["loss_db"]["gases"] > 0.5  # about 0.06 dB/km at 18 GHz over 17 km (ITU-R P.676-12)
+    assert not any("(default" in a and "R0.01" in a for a in av["assumptions"])
+
+
+def test_climate_flags_override_the_file(cli):
+    base = json.loads(cli("link", str(DEMO_18), "--json").output)["availability"]
+    wet = json.loads(cli("link", str(DEMO_18), "--rain-rate-mm-h", "95", "--dn1", "-400",
+                         "--terrain-roughness-m", "10", "--target-availability-pct", "99.9",
+                         "--polarisation", "horizontal", "--json").output)
+    av = wet["availability"]
+    assert av["rain"]["rain_rate_mm_h"] == 95.0 and av["rain"]["polarisation"] == "horizontal"
+    assert av["multipath"]["dn1_n_per_km"] == -400.0
+    assert av["target_availability_pct"] == 99.9
+    assert av["outage"]["rain_pct"] > base["outage"]["rain_pct"]
+    assert av["outage"]["multipath_pct"] > base["outage"]["multipath_pct"]
+    assert wet["inputs"]["climate"]["rain_rate_mm_h"] == 95.0
+
+
+def test_atmosphere_flags_change_gases(cli):
+    args = ["link", "--dem", str(DEMO_DEM), "--site-a", "-30.543381,-20.947872", "--site-b", "-30.407957,-20.860490",
+            "--freq-ghz", "23", "--json"]
+    normal = json.loads(cli(*args).output)["loss_db"]["gases"]
+    humid = json.loads(cli(*args, "--water-vapour-g-m3", "20", "--temperature-c", "30",
+                           "--pressure-hpa", "1000").output)["loss_db"]["gases"]
+    assert humid > 2 * normal
+
+
+def test_summary_shows_availability(cli):
+    out = cli("link", str(DEMO_18)).output
+    for words in ("availability", "of an average year", "outage", "rain", "multipath", "min/yr",
+                  "margin needed", "assumes", "target 99.99 %"):
+        assert words in out
+
+
+@pytest.mark.parametrize(
+    "flags,words",
+    [
+        (["--target-availability-pct", "99.9999"], "0.001-1 %"),
+        (["--rain-rate-mm-h", "-5"], "rain_rate_mm_h"),
+        (["--terrain-roughness-m", "-1"], "terrain_roughness_m"),
+        (["--pressure-hpa", "0"], "pressure_hpa"),
+    ],
+)
+def test_bad_climate_values_give_one_line_errors(flags, words):
+    proc = run_cli("link", str(DEMO_18), *flags)
+    assert proc.returncode != 0
+    assert words in proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_unknown_climate_key_in_link_file_is_refused(tmp_path, cli):
+    text = DEMO_18.read_text().replace("../data/demo/terrain.tif", str(DEMO_DEM)).replace(
+        "rain_rate_mm_h = 42", "rain_mm = 42"
+    )
+    bad = tmp_path / "bad.toml"
+    bad.write_text(text)
+    proc = run_cli("link", str(bad))
+    assert proc.returncode != 0 and "rain_mm" in proc.stderr and "[climate]" in proc.stderr
+
+
+def test_demo_includes_the_18_ghz_link():
+    proc = run_cli("demo", check=True)
+    assert "Fellgate Depot to Kestrel Knoll (18 GHz)" in proc.stdout
+    assert "margin needed" in proc.stdout

@@ -1,0 +1,121 @@
+import numpy as np
+import pytest
+from rasterio.transform import from_origin
+
+from profiler.budget import Radio
+from profiler.errors import DataError, InputError
+from profiler.link import Settings, Site, analyse_link, analyse_links
+from profiler.losses.free_space import free_space_loss_db
+from profiler.terrain import ElevationModel
+
+RADIO = Radio(freq_ghz=5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
+
+
+@pytest.fixture
+def ridge(raster_factory):
+    """Flat 100 m ground with a north-south ridge of 200 m at longitude 10.05 (0.0005-degree cells)."""
+    arr = np.full((200, 200), 100.0, dtype="float32")
+    arr[:, 98:102] = 300.0
+    return ElevationModel([raster_factory("ridge.tif", arr, transform=from_origin(10.0, 46.05, 0.0005, 0.0005))])
+
+
+def test_clear_path_has_free_space_loss_only(ridge):
+    a = Site("west", 46.0, 10.01, 10)
+    b = Site("west2", 46.02, 10.02, 10)
+    r = analyse_link(ridge, a, b, RADIO).record(0)
+    assert r["clearance"]["line_of_sight"]
+    assert r["loss_db"]["diffraction"] == 0.0
+    # gases per ITU-R P.676-12 Annex 1 add about 0.009 dB/km at 5.8 GHz
+    assert 0.0 < r["loss_db"]["gases"] < 0.01 * r["distance_km"]
+    assert r["loss_db"]["total"] == pytest.approx(free_space_loss_db(r["distance_km"] * 1000, 5.8) + r["loss_db"]["gases"])
+    assert r["sites"]["a"]["ground_m"] == pytest.approx(100.0)
+    assert r["sites"]["a"]["antenna_amsl_m"] == pytest.approx(110.0)
+
+
+def test_ridge_blocks(ridge):
+    a = Site("west", 46.02, 10.01, 10)
+    b = Site("east", 46.02, 10.09, 10)
+    r = analyse_link(ridge, a, b, RADIO).record(0)
+    assert not r["clearance"]["line_of_sight"]
+    assert r["loss_db"]["diffraction"] > 20
+    assert not r["meets_criterion"]
+    assert r["clearance"]["worst_distance_km"] == pytest.approx(r["distance_km"] / 2, abs=0.1)
+    assert r["worst_case"]["k"] == pytest.approx(2 / 3)
+
+
+def test_batch_equals_single(ridge):
+    a = [Site("a1", 46.02, 10.01, 10), Site("a2", 46.0, 10.01, 30)]
+    b = [Site("b1", 46.02, 10.09, 10), Site("b2", 46.03, 10.03, 5)]
+    batch = analyse_links(ridge, a, b, RADIO)
+    for i in range(2):
+        single = analyse_link(ridge, a[i], b[i], RADIO).record(0)
+        rec = batch.record(i)
+        for key in ("distance_km", "loss_db", "budget", "clearance", "worst_case"):
+            assert rec[key] == single[key]
+
+
+def test_record_has_design_keys(ridge):
+    r = analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.02, 10.02, 10), RADIO).record(0)
+    for key in ("distance_km", "azimuth_a_to_b_deg", "azimuth_b_to_a_deg", "sites", "k", "clearance",
+                "loss_db", "budget", "worst_case", "meets_criterion", "criterion", "inputs", "provenance"):
+        assert key in r
+    assert set(r["clearance"]) >= {"worst_f1_fraction", "worst_clearance_m", "worst_distance_km", "line_of_sight"}
+    assert set(r["loss_db"]) >= {"free_space", "diffraction", "gases", "total"}
+    assert set(r["budget"]) >= {"eirp_dbm", "rx_level_dbm", "noise_floor_dbm", "snr_db", "fade_margin_db"}
+    assert set(r["worst_case"]) >= {"k", "clearance", "loss_db", "budget"}
+    assert set(r["provenance"]) >= {"elevation_sources", "software_version", "computed_at"}
+    assert r["inputs"]["radio"]["freq_ghz"] == 5.8
+    assert r["inputs"]["k"] == pytest.approx(4 / 3)
+
+
+def test_site_outside_raster(ridge):
+    with pytest.raises(DataError, match="site b .* outside"):
+        analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("far", 47.0, 11.0, 10), RADIO)
+
+
+def test_batch_keeps_good_rows_when_one_is_bad(ridge):
+    batch = analyse_links(ridge, [Site("a", 46.0, 10.01, 10), Site("a", 46.0, 10.01, 10)],
+                          [Site("far", 47.0, 11.0, 10), Site("b", 46.02, 10.02, 10)], RADIO)
+    assert batch.problems[0] is not None and batch.problems[1] is None
+    assert "error" in batch.record(0)
+    assert batch.record(1)["clearance"]["line_of_sight"]
+
+
+def test_nodata_on_path_names_distance(raster_factory):
+    arr = np.full((100, 100), 50.0, dtype="float32")
+    arr[:, 50] = -9999
+    m = ElevationModel([raster_factory("h.tif", arr, nodata=-9999.0, transform=from_origin(10.0, 46.05, 0.0005, 0.0005))])
+    a, b = Site("a", 46.02, 10.01, 10), Site("b", 46.02, 10.04, 10)
+    with pytest.raises(DataError, match=r"nodata\) at 1\.[0-9]+ km from site a"):
+        analyse_link(m, a, b, RADIO)
+    m2 = ElevationModel([m.sources[0].path], nodata_fill_m=50.0)
+    assert analyse_link(m2, a, b, RADIO).record(0)["clearance"]["line_of_sight"]
+
+
+@pytest.mark.parametrize(
+    "site, word",
+    [(Site("a", 95.0, 10.0, 10), "latitude"), (Site("a", 46.0, 10.0, -1), "antenna height"),
+     (Site("a", float("nan"), 10.0, 10), "finite")],
+)
+def test_bad_sites(ridge, site, word):
+    with pytest.raises(InputError, match=word):
+        analyse_link(ridge, site, Site("b", 46.02, 10.02, 10), RADIO)
+
+
+def test_same_site_twice(ridge):
+    with pytest.raises(InputError, match="same position"):
+        analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.0, 10.01, 10), RADIO)
+
+
+@pytest.mark.parametrize("settings", [Settings(k=0), Settings(k_worst=-1), Settings(spacing_m=0.0)])
+def test_bad_settings(ridge, settings):
+    with pytest.raises(InputError):
+        analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.02, 10.02, 10), RADIO, settings)
+
+
+def test_default_spacing_is_half_a_cell(ridge):
+    batch = analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.02, 10.02, 10), RADIO)
+    cell = ridge.cell_size_m(10.01, 46.0)
+    assert batch.profiles.spacing_m[0] == pytest.approx(cell / 2)
+    steps = np.diff(batch.profiles.distance_m[0, : batch.profiles.n_samples[0]])
+    assert steps.max() <= cell / 2 + 1e-9
