@@ -138,7 +138,7 @@ class PeakMemory:
 
 
 def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, workers: int,
-               max_km: float | None = None):
+               max_km: float | None = None, method: str | None = None):
     from profiler.budget import Radio
     from profiler.io.sites import read_pairs, read_sites
     from profiler.link import Settings
@@ -151,7 +151,10 @@ def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, wo
         a, b, bad_pairs = read_pairs(pairs_csv, sites.names)
         explicit = (a, b)
     with ElevationModel([dem]) as model:
-        return screen(sites, model, Radio(5.8, gain_a_dbi=30, gain_b_dbi=30), Settings(spacing_m=SPACING_M),
+        settings = Settings(spacing_m=SPACING_M)
+        if method:
+            settings = Settings(spacing_m=SPACING_M, diffraction_method=method)
+        return screen(sites, model, Radio(5.8, gain_a_dbi=30, gain_b_dbi=30), settings,
                       out, plan=PairPlan(max_km=max_km, explicit=explicit), workers=workers, restart=True)
 
 
@@ -208,6 +211,8 @@ def main() -> None:
     ap.add_argument("--memory-pairs", type=int, default=None,
                     help="pairs streamed for the memory figure [1,000,000; 100,000 with --quick; 0 skips]")
     ap.add_argument("--workers", type=int, default=os.cpu_count() or 1)
+    ap.add_argument("--diffraction", default=None,
+                    help="diffraction method of the screen runs [default: the engine's default]")
     ap.add_argument("--keep", type=Path, default=None, help="folder to keep the tile and inputs in")
     args = ap.parse_args()
     n_pairs = args.pairs or (20_000 if args.quick else 100_000)
@@ -223,8 +228,11 @@ def main() -> None:
               f"built in {time.perf_counter() - t:.1f} s")
     pairs = random_pairs(n_pairs)
     sites_csv, pairs_csv = write_inputs(folder, pairs)
+    from profiler.link import Settings
+
+    method = args.diffraction or Settings().diffraction_method
     print(f"{n_pairs} random pairs of 5-40 km among {pairs[0].size} sites, {SPACING_M:g} m spacing, "
-          f"{args.workers} worker(s), {os.cpu_count()} core(s)")
+          f"{args.workers} worker(s), {os.cpu_count()} core(s), {method} diffraction, availability estimated")
 
     print(f"load average (1, 5, 15 min) at start: {', '.join(f'{v:.2f}' for v in os.getloadavg())}")
     t_base, s_base = baseline(dem, pairs, n_base)
@@ -233,7 +241,7 @@ def main() -> None:
     t_gather, s_gather = bare_gather(dem, pairs, min(n_pairs, 5000))
     print(f"bare bilinear numpy gather over the same points:        {'':>16} {s_gather / t_gather:14,.0f} samples/s")
     t = time.perf_counter()
-    summary = run_screen(dem, sites_csv, pairs_csv, folder / "screen.gpkg", args.workers)
+    summary = run_screen(dem, sites_csv, pairs_csv, folder / "screen.gpkg", args.workers, method=args.diffraction)
     t_screen = time.perf_counter() - t
     rate_p, rate_s = summary.pairs / t_screen, summary.samples / t_screen
     print(f"terrahop screen, end to end:                            {rate_p:10,.1f} pairs/s "
@@ -242,7 +250,7 @@ def main() -> None:
     print(f"screen / bare gather: {rate_s / (s_gather / t_gather):6.2f} x samples/s (target >= 1 x)")
     if args.workers > 1:
         t = time.perf_counter()
-        one = run_screen(dem, sites_csv, pairs_csv, folder / "screen1.gpkg", 1)
+        one = run_screen(dem, sites_csv, pairs_csv, folder / "screen1.gpkg", 1, method=args.diffraction)
         t_one = time.perf_counter() - t
         print(f"terrahop screen, 1 worker (in-process), end to end:     {one.pairs / t_one:10,.1f} pairs/s "
               f"{one.samples / t_one:14,.0f} samples/s  ({t_one:.1f} s; "
@@ -268,6 +276,8 @@ def main() -> None:
         cmd = [sys.executable, "-m", "profiler", "screen", str(mem_sites), "--dem", str(dem),
                "--freq-ghz", "5.8", "--gain-a-dbi", "30", "--gain-b-dbi", "30", "--spacing-m", str(SPACING_M),
                "--max-km", "40", "--out", str(folder / "memory.gpkg"), "--restart", "--workers", str(args.workers)]
+        if args.diffraction:
+            cmd += ["--diffraction", args.diffraction]
         env = dict(os.environ, PYTHONPATH=str(Path(__file__).resolve().parents[1]))
         t = time.perf_counter()
         proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
