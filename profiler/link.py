@@ -424,6 +424,7 @@ def analyse_links(
     mounts_a: Sequence[Any] | None = None,
     mounts_b: Sequence[Any] | None = None,
     check_sites: bool = True,
+    estimate_availability: bool = True,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
@@ -434,7 +435,9 @@ def analyse_links(
     (profiler.mounts.Mount per site, or None) give antenna heights above a
     roof, as elevations or above the ellipsoid.
     ``check_sites=False`` skips the per-site checks for callers that made
-    them already (screening validates each site once, not once per pair).
+    them already (screening validates each site once, not once per pair);
+    ``estimate_availability=False`` leaves ``availability`` None for callers
+    that estimate it themselves over larger batches (screening, per chunk).
     """
     if len(sites_a) != len(sites_b):
         raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
@@ -496,7 +499,7 @@ def analyse_links(
         (lat_a + lat_b) / 2.0,
         profiles.valid,
         settings.climate,
-    )
+    ) if estimate_availability else None
     datums = sorted({s.vertical_datum for s in model.sources})
     provenance = {
         "elevation_sources": model.describe(),

@@ -323,6 +323,7 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
         problems.append((task.first_pair + int(k),
                          f"{task.names_a[k]} - {task.names_b[k]}: both sites are at the same position"))
     todo = np.flatnonzero(~same)
+    length_m = np.full(n, np.nan)
     if todo.size:
         _, _, length = WGS84.inv(task.lon_a[todo], task.lat_a[todo], task.lon_b[todo], task.lat_b[todo])
         spacing = task.settings.spacing_m
@@ -339,20 +340,34 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
             widths = n_sorted[start:]
             fits = np.arange(1, widths.size + 1) * widths <= SUBBATCH_SAMPLES
             stop = start + max(int(np.argmin(fits)) if not fits.all() else widths.size, 1)
-            _evaluate_into(model, task, todo[start:stop], out, problems)
+            _evaluate_into(model, task, todo[start:stop], out, problems, length_m)
             start = stop
     out["status"][:] = 0
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
     out["status"][bad] = 1
+    # Availability once per chunk: its per-call cost is worth spreading over many pairs.
+    # The inputs are those analyse_links would pass, so the numbers are the same.
+    from .availability import availability_for_links
+
+    valid = out["status"] == 0
+    av = availability_for_links(
+        out["fade_margin_db"], np.where(valid, length_m, 1.0), _radio_freq(task.radio, n),
+        out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
+        task.settings.climate,
+    )
+    for name, values in _availability_columns(av, n).items():
+        out[name][:] = values
     return out, problems
 
 
-def _availability_columns(batch: LinkBatch) -> dict[str, np.ndarray]:
+def _radio_freq(radio: Radio, n: int) -> np.ndarray:
+    return np.broadcast_to(np.asarray(radio.freq_ghz, dtype=float), (n,))
+
+
+def _availability_columns(av: Any, n: int) -> dict[str, np.ndarray]:
     """Availability, yearly outage and target verdict of each link (NaN/False where not estimated)."""
-    n = len(batch)
     cols = {"availability_pct": np.full(n, np.nan), "outage_min_per_year": np.full(n, np.nan),
             "meets_availability": np.zeros(n, dtype=bool)}
-    av = getattr(batch, "availability", None)
     if av is None or av.result is None:
         return cols
     rows = np.asarray(av.rows)
@@ -364,7 +379,8 @@ def _availability_columns(batch: LinkBatch) -> dict[str, np.ndarray]:
     return cols
 
 
-def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems: list) -> None:
+def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems: list,
+                   length_m: np.ndarray) -> None:
     sites_a = [Site(str(task.names_a[k]), float(task.lat_a[k]), float(task.lon_a[k]), float(task.agl_a[k]))
                for k in idx]
     sites_b = [Site(str(task.names_b[k]), float(task.lat_b[k]), float(task.lon_b[k]), float(task.agl_b[k]))
@@ -377,7 +393,8 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
     settings = dataclasses.replace(task.settings, compare_methods=False)
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)],
-                          check_sites=False)
+                          check_sites=False, estimate_availability=False)
+    length_m[idx] = batch.profiles.length_m
     lines = batch.profiles.lines
     d, w = batch.design, batch.worst
     cols = {
@@ -405,7 +422,6 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
         "wc_rx_level_dbm": w.budget.rx_level_dbm, "wc_snr_db": w.budget.snr_db,
         "wc_fade_margin_db": w.budget.fade_margin_db,
         "mast_raise_m": mast_raise_m(batch),
-        **_availability_columns(batch),
     }
     for name, values in cols.items():
         out[name][idx] = np.asarray(values)
