@@ -111,3 +111,22 @@ def test_selecting_absent_rows_says_how_many_there_are(tmp_path):
     with pytest.raises(InputError, match="--best must be 1 or more"):
         select_pairs(read_pairs(p), best=0)
     assert math.isnan(read_pairs(_write(tmp_path, "lat_a,lon_a,lat_b,lon_b\n1,,3,4\n", "h.csv")).rows[0].lon_a)
+
+
+def test_screening_result_reads_its_links_layer(tmp_path):
+    # A screening GeoPackage holds 'sites' (points) and 'links'; without --layer the links are read.
+    import warnings
+
+    import geopandas as gpd
+    from shapely.geometry import LineString, Point
+
+    path = tmp_path / "result.gpkg"
+    gpd.GeoDataFrame({"name": ["P"]}, geometry=[Point(10, 45)], crs="EPSG:4326").to_file(path, layer="sites")
+    gpd.GeoDataFrame(
+        {"site_a": ["P"], "site_b": ["Q"], "agl_a_m": [10.0], "agl_b_m": [9.0], "fade_margin_db": [3.0]},
+        geometry=[LineString([(10, 45), (10.1, 45.1)])], crs="EPSG:4326",
+    ).to_file(path, layer="links")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        table = read_pairs(path)
+    assert len(table.rows) == 1 and table.rows[0].agl_b_m == 9.0

@@ -136,6 +136,10 @@ def _read_vector(path: Path, layer: str | None) -> tuple[list[str], list[dict[st
     import pyogrio
 
     try:
+        if layer is None:
+            # A screening result holds 'links' and 'sites'; the pairs are the links.
+            names = [str(n) for n in pyogrio.list_layers(path)[:, 0]]
+            layer = "links" if "links" in names else (names[0] if names else None)
         frame = pyogrio.read_dataframe(path, layer=layer)
     except Exception as exc:  # pyogrio raises several error types for unreadable files
         raise DataFileError(f"cannot read {path} as a table of site pairs: {exc}") from None
