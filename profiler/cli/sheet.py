@@ -104,8 +104,10 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
                  site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
     resolved = resolve_link(template, first)
     n = len(sites_a)
-    mounts_a = None if resolved.mount_a is None else [resolved.mount_a] * n
-    mounts_b = None if resolved.mount_b is None else [resolved.mount_b] * n
+    # Heights above ground come per row from the table (or --agl-a/-b); only the other
+    # references (above roof, elevation, ellipsoidal) are applied to every pair as mounts.
+    mounts_a = None if resolved.mount_a is None or resolved.mount_a.reference == "ground" else [resolved.mount_a] * n
+    mounts_b = None if resolved.mount_b is None or resolved.mount_b.reference == "ground" else [resolved.mount_b] * n
     surroundings = open_surroundings_of(resolved)
     try:
         with _open_model(resolved) as model:

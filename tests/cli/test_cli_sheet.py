@@ -164,3 +164,16 @@ def test_rooftop_sheet_draws_buildings_trees_and_roof_masts(tmp_path):
         f"OBSTRUCTED at k = 4/3: {c['worst_distance_km']:.3f} km from a",
     ):
         assert expected in svg, expected
+
+
+def test_pairs_table_heights_win_over_the_template_link_file(tmp_path):
+    # The template (demo-1-clear: 20 m / 15 m) supplies terrain and radio; each row's own heights are drawn.
+    sites = {r["name"]: r for r in csv.DictReader(open(EXAMPLES.parent / "data" / "demo" / "sites.csv"))}
+    sa, sb = sites["Wexby Grange"], sites["Highfold Tower"]
+    table = tmp_path / "one.csv"
+    table.write_text("name_a,lat_a,lon_a,agl_a_m,name_b,lat_b,lon_b,agl_b_m\n"
+                     f"Wexby Grange,{sa['lat']},{sa['lon']},33,Highfold Tower,{sb['lat']},{sb['lon']},27\n")
+    result = _run("sheet", CLEAR, "--pairs", table, "-o", tmp_path / "one.svg")
+    assert result.exit_code == 0, result.output
+    svg = next(tmp_path.glob("one*.svg")).read_text(encoding="utf-8")
+    assert "antenna 33.0 m above ground" in svg and "antenna 27.0 m above ground" in svg
