@@ -4,7 +4,7 @@ Analyses N random links across the invented demo town three ways: bare
 terrain (the baseline of this run), with the building and tree layers
 (exact crossings, inserted samples) and with the 2 m surface model.
 
-Run:  python benchmarks/bench_obstructions.py [N]
+Run:  python benchmarks/obstructions.py [N]
 """
 
 from __future__ import annotations
