@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import numpy as np
-import pytest
 from geographiclib.geodesic import Geodesic
 
 from profiler.geodesy import NODE_SPACING_M, sample_paths

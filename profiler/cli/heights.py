@@ -6,15 +6,7 @@ import json
 
 import click
 
-from .options import (
-    analysis_options,
-    friendly_errors,
-    mount_options,
-    radio_options,
-    site_options,
-    surroundings_options,
-    terrain_options,
-)
+from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
 
 __all__ = ["heights", "run_heights", "format_heights"]
 
@@ -23,33 +15,23 @@ def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_
                 step_m: float) -> dict:
     """Solve the heights of a resolved link; the result, then the link re-analysed at the chosen heights."""
     from ..heights import DEFAULT_MAX_MAST_M, solve_heights
-    from ..link import analyse_link
     from ..mounts import Mount
-    from ..terrain import ElevationModel
-    from .options import open_surroundings_of
 
-    surroundings = open_surroundings_of(resolved)
     max_a = max_mast_a_m if max_mast_a_m is not None else (resolved.max_mast_a_m if resolved.max_mast_a_m is not None else DEFAULT_MAX_MAST_M)
     max_b = max_mast_b_m if max_mast_b_m is not None else (resolved.max_mast_b_m if resolved.max_mast_b_m is not None else DEFAULT_MAX_MAST_M)
-    with ElevationModel(
-        resolved.rasters, vertical_unit=resolved.vertical_unit, nodata_fill_m=resolved.nodata_fill_m
-    ) as model:
-        args = (model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings)
-        batch = analyse_link(*args, name=resolved.title, surroundings=surroundings,
-                             mount_a=resolved.mount_a, mount_b=resolved.mount_b)
+    with opened_link_data(resolved) as (model, surroundings):
+        batch = analyse_resolved(resolved, model, surroundings)
         solution = solve_heights(batch, solve=solve, max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
         out = {"name": resolved.title, **solution.record(),
                "vertical_datum": batch.record(0)["inputs"].get("vertical_datum", ""),
                "given": batch.record(0)}
         if solution.chosen is not None:
-            again = analyse_link(
-                *args, name=resolved.title, surroundings=surroundings,
+            again = analyse_resolved(
+                resolved, model, surroundings,
                 mount_a=Mount(solution.reference_a, solution.chosen.antenna_a_m),
                 mount_b=Mount(solution.reference_b, solution.chosen.antenna_b_m),
             )
             out["link"] = again.record(0)
-    if surroundings is not None and surroundings.surface is not None:
-        surroundings.surface.close()
     return out
 
 
@@ -115,12 +97,7 @@ def format_heights(r: dict) -> str:
 
 @click.command()
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
-@terrain_options
-@site_options
-@mount_options
-@surroundings_options
-@radio_options
-@analysis_options
+@link_input_options
 @click.option("--solve", type=click.Choice(["a", "b", "both"]), default="both", show_default=True,
               help="Which antenna heights to find: a (b as given), b (a as given), or both (least sum).")
 @click.option("--max-mast-a", "max_mast_a", type=float, default=None, metavar="M",

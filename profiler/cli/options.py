@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import math
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any, Callable, Iterator
 
 import click
 
@@ -30,6 +31,9 @@ __all__ = [
     "surroundings_options",
     "mount_options",
     "open_surroundings_of",
+    "link_input_options",
+    "opened_link_data",
+    "analyse_resolved",
 ]
 
 
@@ -236,6 +240,13 @@ CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
 climate_options = _compose(
     *[click.option(flag, name, type=kind, default=None, help=text)
       for name, (flag, kind, text) in CLIMATE_FLAGS.items()]
+)
+
+
+#: Every option that describes one link, shared by link, sheet and heights.
+link_input_options = _compose(
+    terrain_options, site_options, mount_options, surroundings_options, radio_options, analysis_options,
+    climate_options,
 )
 
 
@@ -466,6 +477,33 @@ def open_surroundings_of(resolved: ResolvedLink) -> Any:
     surface = (ElevationModel(resolved.surface_rasters, vertical_unit=resolved.vertical_unit)
                if resolved.surface_rasters else None)
     return Surroundings(layers=layers, surface=surface, tree_allowance_m=resolved.tree_allowance_m)
+
+
+@contextlib.contextmanager
+def opened_link_data(resolved: ResolvedLink) -> Iterator[tuple[Any, Any]]:
+    """Open the elevation model and the surroundings (layers, surface) of a resolved link; close both after."""
+    from ..terrain import ElevationModel
+
+    surroundings = open_surroundings_of(resolved)
+    try:
+        with ElevationModel(
+            resolved.rasters, vertical_unit=resolved.vertical_unit, nodata_fill_m=resolved.nodata_fill_m
+        ) as model:
+            yield model, surroundings
+    finally:
+        if surroundings is not None and surroundings.surface is not None:
+            surroundings.surface.close()
+
+
+def analyse_resolved(resolved: ResolvedLink, model: Any, surroundings: Any, *, mount_a: Any = None,
+                     mount_b: Any = None) -> Any:
+    """Analyse one resolved link on open data, as ``terrahop link`` does; mounts may be overridden."""
+    from ..link import analyse_link
+
+    return analyse_link(
+        model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings, name=resolved.title,
+        surroundings=surroundings, mount_a=mount_a or resolved.mount_a, mount_b=mount_b or resolved.mount_b,
+    )
 
 
 def _opt_float(value: Any) -> float | None:

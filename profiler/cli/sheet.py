@@ -9,57 +9,24 @@ from typing import Any
 
 import click
 
-from .options import (
-    analysis_options,
-    friendly_errors,
-    mount_options,
-    radio_options,
-    site_options,
-    surroundings_options,
-    terrain_options,
-)
+from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
 
 __all__ = ["sheet", "build_sheet_contents"]
 
 _SUFFIX_FORMATS = {".pdf": "pdf", ".png": "png", ".svg": "svg"}
 
 
-def _close_surroundings(surroundings: Any) -> None:
-    if surroundings is not None and surroundings.surface is not None:
-        surroundings.surface.close()
-
-
-def _analyse_resolved(resolved: Any, model: Any, surroundings: Any) -> Any:
-    """Analyse one resolved link on an open model, with obstructions and mounts (as ``terrahop link`` does)."""
-    from ..link import analyse_link
-
-    return analyse_link(model, resolved.site_a, resolved.site_b, resolved.radio, resolved.settings,
-                        name=resolved.title, surroundings=surroundings, mount_a=resolved.mount_a,
-                        mount_b=resolved.mount_b)
-
-
-def _open_model(resolved: Any) -> Any:
-    from ..terrain import ElevationModel
-
-    return ElevationModel(resolved.rasters, vertical_unit=resolved.vertical_unit,
-                          nodata_fill_m=resolved.nodata_fill_m)
-
-
 def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
     from ..sheets.build import sheet_contents
-    from .options import open_surroundings_of, resolve_link
+    from .options import resolve_link
 
     contents: list = []
     checksums: dict[str, str] = {}
     for f in files or (None,):
         resolved = resolve_link(f, opts)
-        surroundings = open_surroundings_of(resolved)
-        try:
-            with _open_model(resolved) as model:
-                batch = _analyse_resolved(resolved, model, surroundings)
-                contents += sheet_contents(batch, model, title=title, checksums=checksums)
-        finally:
-            _close_surroundings(surroundings)
+        with opened_link_data(resolved) as (model, surroundings):
+            batch = analyse_resolved(resolved, model, surroundings)
+            contents += sheet_contents(batch, model, title=title, checksums=checksums)
     return contents
 
 
@@ -69,7 +36,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     from ..io.pairs import parse_row_spec, read_pairs, select_pairs
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
-    from .options import open_surroundings_of, resolve_link
+    from .options import resolve_link
 
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
         raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
@@ -108,22 +75,18 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     # references (above roof, elevation, ellipsoidal) are applied to every pair as mounts.
     mounts_a = None if resolved.mount_a is None or resolved.mount_a.reference == "ground" else [resolved.mount_a] * n
     mounts_b = None if resolved.mount_b is None or resolved.mount_b.reference == "ground" else [resolved.mount_b] * n
-    surroundings = open_surroundings_of(resolved)
-    try:
-        with _open_model(resolved) as model:
-            batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
-                                  surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
-            good = []
-            for i, problem in enumerate(batch.problems):
-                if problem is None:
-                    good.append(i)
-                else:
-                    click.echo(f"skipped: {problem}", err=True)
-            if not good:
-                raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
-            return sheet_contents(batch, model, title=title, indices=good)
-    finally:
-        _close_surroundings(surroundings)
+    with opened_link_data(resolved) as (model, surroundings):
+        batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
+                              surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
+        good = []
+        for i, problem in enumerate(batch.problems):
+            if problem is None:
+                good.append(i)
+            else:
+                click.echo(f"skipped: {problem}", err=True)
+        if not good:
+            raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
+        return sheet_contents(batch, model, title=title, indices=good)
 
 
 def _agl(flag: float | None, column: float | None) -> float:
@@ -169,12 +132,7 @@ def _output_format(out: str, fmt: str | None) -> str:
 
 @click.command()
 @click.argument("link_files", nargs=-1, type=click.Path(dir_okay=False))
-@terrain_options
-@site_options
-@mount_options
-@surroundings_options
-@radio_options
-@analysis_options
+@link_input_options
 @click.option("--pairs", type=click.Path(dir_okay=False), default=None, metavar="TABLE",
               help="CSV or GeoPackage of site pairs (e.g. a screening result): columns name_a, lat_a, lon_a, "
                    "agl_a_m, name_b, lat_b, lon_b, agl_b_m; optional name, fade_margin_db.")

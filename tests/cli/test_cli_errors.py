@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from tests.conftest import DEMO_DEM, EXAMPLES, run_cli, write_raster
+from tests.conftest import DEMO_DEM, run_cli, write_raster
 
 ORRIN = "-30.426077,-20.973967"
 BRACKWELL = "-30.403493,-20.916715"

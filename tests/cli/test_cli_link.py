@@ -2,7 +2,6 @@
 
 import json
 
-import numpy as np
 import pytest
 
 from tests.conftest import DEMO_DEM, EXAMPLES, run_cli
