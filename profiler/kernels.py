@@ -1,4 +1,5 @@
-"""Inner loops of sampling: geodesic interpolation and bilinear gather.
+"""Inner loops of sampling (geodesic interpolation, bilinear gather) and of the
+profile reductions of the diffraction methods (Bullington, smooth-surface fit).
 
 Each kernel exists twice with the same arithmetic in the same order: a numpy
 version (small batches, no compile cost) and a numba version used for large
@@ -14,9 +15,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .units import EARTH_RADIUS_M
+
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
-    "StoredCells", "TILE",
+    "StoredCells", "TILE", "profile_reductions", "bullington_reductions",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -207,6 +210,87 @@ def affine_gather_numpy(
     return out, inside
 
 
+def profile_reductions_numpy(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, ...]:
+    """Per-path reductions over a terrain profile at one k-factor, each (P,).
+
+    Inputs: ``d1``, ``surface`` (m, no bulge), ``interior`` (P, N); ``ha``,
+    ``hb``, ``length``, ``lam`` (m) and ``k`` (P,).  Over the interior
+    samples with 0 < d1 < d (d2 = d - d1), with elev = surface + d1 d2 / (2 k a)
+    and h = elev - (ha + (hb - ha) d1 / d) its height above the antenna line:
+
+    * ``stim`` = max (elev - ha) / d1, ``srim`` = max (elev - hb) / d2: the
+      Bullington slopes (ITU-R P.526-15 section 4.5.1);
+    * ``v_max`` = max v, v = h sqrt(2 / lam (1/d1 + 1/d2)) (ITU-R P.526-15
+      eq. 26; equal to Bullington's h sqrt(2 d / (lam d1 d2)) as d1 + d2 = d),
+      and ``i_max`` its first column (0 if none);
+    * ``v1``, ``v2`` (sums over all steps), ``hobs``, ``aobt``, ``aobr``: the
+      smooth-surface fit of ITU-R P.526-15 section 4.5.2 (surface without bulge).
+
+    Maxima over no sample are -inf.  Each quotient by d1, d2, d or 2 k a is a
+    product with its reciprocal and sums run left to right, exactly as in the
+    compiled twin, so both give the same bits.
+    """
+    ha_, hb_, len_, lam_, k_ = (np.asarray(x, dtype=float)[:, None] for x in (ha, hb, length, lam, k))
+    d2 = len_ - d1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_den = 1.0 / (2.0 * k_ * EARTH_RADIUS_M)
+        inv_d = 1.0 / len_
+        slope = (hb_ - ha_) * inv_d
+        inv1 = 1.0 / d1
+        inv2 = 1.0 / d2
+        elev = surface + d1 * d2 * inv_den
+        height = elev - (ha_ + d1 * slope)
+        inner = interior & (d1 > 0.0) & (d2 > 0.0)
+        v = np.where(inner, height * np.sqrt(2.0 / lam_ * (inv1 + inv2)), -np.inf)
+        i_max = np.argmax(v, axis=1)
+        v_max = v.max(axis=1)
+        stim = np.where(inner, (elev - ha_) * inv1, -np.inf).max(axis=1)
+        srim = np.where(inner, (elev - hb_) * inv2, -np.inf).max(axis=1)
+        h = surface
+        step = d1[:, 1:] - d1[:, :-1]
+        t1 = step * (h[:, 1:] + h[:, :-1])
+        t2 = step * (h[:, 1:] * (2.0 * d1[:, 1:] + d1[:, :-1]) + h[:, :-1] * (d1[:, 1:] + 2.0 * d1[:, :-1]))
+        obst = h - (ha_ * d2 + hb_ * d1) * inv_d
+        hobs = np.where(inner, obst, -np.inf).max(axis=1)
+        aobt = np.where(inner, obst * inv1, -np.inf).max(axis=1)
+        aobr = np.where(inner, obst * inv2, -np.inf).max(axis=1)
+    v1 = _sum_left_to_right(t1)
+    v2 = _sum_left_to_right(t2)
+    return stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr
+
+
+def _sum_left_to_right(terms: np.ndarray) -> np.ndarray:
+    """Row sums added strictly left to right (np.sum adds pairwise: other last bits)."""
+    if terms.shape[1] == 0:
+        return np.zeros(terms.shape[0])
+    return np.cumsum(terms, axis=1)[:, -1]
+
+
+def bullington_reductions_numpy(
+    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``stim``, ``srim``, ``v_max`` of :func:`profile_reductions_numpy` over a bare smooth
+    earth (elev = d1 d2 / (2 k a)), antennas ``ha``, ``hb`` above it (ITU-R P.526-15 section 4.5.2)."""
+    ha_, hb_, len_, lam_, k_ = (np.asarray(x, dtype=float)[:, None] for x in (ha, hb, length, lam, k))
+    d2 = len_ - d1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_den = 1.0 / (2.0 * k_ * EARTH_RADIUS_M)
+        slope = (hb_ - ha_) * (1.0 / len_)
+        inv1 = 1.0 / d1
+        inv2 = 1.0 / d2
+        elev = d1 * d2 * inv_den
+        inner = interior & (d1 > 0.0) & (d2 > 0.0)
+        stim = np.where(inner, (elev - ha_) * inv1, -np.inf).max(axis=1)
+        srim = np.where(inner, (elev - hb_) * inv2, -np.inf).max(axis=1)
+        height = elev - (ha_ + d1 * slope)
+        v_max = np.where(inner, height * np.sqrt(2.0 / lam_ * (inv1 + inv2)), -np.inf).max(axis=1)
+    return stim, srim, v_max
+
+
 # ---------------------------------------------------------------- numba versions
 
 def _build() -> dict:
@@ -293,7 +377,121 @@ def _build() -> dict:
             out[k] = top + (bottom - top) * fy
         return out, inside
 
-    return {"hermite": hermite_nb, "affine_gather": affine_gather_nb}
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def profile_reductions_nb(d1, surface, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
+        n_paths, width = d1.shape
+        stim = np.full(n_paths, -np.inf)
+        srim = np.full(n_paths, -np.inf)
+        v_max = np.full(n_paths, -np.inf)
+        i_max = np.zeros(n_paths, dtype=np.int64)
+        v1 = np.zeros(n_paths)
+        v2 = np.zeros(n_paths)
+        hobs = np.full(n_paths, -np.inf)
+        aobt = np.full(n_paths, -np.inf)
+        aobr = np.full(n_paths, -np.inf)
+        for i in range(n_paths):
+            a = ha[i]
+            b = hb[i]
+            d = length[i]
+            inv_den = 1.0 / (2.0 * k[i] * radius)
+            inv_d = 1.0 / d
+            slope = (b - a) * inv_d
+            two_over_lam = 2.0 / lam[i]
+            s_a = -np.inf
+            s_b = -np.inf
+            s_m = -np.inf
+            s_i = 0
+            o_h = -np.inf
+            o_t = -np.inf
+            o_r = -np.inf
+            acc1 = 0.0
+            acc2 = 0.0
+            for c in range(width):
+                x1 = d1[i, c]
+                h = surface[i, c]
+                if c > 0:
+                    xp = d1[i, c - 1]
+                    hp = surface[i, c - 1]
+                    step = x1 - xp
+                    acc1 += step * (h + hp)
+                    acc2 += step * (h * (2.0 * x1 + xp) + hp * (x1 + 2.0 * xp))
+                x2 = d - x1
+                if not (interior[i, c] and x1 > 0.0 and x2 > 0.0):
+                    continue
+                inv1 = 1.0 / x1
+                inv2 = 1.0 / x2
+                elev = h + x1 * x2 * inv_den
+                height = elev - (a + x1 * slope)
+                v = height * np.sqrt(two_over_lam * (inv1 + inv2))
+                if v > s_m or (v != v and s_m == s_m):
+                    s_m = v
+                    s_i = c
+                t = (elev - a) * inv1
+                if t > s_a or t != t:
+                    s_a = t
+                t = (elev - b) * inv2
+                if t > s_b or t != t:
+                    s_b = t
+                obst = h - (a * x2 + b * x1) * inv_d
+                if obst > o_h or obst != obst:
+                    o_h = obst
+                t = obst * inv1
+                if t > o_t or t != t:
+                    o_t = t
+                t = obst * inv2
+                if t > o_r or t != t:
+                    o_r = t
+            stim[i] = s_a
+            srim[i] = s_b
+            v_max[i] = s_m
+            i_max[i] = s_i
+            v1[i] = acc1
+            v2[i] = acc2
+            hobs[i] = o_h
+            aobt[i] = o_t
+            aobr[i] = o_r
+        return stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr
+
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def bullington_reductions_nb(d1, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
+        n_paths, width = d1.shape
+        stim = np.full(n_paths, -np.inf)
+        srim = np.full(n_paths, -np.inf)
+        v_max = np.full(n_paths, -np.inf)
+        for i in range(n_paths):
+            a = ha[i]
+            b = hb[i]
+            d = length[i]
+            inv_den = 1.0 / (2.0 * k[i] * radius)
+            slope = (b - a) * (1.0 / d)
+            two_over_lam = 2.0 / lam[i]
+            s_a = -np.inf
+            s_b = -np.inf
+            s_m = -np.inf
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = d - x1
+                if not (interior[i, c] and x1 > 0.0 and x2 > 0.0):
+                    continue
+                inv1 = 1.0 / x1
+                inv2 = 1.0 / x2
+                elev = x1 * x2 * inv_den
+                t = (elev - a) * inv1
+                if t > s_a or t != t:
+                    s_a = t
+                t = (elev - b) * inv2
+                if t > s_b or t != t:
+                    s_b = t
+                t = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (inv1 + inv2))
+                if t > s_m or t != t:
+                    s_m = t
+            stim[i] = s_a
+            srim[i] = s_b
+            v_max[i] = s_m
+        return stim, srim, v_max
+
+    return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
+            "profile_reductions": profile_reductions_nb, "bullington_reductions": bullington_reductions_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -330,6 +528,36 @@ def affine_gather(
     return affine_gather_numpy(cells, x, y, transform, width, height)
 
 
+def _columns(*arrays) -> tuple[np.ndarray, ...]:
+    return tuple(np.ascontiguousarray(np.asarray(a, dtype=float).reshape(-1)) for a in arrays)
+
+
+def profile_reductions(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, ...]:
+    """Bullington, edge and smooth-surface reductions of profiles (see :func:`profile_reductions_numpy`)."""
+    if use_numba(d1.size):
+        return _numba_kernels()["profile_reductions"](
+            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(surface, dtype=float),
+            np.ascontiguousarray(interior, dtype=np.bool_), *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+        )
+    return profile_reductions_numpy(d1, surface, interior, ha, hb, length, lam, k)
+
+
+def bullington_reductions(
+    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Bullington reductions over a smooth earth (see :func:`bullington_reductions_numpy`)."""
+    if use_numba(d1.size):
+        return _numba_kernels()["bullington_reductions"](
+            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(interior, dtype=np.bool_),
+            *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+        )
+    return bullington_reductions_numpy(d1, interior, ha, hb, length, lam, k)
+
+
 def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     """Load (or compile) the numba kernels for these cell types now, not on the first big batch."""
     if os.environ.get("TERRAHOP_NO_NUMBA"):
@@ -343,3 +571,8 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     for dt in dict.fromkeys(np.dtype(d) for d in block_dtypes):
         k["affine_gather"](np.zeros((1, 1, TILE, TILE), dtype=dt), 2, 2, 0, 0, np.zeros(1), np.zeros(1),
                            1.0, 0.0, 0.0, 0.0, -1.0, 0.0, 2, 2, 1.0, 0.0, False)
+    col = np.ones(1)
+    k["profile_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
+                            col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
+    k["bullington_reductions"](np.array([[0.0, 1.0, 2.0]]), np.ones((1, 3), dtype=np.bool_),
+                               col, col, 2.0 * col, col, col, EARTH_RADIUS_M)

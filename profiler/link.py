@@ -25,6 +25,7 @@ from .losses.terrain_diffraction import (
     diffraction_by_method,
     diffraction_loss_db,
     diffraction_validity_warnings,
+    diffraction_with_warnings,
     resolve_method,
 )
 from .losses.smooth_earth import resolve_ground, resolve_polarisation
@@ -189,9 +190,10 @@ def terrain_diffraction_db(
     opts = {"polarisation": settings.polarisation, "ground": settings.ground}
     if settings.compare_methods:
         by_method = diffraction_by_method(*args, **opts)
-    else:
-        by_method = {method: diffraction_loss_db(method, *args, **opts)}
-    warnings = tuple(diffraction_validity_warnings(method, *args))
+        warnings = tuple(diffraction_validity_warnings(method, *args))
+    else:  # one pass over the profiles gives the loss and the warnings
+        result = diffraction_with_warnings(method, *args, **opts)
+        by_method, warnings = {method: result.loss_db}, result.warnings
     return by_method[method], by_method, warnings
 
 
