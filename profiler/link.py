@@ -7,6 +7,7 @@ paths.  A single link is a batch of one.  No printing, no file writing.
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import math
 from dataclasses import asdict, dataclass, field
 from typing import Any, Sequence
@@ -18,7 +19,7 @@ from .availability import ClimateSettings, LinkAvailability, availability_for_li
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
-from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
+from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_specific_attenuation_db_km
 from .losses.free_space import free_space_loss_db
 from .losses.terrain_diffraction import (
     DEFAULT_DIFFRACTION_METHOD,
@@ -176,15 +177,18 @@ def terrain_diffraction_db(
     freq_ghz: Any,
     k: float,
     settings: Settings,
+    surface_m: np.ndarray | None = None,
 ) -> tuple[np.ndarray, dict[str, np.ndarray], tuple[tuple[str, ...], ...]]:
     """Diffraction loss by the chosen method, by every method, and validity warnings per path.
 
     Methods and sources: :mod:`profiler.losses.terrain_diffraction`
     (ITU-R P.526-15 sections 4.1 and 4.5, Deygout, Epstein-Peterson).
+    ``surface_m`` may pass ``profiles.surface_m`` with NaN set to 0 when already made.
     """
     method = resolve_method(settings.diffraction_method)
+    surface = _finite_surface(profiles) if surface_m is None else surface_m
     args = (
-        profiles.distance_m, _finite_surface(profiles), profiles.interior, antenna_a_amsl_m,
+        profiles.distance_m, surface, profiles.interior, antenna_a_amsl_m,
         antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), k,
     )
     opts = {"polarisation": settings.polarisation, "ground": settings.ground}
@@ -209,10 +213,25 @@ def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings 
     use = (f >= P676_MIN_FREQ_GHZ) & (f <= P676_MAX_FREQ_GHZ) & np.isfinite(length) & (length >= 0)
     out = np.zeros(length.shape)
     if np.any(use):
-        out[use] = gaseous_path_attenuation_db(
-            length[use], f[use], climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3
-        )
+        # gamma depends on the frequency only (one atmosphere): once per distinct frequency.
+        freqs, where = np.unique(f[use], return_inverse=True)
+        if freqs.size <= _GAMMA_CACHE_SIZE:
+            gamma = np.array([_gases_db_km(float(x), climate.pressure_hpa, climate.temperature_c,
+                                           climate.water_vapour_g_m3) for x in freqs])
+        else:
+            gamma = gaseous_specific_attenuation_db_km(
+                freqs, climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3)
+        out[use] = gamma[where] * length[use] / 1000.0  # A = gamma d, as gaseous_path_attenuation_db
     return out
+
+
+_GAMMA_CACHE_SIZE = 64
+
+
+@functools.lru_cache(maxsize=_GAMMA_CACHE_SIZE)
+def _gases_db_km(freq_ghz: float, pressure_hpa: float, temperature_c: float, water_vapour_g_m3: float) -> float:
+    """Specific gaseous attenuation, dB/km (ITU-R P.676-12 Annex 1), kept for repeated frequencies."""
+    return float(gaseous_specific_attenuation_db_km(freq_ghz, pressure_hpa, temperature_c, water_vapour_g_m3))
 
 
 def evaluate_profiles(
@@ -222,11 +241,16 @@ def evaluate_profiles(
     radio: Radio,
     k: float,
     settings: Settings,
+    surface_m: np.ndarray | None = None,
 ) -> AtK:
-    """Clearance, losses and budget of prepared profiles at one k-factor."""
+    """Clearance, losses and budget of prepared profiles at one k-factor.
+
+    ``surface_m``: ``profiles.surface_m`` with NaN set to 0, when the caller made it already.
+    """
+    surface = _finite_surface(profiles) if surface_m is None else surface_m
     clear = clearance(
         profiles.distance_m,
-        _finite_surface(profiles),
+        surface,
         profiles.interior,
         profiles.length_m,
         antenna_a_amsl_m,
@@ -235,7 +259,7 @@ def evaluate_profiles(
         k,
     )
     diffraction, by_method, warnings = terrain_diffraction_db(
-        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings
+        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings, surface
     )
     gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
@@ -486,8 +510,9 @@ def analyse_links(
     antenna_b = np.nan_to_num(ground_b) + agl_b
     fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
     with np.errstate(invalid="ignore"):
-        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings)
-        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings)
+        surface = _finite_surface(profiles)  # shared by both k-factors
+        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface)
+        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface)
     crit = settings.criterion
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst

@@ -353,7 +353,7 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     av = availability_for_links(
         out["fade_margin_db"], np.where(valid, length_m, 1.0), _radio_freq(task.radio, n),
         out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
-        task.settings.climate,
+        task.settings.climate, solve_required=False,  # the margin needed is not a screening column
     )
     for name, values in _availability_columns(av, n).items():
         out[name][:] = values

@@ -119,3 +119,23 @@ def test_default_spacing_is_half_a_cell(ridge):
     assert batch.profiles.spacing_m[0] == pytest.approx(cell / 2)
     steps = np.diff(batch.profiles.distance_m[0, : batch.profiles.n_samples[0]])
     assert steps.max() <= cell / 2 + 1e-9
+
+
+def test_gases_once_per_frequency_give_the_per_path_numbers():
+    """gaseous_loss_db computes gamma once per distinct frequency: same bits as A = gamma d per path
+    (ITU-R P.676-12 Annex 1 section 2.1 via gaseous_path_attenuation_db)."""
+    from types import SimpleNamespace
+
+    from profiler.link import gaseous_loss_db
+    from profiler.losses.atmosphere import gaseous_path_attenuation_db
+
+    rng = np.random.default_rng(4)
+    length = rng.uniform(100.0, 60_000.0, 300)
+    profiles = SimpleNamespace(length_m=length)
+    for freq in (np.full(300, 5.8), rng.choice([2.4, 11.0, 23.0, 0.5, 1500.0], 300), rng.uniform(1.0, 90.0, 300)):
+        got = gaseous_loss_db(profiles, freq)
+        use = (freq >= 1.0) & (freq <= 1000.0)
+        ref = np.zeros(300)
+        ref[use] = gaseous_path_attenuation_db(length[use], freq[use])
+        assert np.array_equal(got, ref)
+        assert np.all(got[~use] == 0.0) and np.all(got[use] > 0.0)
