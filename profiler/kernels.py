@@ -19,7 +19,7 @@ from .units import EARTH_RADIUS_M
 
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
-    "StoredCells", "TILE", "profile_reductions", "bullington_reductions",
+    "StoredCells", "TILE", "profile_reductions", "bullington_reductions", "clearance_reductions",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -490,8 +490,61 @@ def _build() -> dict:
             v_max[i] = s_m
         return stim, srim, v_max
 
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def clearance_reductions_nb(d1, surface, interior, length, ha, hb, lam, den, fraction):  # pragma: no cover
+        n_paths, width = d1.shape
+        worst = np.zeros(n_paths, dtype=np.int64)
+        worst_frac = np.empty(n_paths)
+        worst_gap = np.empty(n_paths)
+        los = np.empty(n_paths, dtype=np.bool_)
+        shortfall = np.full(n_paths, -np.inf)
+        for i in range(n_paths):
+            d = length[i]
+            a = ha[i]
+            rise = hb[i] - a
+            la = lam[i]
+            best = np.inf
+            idx = 0
+            g_min = np.inf
+            short = -np.inf
+            for c in range(width):
+                if not interior[i, c]:
+                    continue
+                x1 = d1[i, c]
+                x2 = max(d - x1, 0.0)
+                s = x1 + x2
+                f1 = np.sqrt(la * x1 * x2 / s) if s > 0 else 0.0
+                gap = (a + rise * x1 / d) - (surface[i, c] + x1 * x2 / den)
+                if f1 > 0:
+                    frac = gap / f1
+                    if frac < best:
+                        best = frac
+                        idx = c
+                if gap < g_min or gap != gap:
+                    g_min = gap
+                t = fraction * f1 - gap
+                if t > short or t != t:
+                    short = t
+            x1 = d1[i, idx]
+            x2 = max(d - x1, 0.0)
+            s = x1 + x2
+            f1 = np.sqrt(la * x1 * x2 / s) if s > 0 else 0.0
+            gap = (a + rise * x1 / d) - (surface[i, idx] + x1 * x2 / den)
+            if not interior[i, idx]:
+                worst_frac[i] = np.inf
+            elif f1 > 0:
+                worst_frac[i] = gap / f1
+            else:
+                worst_frac[i] = np.nan
+            worst[i] = idx
+            worst_gap[i] = gap
+            los[i] = g_min > 0.0
+            shortfall[i] = short
+        return worst, worst_frac, worst_gap, los, shortfall
+
     return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
-            "profile_reductions": profile_reductions_nb, "bullington_reductions": bullington_reductions_nb}
+            "profile_reductions": profile_reductions_nb, "bullington_reductions": bullington_reductions_nb,
+            "clearance_reductions": clearance_reductions_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -558,6 +611,26 @@ def bullington_reductions(
     return bullington_reductions_numpy(d1, interior, ha, hb, length, lam, k)
 
 
+def clearance_reductions(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, length: np.ndarray,
+    ha: np.ndarray, hb: np.ndarray, lam: np.ndarray, bulge_den: float, fraction: float | None,
+) -> tuple[np.ndarray, ...] | None:
+    """Worst point, line of sight and shortfall of large batches in one compiled pass, or None.
+
+    The arithmetic is that of :func:`profiler.geometry.clearance` (bulge d1 d2 /
+    ``bulge_den``, ``bulge_den`` = 2 k a; F1 = sqrt(lam d1 d2 / (d1 + d2))), in
+    the same order, so the numbers are the same bits; None when the batch is
+    small or numba is missing (the caller then uses whole arrays).
+    """
+    if not use_numba(d1.size):
+        return None
+    return _numba_kernels()["clearance_reductions"](
+        np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(surface, dtype=float),
+        np.ascontiguousarray(interior, dtype=np.bool_), *_columns(length, ha, hb, lam),
+        float(bulge_den), 0.0 if fraction is None else float(fraction),
+    )
+
+
 def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     """Load (or compile) the numba kernels for these cell types now, not on the first big batch."""
     if os.environ.get("TERRAHOP_NO_NUMBA"):
@@ -576,3 +649,5 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
                             col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
     k["bullington_reductions"](np.array([[0.0, 1.0, 2.0]]), np.ones((1, 3), dtype=np.bool_),
                                col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
+    k["clearance_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
+                              2.0 * col, col, col, col, 1.0, 0.0)

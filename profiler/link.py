@@ -242,10 +242,12 @@ def evaluate_profiles(
     k: float,
     settings: Settings,
     surface_m: np.ndarray | None = None,
+    shortfall_f1_fraction: float | None = None,
 ) -> AtK:
     """Clearance, losses and budget of prepared profiles at one k-factor.
 
-    ``surface_m``: ``profiles.surface_m`` with NaN set to 0, when the caller made it already.
+    ``surface_m``: ``profiles.surface_m`` with NaN set to 0, when the caller made it already;
+    ``shortfall_f1_fraction``: see :func:`profiler.geometry.clearance`.
     """
     surface = _finite_surface(profiles) if surface_m is None else surface_m
     clear = clearance(
@@ -257,6 +259,7 @@ def evaluate_profiles(
         antenna_b_amsl_m,
         _per_path(radio.freq_ghz),
         k,
+        shortfall_f1_fraction,
     )
     diffraction, by_method, warnings = terrain_diffraction_db(
         profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings, surface
@@ -511,9 +514,11 @@ def analyse_links(
     fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
     with np.errstate(invalid="ignore"):
         surface = _finite_surface(profiles)  # shared by both k-factors
-        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface)
-        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface)
-    crit = settings.criterion
+        crit = settings.criterion
+        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface,
+                                   crit.min_f1_fraction)
+        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface,
+                                  crit.min_f1_fraction_worst)
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
     )

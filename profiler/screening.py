@@ -263,8 +263,10 @@ def mast_raise_m(batch: LinkBatch) -> np.ndarray:
     interior = batch.profiles.interior
     for at_k, frac in ((batch.design, crit.min_f1_fraction), (batch.worst, crit.min_f1_fraction_worst)):
         c = at_k.clearance
-        short = np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf)
-        need = np.maximum(need, np.max(short, axis=1))
+        short = c.shortfall_m  # made with the clearance by analyse_links (the same numbers)
+        if short is None:
+            short = np.max(np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf), axis=1)
+        need = np.maximum(need, short)
     return np.maximum(need, 0.0)
 
 
