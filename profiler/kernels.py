@@ -19,7 +19,7 @@ from .units import EARTH_RADIUS_M
 
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
-    "StoredCells", "TILE", "profile_reductions", "bullington_reductions", "clearance_reductions",
+    "StoredCells", "TILE", "diffraction_reductions", "clearance_reductions",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -291,6 +291,52 @@ def bullington_reductions_numpy(
     return stim, srim, v_max
 
 
+
+def smooth_heights_numpy(
+    v1: np.ndarray, v2: np.ndarray, hobs: np.ndarray, aobt: np.ndarray, aobr: np.ndarray,
+    length: np.ndarray, h0: np.ndarray, hn: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Smooth-surface heights hstd, hsrd at a and b (ITU-R P.526-15 section 4.5.2), m, each (P,).
+
+    Least-squares line from the sums ``v1``, ``v2`` (hst = (2 v1 d - v2) / d^2,
+    hsr = (v2 - v1 d) / d^2), lowered under the highest obstacle ``hobs`` in
+    the ratio of ``aobt`` to ``aobr`` when hobs > 0, capped at the ground ``h0``, ``hn``.
+    """
+    hst = (2.0 * v1 * length - v2) / (length * length)
+    hsr = (v2 - v1 * length) / (length * length)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share_t = aobt / (aobt + aobr)
+    lower = hobs > 0.0
+    hst = np.where(lower, hst - hobs * share_t, hst)
+    hsr = np.where(lower, hsr - hobs * (1.0 - share_t), hsr)
+    return np.minimum(hst, h0), np.minimum(hsr, hn)
+
+
+def diffraction_reductions_numpy(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray, smooth: bool = True,
+) -> tuple[np.ndarray, ...]:
+    """What the Bullington-family methods need of each profile at one k, each (P,).
+
+    ``stim``, ``srim``, ``v_max``, ``i_max`` of the profile
+    (:func:`profile_reductions_numpy`); with ``smooth``, the smooth-surface
+    heights ``hstd``, ``hsrd`` (:func:`smooth_heights_numpy`) and ``stim``,
+    ``srim``, ``v_max`` of the bare smooth earth under antennas ha - hstd,
+    hb - hsrd (:func:`bullington_reductions_numpy`), else those five NaN.
+    The compiled twin makes them in one pass per path, with the same bits.
+    """
+    stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr = profile_reductions_numpy(
+        d1, surface, interior, ha, hb, length, lam, k)
+    if not smooth:
+        nan = np.full(stim.shape, np.nan)
+        return stim, srim, v_max, i_max, nan, nan, nan, nan, nan
+    length = np.asarray(length, dtype=float)
+    hstd, hsrd = smooth_heights_numpy(v1, v2, hobs, aobt, aobr, length, surface[:, 0], surface[:, -1])
+    stim_s, srim_s, v_max_s = bullington_reductions_numpy(
+        d1, interior, np.asarray(ha, dtype=float) - hstd, np.asarray(hb, dtype=float) - hsrd, length, lam, k)
+    return stim, srim, v_max, i_max, hstd, hsrd, stim_s, srim_s, v_max_s
+
+
 # ---------------------------------------------------------------- numba versions
 
 def _build() -> dict:
@@ -377,18 +423,32 @@ def _build() -> dict:
             out[k] = top + (bottom - top) * fy
         return out, inside
 
+    # The reductions below first fill row buffers in branch-free loops (which the
+    # compiler turns into SIMD code; IEEE operations give the same bits in every
+    # lane), then take maxima over the interior in scalar loops.
+
     @numba.njit(cache=True, nogil=True, error_model="numpy")
-    def profile_reductions_nb(d1, surface, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
+    def diffraction_reductions_nb(d1, surface, interior, ha, hb, length, lam, k, radius, smooth):  # pragma: no cover
         n_paths, width = d1.shape
         stim = np.full(n_paths, -np.inf)
         srim = np.full(n_paths, -np.inf)
         v_max = np.full(n_paths, -np.inf)
         i_max = np.zeros(n_paths, dtype=np.int64)
-        v1 = np.zeros(n_paths)
-        v2 = np.zeros(n_paths)
-        hobs = np.full(n_paths, -np.inf)
-        aobt = np.full(n_paths, -np.inf)
-        aobr = np.full(n_paths, -np.inf)
+        hstd = np.full(n_paths, np.nan)
+        hsrd = np.full(n_paths, np.nan)
+        stim_s = np.full(n_paths, np.nan)
+        srim_s = np.full(n_paths, np.nan)
+        v_max_s = np.full(n_paths, np.nan)
+        inv1 = np.empty(width)
+        inv2 = np.empty(width)
+        ob = np.empty(width)
+        b1 = np.empty(width)
+        b2 = np.empty(width)
+        b3 = np.empty(width)
+        b4 = np.empty(width)
+        b5 = np.empty(width)
+        b6 = np.empty(width)
+        ok = np.empty(width, dtype=np.bool_)
         for i in range(n_paths):
             a = ha[i]
             b = hb[i]
@@ -397,98 +457,121 @@ def _build() -> dict:
             inv_d = 1.0 / d
             slope = (b - a) * inv_d
             two_over_lam = 2.0 / lam[i]
+            # Pass 1 (no k): reciprocals; the smooth-surface sums and obstacle maxima.
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = d - x1
+                ok[c] = interior[i, c] & (x1 > 0.0) & (x2 > 0.0)
+                inv1[c] = 1.0 / x1
+                inv2[c] = 1.0 / x2
+            hts = 0.0
+            hrs = 0.0
+            slope_s = 0.0
+            if smooth:
+                for c in range(width):
+                    x1 = d1[i, c]
+                    o = surface[i, c] - (a * (d - x1) + b * x1) * inv_d
+                    ob[c] = o
+                    b1[c] = o * inv1[c]
+                    b2[c] = o * inv2[c]
+                acc1 = 0.0
+                acc2 = 0.0
+                o_h = -np.inf
+                o_t = -np.inf
+                o_r = -np.inf
+                for c in range(width):
+                    if c > 0:
+                        x1 = d1[i, c]
+                        h = surface[i, c]
+                        xp = d1[i, c - 1]
+                        hp = surface[i, c - 1]
+                        step = x1 - xp
+                        acc1 += step * (h + hp)
+                        acc2 += step * (h * (2.0 * x1 + xp) + hp * (x1 + 2.0 * xp))
+                    if not ok[c]:
+                        continue
+                    t = ob[c]
+                    if t > o_h or t != t:
+                        o_h = t
+                    t = b1[c]
+                    if t > o_t or t != t:
+                        o_t = t
+                    t = b2[c]
+                    if t > o_r or t != t:
+                        o_r = t
+                hst = (2.0 * acc1 * d - acc2) / (d * d)
+                hsr = (acc2 - acc1 * d) / (d * d)
+                share_t = o_t / (o_t + o_r)
+                if o_h > 0.0:
+                    hst = hst - o_h * share_t
+                    hsr = hsr - o_h * (1.0 - share_t)
+                h0 = surface[i, 0]
+                hn = surface[i, width - 1]
+                hst = h0 if h0 < hst else hst  # np.minimum: NaN stays NaN
+                hsr = hn if hn < hsr else hsr
+                hstd[i] = hst
+                hsrd[i] = hsr
+                hts = a - hst
+                hrs = b - hsr
+                slope_s = (hrs - hts) * inv_d
+            # Pass 2 (at k): Bullington over the profile and over the bare smooth earth.
+            for c in range(width):
+                x1 = d1[i, c]
+                i1 = inv1[c]
+                i2 = inv2[c]
+                bulge = x1 * (d - x1) * inv_den
+                q = np.sqrt(two_over_lam * (i1 + i2))
+                elev = surface[i, c] + bulge
+                b1[c] = (elev - (a + x1 * slope)) * q
+                b2[c] = (elev - a) * i1
+                b3[c] = (elev - b) * i2
+                b4[c] = q
+            if smooth:
+                for c in range(width):
+                    x1 = d1[i, c]
+                    bulge = x1 * (d - x1) * inv_den
+                    b5[c] = (bulge - hts) * inv1[c]
+                    b6[c] = (bulge - hrs) * inv2[c]
+                    b4[c] = (bulge - (hts + x1 * slope_s)) * b4[c]
             s_a = -np.inf
             s_b = -np.inf
             s_m = -np.inf
             s_i = 0
-            o_h = -np.inf
-            o_t = -np.inf
-            o_r = -np.inf
-            acc1 = 0.0
-            acc2 = 0.0
+            m_a = -np.inf
+            m_b = -np.inf
+            m_m = -np.inf
             for c in range(width):
-                x1 = d1[i, c]
-                h = surface[i, c]
-                if c > 0:
-                    xp = d1[i, c - 1]
-                    hp = surface[i, c - 1]
-                    step = x1 - xp
-                    acc1 += step * (h + hp)
-                    acc2 += step * (h * (2.0 * x1 + xp) + hp * (x1 + 2.0 * xp))
-                x2 = d - x1
-                if not (interior[i, c] and x1 > 0.0 and x2 > 0.0):
+                if not ok[c]:
                     continue
-                inv1 = 1.0 / x1
-                inv2 = 1.0 / x2
-                elev = h + x1 * x2 * inv_den
-                height = elev - (a + x1 * slope)
-                v = height * np.sqrt(two_over_lam * (inv1 + inv2))
+                v = b1[c]
                 if v > s_m or (v != v and s_m == s_m):
                     s_m = v
                     s_i = c
-                t = (elev - a) * inv1
+                t = b2[c]
                 if t > s_a or t != t:
                     s_a = t
-                t = (elev - b) * inv2
+                t = b3[c]
                 if t > s_b or t != t:
                     s_b = t
-                obst = h - (a * x2 + b * x1) * inv_d
-                if obst > o_h or obst != obst:
-                    o_h = obst
-                t = obst * inv1
-                if t > o_t or t != t:
-                    o_t = t
-                t = obst * inv2
-                if t > o_r or t != t:
-                    o_r = t
+                if smooth:
+                    t = b5[c]
+                    if t > m_a or t != t:
+                        m_a = t
+                    t = b6[c]
+                    if t > m_b or t != t:
+                        m_b = t
+                    t = b4[c]
+                    if t > m_m or t != t:
+                        m_m = t
             stim[i] = s_a
             srim[i] = s_b
             v_max[i] = s_m
             i_max[i] = s_i
-            v1[i] = acc1
-            v2[i] = acc2
-            hobs[i] = o_h
-            aobt[i] = o_t
-            aobr[i] = o_r
-        return stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr
-
-    @numba.njit(cache=True, nogil=True, error_model="numpy")
-    def bullington_reductions_nb(d1, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
-        n_paths, width = d1.shape
-        stim = np.full(n_paths, -np.inf)
-        srim = np.full(n_paths, -np.inf)
-        v_max = np.full(n_paths, -np.inf)
-        for i in range(n_paths):
-            a = ha[i]
-            b = hb[i]
-            d = length[i]
-            inv_den = 1.0 / (2.0 * k[i] * radius)
-            slope = (b - a) * (1.0 / d)
-            two_over_lam = 2.0 / lam[i]
-            s_a = -np.inf
-            s_b = -np.inf
-            s_m = -np.inf
-            for c in range(width):
-                x1 = d1[i, c]
-                x2 = d - x1
-                if not (interior[i, c] and x1 > 0.0 and x2 > 0.0):
-                    continue
-                inv1 = 1.0 / x1
-                inv2 = 1.0 / x2
-                elev = x1 * x2 * inv_den
-                t = (elev - a) * inv1
-                if t > s_a or t != t:
-                    s_a = t
-                t = (elev - b) * inv2
-                if t > s_b or t != t:
-                    s_b = t
-                t = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (inv1 + inv2))
-                if t > s_m or t != t:
-                    s_m = t
-            stim[i] = s_a
-            srim[i] = s_b
-            v_max[i] = s_m
-        return stim, srim, v_max
+            if smooth:
+                stim_s[i] = m_a
+                srim_s[i] = m_b
+                v_max_s[i] = m_m
+        return stim, srim, v_max, i_max, hstd, hsrd, stim_s, srim_s, v_max_s
 
     @numba.njit(cache=True, nogil=True, error_model="numpy")
     def clearance_reductions_nb(d1, surface, interior, length, ha, hb, lam, den, fraction):  # pragma: no cover
@@ -498,11 +581,24 @@ def _build() -> dict:
         worst_gap = np.empty(n_paths)
         los = np.empty(n_paths, dtype=np.bool_)
         shortfall = np.full(n_paths, -np.inf)
+        fb = np.empty(width)
+        gb = np.empty(width)
+        qb = np.empty(width)
         for i in range(n_paths):
             d = length[i]
             a = ha[i]
             rise = hb[i] - a
             la = lam[i]
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = max(d - x1, 0.0)
+                s = x1 + x2
+                r2 = la * x1 * x2 / s
+                f1 = np.sqrt(r2 if s > 0 else 0.0)
+                gap = (a + rise * x1 / d) - (surface[i, c] + x1 * x2 / den)
+                fb[c] = f1
+                gb[c] = gap
+                qb[c] = gap / f1
             best = np.inf
             idx = 0
             g_min = np.inf
@@ -510,41 +606,30 @@ def _build() -> dict:
             for c in range(width):
                 if not interior[i, c]:
                     continue
-                x1 = d1[i, c]
-                x2 = max(d - x1, 0.0)
-                s = x1 + x2
-                f1 = np.sqrt(la * x1 * x2 / s) if s > 0 else 0.0
-                gap = (a + rise * x1 / d) - (surface[i, c] + x1 * x2 / den)
-                if f1 > 0:
-                    frac = gap / f1
-                    if frac < best:
-                        best = frac
-                        idx = c
+                f1 = fb[c]
+                gap = gb[c]
+                if f1 > 0 and qb[c] < best:
+                    best = qb[c]
+                    idx = c
                 if gap < g_min or gap != gap:
                     g_min = gap
                 t = fraction * f1 - gap
                 if t > short or t != t:
                     short = t
-            x1 = d1[i, idx]
-            x2 = max(d - x1, 0.0)
-            s = x1 + x2
-            f1 = np.sqrt(la * x1 * x2 / s) if s > 0 else 0.0
-            gap = (a + rise * x1 / d) - (surface[i, idx] + x1 * x2 / den)
             if not interior[i, idx]:
                 worst_frac[i] = np.inf
-            elif f1 > 0:
-                worst_frac[i] = gap / f1
+            elif fb[idx] > 0:
+                worst_frac[i] = qb[idx]
             else:
                 worst_frac[i] = np.nan
             worst[i] = idx
-            worst_gap[i] = gap
+            worst_gap[i] = gb[idx]
             los[i] = g_min > 0.0
             shortfall[i] = short
         return worst, worst_frac, worst_gap, los, shortfall
 
     return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
-            "profile_reductions": profile_reductions_nb, "bullington_reductions": bullington_reductions_nb,
-            "clearance_reductions": clearance_reductions_nb}
+            "diffraction_reductions": diffraction_reductions_nb, "clearance_reductions": clearance_reductions_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -585,30 +670,18 @@ def _columns(*arrays) -> tuple[np.ndarray, ...]:
     return tuple(np.ascontiguousarray(np.asarray(a, dtype=float).reshape(-1)) for a in arrays)
 
 
-def profile_reductions(
+def diffraction_reductions(
     d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
-    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray, smooth: bool = True,
 ) -> tuple[np.ndarray, ...]:
-    """Bullington, edge and smooth-surface reductions of profiles (see :func:`profile_reductions_numpy`)."""
+    """Reductions of profiles for the Bullington-family methods (see :func:`diffraction_reductions_numpy`)."""
     if use_numba(d1.size):
-        return _numba_kernels()["profile_reductions"](
+        return _numba_kernels()["diffraction_reductions"](
             np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(surface, dtype=float),
             np.ascontiguousarray(interior, dtype=np.bool_), *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+            bool(smooth),
         )
-    return profile_reductions_numpy(d1, surface, interior, ha, hb, length, lam, k)
-
-
-def bullington_reductions(
-    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
-    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Bullington reductions over a smooth earth (see :func:`bullington_reductions_numpy`)."""
-    if use_numba(d1.size):
-        return _numba_kernels()["bullington_reductions"](
-            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(interior, dtype=np.bool_),
-            *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
-        )
-    return bullington_reductions_numpy(d1, interior, ha, hb, length, lam, k)
+    return diffraction_reductions_numpy(d1, surface, interior, ha, hb, length, lam, k, smooth)
 
 
 def clearance_reductions(
@@ -645,9 +718,8 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
         k["affine_gather"](np.zeros((1, 1, TILE, TILE), dtype=dt), 2, 2, 0, 0, np.zeros(1), np.zeros(1),
                            1.0, 0.0, 0.0, 0.0, -1.0, 0.0, 2, 2, 1.0, 0.0, False)
     col = np.ones(1)
-    k["profile_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
-                            col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
-    k["bullington_reductions"](np.array([[0.0, 1.0, 2.0]]), np.ones((1, 3), dtype=np.bool_),
-                               col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
+    for smooth in (True, False):
+        k["diffraction_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
+                                    col, col, 2.0 * col, col, col, EARTH_RADIUS_M, smooth)
     k["clearance_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
                               2.0 * col, col, col, col, 1.0, 0.0)

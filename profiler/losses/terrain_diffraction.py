@@ -314,7 +314,7 @@ def _bullington_from(
     """Bullington loss (ITU-R P.526-15 section 4.5.1) from the profile's reductions, dB (P,).
 
     ``stim``, ``srim``: largest slopes from each antenna to the profile; ``v_max``:
-    largest v (the line-of-sight case) (see :func:`profiler.kernels.profile_reductions`);
+    largest v (the line-of-sight case) (see :func:`profiler.kernels.diffraction_reductions`);
     ha, hb, d, lam in metres, each (P,).
     """
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -329,29 +329,9 @@ def _bullington_from(
     return luc + (1.0 - np.exp(-luc / 6.0)) * (10.0 + 0.02 * d / 1000.0)
 
 
-def _smooth_from(
-    v1: np.ndarray, v2: np.ndarray, hobs: np.ndarray, aobt: np.ndarray, aobr: np.ndarray,
-    length: np.ndarray, h0: np.ndarray, hn: np.ndarray,
-) -> tuple[np.ndarray, np.ndarray]:
-    """Smooth-surface heights at a and b for the complete method (ITU-R P.526-15 section 4.5.2).
-
-    Least-squares line (sums v1, v2) over the profile, lowered so that it
-    passes under the highest obstacle (hobs, aobt, aobr), and capped at the
-    ground (h0, hn) at each end.  Metres, each (P,).
-    """
-    hst = (2.0 * v1 * length - v2) / length**2
-    hsr = (v2 - v1 * length) / length**2
-    with np.errstate(divide="ignore", invalid="ignore"):
-        share_t = aobt / (aobt + aobr)
-    lower = hobs > 0.0
-    hst = np.where(lower, hst - hobs * share_t, hst)
-    hsr = np.where(lower, hsr - hobs * (1.0 - share_t), hsr)
-    return np.minimum(hst, h0), np.minimum(hsr, hn)
-
-
 @dataclass(frozen=True)
 class _Reduced:
-    """Per-path reductions of checked profiles at one k (see profiler.kernels.profile_reductions)."""
+    """Per-path reductions of checked profiles at one k (see profiler.kernels.diffraction_reductions)."""
 
     c: _Checked
     lam: np.ndarray  # (P,)
@@ -359,21 +339,22 @@ class _Reduced:
     srim: np.ndarray
     v_max: np.ndarray
     i_max: np.ndarray
-    v1: np.ndarray
-    v2: np.ndarray
-    hobs: np.ndarray
-    aobt: np.ndarray
-    aobr: np.ndarray
+    hstd: np.ndarray  # smooth surface (NaN unless asked for)
+    hsrd: np.ndarray
+    stim_s: np.ndarray
+    srim_s: np.ndarray
+    v_max_s: np.ndarray
 
     def column(self, name: str) -> np.ndarray:
         return getattr(self.c, name)[:, 0]
 
 
-def _reduce(c: _Checked) -> _Reduced:
-    from ..kernels import profile_reductions
+def _reduce(c: _Checked, smooth: bool) -> _Reduced:
+    from ..kernels import diffraction_reductions
 
     lam = wavelength_m(c.freq[:, 0])
-    out = profile_reductions(c.d1, c.surface, c.interior, c.ha[:, 0], c.hb[:, 0], c.length[:, 0], lam, c.k[:, 0])
+    out = diffraction_reductions(c.d1, c.surface, c.interior, c.ha[:, 0], c.hb[:, 0], c.length[:, 0], lam,
+                                 c.k[:, 0], smooth)
     return _Reduced(c, lam, *out)
 
 
@@ -381,25 +362,19 @@ def _bullington_reduced(r: _Reduced) -> np.ndarray:
     return _bullington_from(r.stim, r.srim, r.v_max, r.column("ha"), r.column("hb"), r.column("length"), r.lam)
 
 
-def _smooth_surface_reduced(r: _Reduced) -> tuple[np.ndarray, np.ndarray]:
-    return _smooth_from(r.v1, r.v2, r.hobs, r.aobt, r.aobr, r.column("length"),
-                        r.c.surface[:, 0], r.c.surface[:, -1])
-
-
 def _delta_bullington(r: _Reduced, polarisation: str, ground: str | GroundConstants,
                       l_bulla: np.ndarray | None = None) -> np.ndarray:
-    """Complete method Ld = Lbulla + max(Ldsph - Lbulls, 0) (ITU-R P.526-15 section 4.5.2)."""
-    from ..kernels import bullington_reductions
+    """Complete method Ld = Lbulla + max(Ldsph - Lbulls, 0) (ITU-R P.526-15 section 4.5.2).
 
+    Lbulls is Bullington over the bare smooth earth (bulge only) with the
+    antennas at hts = ha - hstd, hrs = hb - hsrd above the smooth surface.
+    """
     if l_bulla is None:
         l_bulla = _bullington_reduced(r)
-    hstd, hsrd = _smooth_surface_reduced(r)
     length, k = r.column("length"), r.column("k")
-    hts_s = r.column("ha") - hstd
-    hrs_s = r.column("hb") - hsrd
-    # Bullington over the bare smooth earth (bulge only) with the antennas above the smooth surface.
-    stim, srim, v_max = bullington_reductions(r.c.d1, r.c.interior, hts_s, hrs_s, length, r.lam, k)
-    l_bulls = _bullington_from(stim, srim, v_max, hts_s, hrs_s, length, r.lam)
+    hts_s = r.column("ha") - r.hstd
+    hrs_s = r.column("hb") - r.hsrd
+    l_bulls = _bullington_from(r.stim_s, r.srim_s, r.v_max_s, hts_s, hrs_s, length, r.lam)
     l_dsph = smooth_earth_loss_db(
         length, hts_s, hrs_s, r.column("freq"), k, polarisation=polarisation, ground=ground
     )
@@ -443,10 +418,14 @@ def _run(methods: tuple[str, ...], args: tuple, polarisation: str,
     n_paths, n_cols = shape
     pieces: dict[str, list[np.ndarray]] = {m: [] for m in methods}
     warnings: list[tuple[str, ...]] = []
-    for sl in _blocks(n_paths, n_cols):
+    from ..kernels import use_numba
+
+    # The compiled reductions make no (P, N) temporaries: no need to cut the batch then.
+    whole = not ({"deygout", "epstein-peterson"} & set(methods)) and use_numba(n_paths * n_cols)
+    for sl in [slice(0, n_paths)] if whole else _blocks(n_paths, n_cols):
         part = _split_args(args, sl, n_paths)
         c = _check(*part)
-        r = _reduce(c) if (_REDUCED_METHODS & set(methods)) or warn else None
+        r = _reduce(c, "delta-bullington" in methods) if (_REDUCED_METHODS & set(methods)) or warn else None
         b = parts = None
         if {"deygout", "epstein-peterson"} & set(methods):
             b = _prepare(*part)
@@ -594,7 +573,8 @@ def smooth_surface_heights_m(
     lowered under the highest obstacle, capped by the ground at each end.
     """
     c = _check(distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    return _smooth_surface_reduced(_reduce(c))
+    r = _reduce(c, True)
+    return r.hstd, r.hsrd
 
 
 def diffraction_validity_warnings(
