@@ -276,7 +276,7 @@ def _per_path(value: Any) -> Any:
 
 def _finite_surface(profiles: Profiles) -> np.ndarray:
     surface = profiles.surface_m
-    return np.where(np.isnan(surface), 0.0, surface)
+    return np.where(np.isnan(surface), 0.0, surface) if np.isnan(surface).any() else surface
 
 
 @dataclass(frozen=True)
