@@ -35,6 +35,7 @@ from .terrain import ElevationModel
 
 __all__ = [
     "Site",
+    "SiteColumns",
     "Criterion",
     "Settings",
     "AtK",
@@ -70,6 +71,36 @@ class Site:
                 f"{where}: antenna height above ground must be 0 m or more, got {self.antenna_agl_m} m"
             )
         return self
+
+
+@dataclass(frozen=True, eq=False)
+class SiteColumns(Sequence[Site]):
+    """Many sites as columns (names, degrees, metres): a sequence of :class:`Site`
+    whose items are made only when asked for.  Batch callers (screening) pass
+    these to :func:`analyse_links` instead of one object per site."""
+
+    names: np.ndarray
+    lat_deg: np.ndarray
+    lon_deg: np.ndarray
+    antenna_agl_m: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.lat_deg)
+
+    def __getitem__(self, i):  # type: ignore[override]
+        if isinstance(i, slice):
+            return [self[j] for j in range(*i.indices(len(self)))]
+        return Site(str(self.names[i]), float(self.lat_deg[i]), float(self.lon_deg[i]),
+                    float(self.antenna_agl_m[i]))
+
+
+def _site_arrays(sites: Sequence[Site]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Latitudes, longitudes and antenna heights of sites, as float arrays."""
+    if isinstance(sites, SiteColumns):
+        return (np.asarray(sites.lat_deg, dtype=float), np.asarray(sites.lon_deg, dtype=float),
+                np.asarray(sites.antenna_agl_m, dtype=float))
+    return (np.array([s.lat_deg for s in sites], dtype=float), np.array([s.lon_deg for s in sites], dtype=float),
+            np.array([s.antenna_agl_m for s in sites], dtype=float))
 
 
 @dataclass(frozen=True)
@@ -284,8 +315,8 @@ class LinkBatch:
     """Results of many links; ``record(i)`` gives the JSON object of link i."""
 
     names: tuple[str, ...]
-    sites_a: tuple[Site, ...]
-    sites_b: tuple[Site, ...]
+    sites_a: Sequence[Site]  # a tuple, or SiteColumns from batch callers
+    sites_b: Sequence[Site]
     radio: Radio
     settings: Settings
     profiles: Profiles
@@ -491,10 +522,8 @@ def analyse_links(
                 f"{name}: site a {a.name!r} and site b {b.name!r} are at the same position "
                 f"({a.lat_deg}, {a.lon_deg}); a link needs two different places"
             )
-    lat_a = np.array([s.lat_deg for s in sites_a])
-    lon_a = np.array([s.lon_deg for s in sites_a])
-    lat_b = np.array([s.lat_deg for s in sites_b])
-    lon_b = np.array([s.lon_deg for s in sites_b])
+    lat_a, lon_a, agl_a = _site_arrays(sites_a)
+    lat_b, lon_b, agl_b = _site_arrays(sites_b)
     spacing = settings.spacing_m
     if surroundings is not None and spacing is None:
         spacing = surroundings.default_spacing_m(model, lon_a, lat_a)
@@ -507,8 +536,6 @@ def analyse_links(
     last = profiles.n_samples - 1
     ground_a = profiles.ground_m[:, 0]
     ground_b = profiles.ground_m[rows, last]
-    agl_a = np.array([s.antenna_agl_m for s in sites_a])
-    agl_b = np.array([s.antenna_agl_m for s in sites_b])
     antenna_a = np.nan_to_num(ground_a) + agl_a
     antenna_b = np.nan_to_num(ground_b) + agl_b
     fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
@@ -541,8 +568,8 @@ def analyse_links(
     }
     return LinkBatch(
         names=tuple(names),
-        sites_a=tuple(sites_a),
-        sites_b=tuple(sites_b),
+        sites_a=sites_a if isinstance(sites_a, SiteColumns) else tuple(sites_a),
+        sites_b=sites_b if isinstance(sites_b, SiteColumns) else tuple(sites_b),
         radio=radio,
         settings=settings,
         profiles=profiles,

@@ -139,3 +139,23 @@ def test_gases_once_per_frequency_give_the_per_path_numbers():
         ref[use] = gaseous_path_attenuation_db(length[use], freq[use])
         assert np.array_equal(got, ref)
         assert np.all(got[~use] == 0.0) and np.all(got[use] > 0.0)
+
+
+def test_site_columns_give_the_numbers_of_site_objects(ridge):
+    """Batch callers may pass SiteColumns (arrays) instead of one Site per link: same records."""
+    from profiler.link import SiteColumns
+
+    a = [Site("a1", 46.02, 10.01, 10), Site("a2", 46.0, 10.01, 30), Site("a3", 46.04, 10.02, 3)]
+    b = [Site("b1", 46.02, 10.09, 10), Site("b2", 46.03, 10.03, 5), Site("b3", 46.01, 10.08, 12)]
+
+    def columns(sites):
+        return SiteColumns(np.array([s.name for s in sites], dtype=object), np.array([s.lat_deg for s in sites]),
+                           np.array([s.lon_deg for s in sites]), np.array([s.antenna_agl_m for s in sites]))
+
+    ref = analyse_links(ridge, a, b, RADIO)
+    got = analyse_links(ridge, columns(a), columns(b), RADIO)
+    assert list(columns(a)) == a and columns(b)[1:] == b[1:]
+    for i in range(3):
+        rec, want = got.record(i), ref.record(i)
+        for key in ("sites", "distance_km", "loss_db", "budget", "clearance", "worst_case", "availability"):
+            assert rec[key] == want[key]
