@@ -19,7 +19,7 @@ from .units import EARTH_RADIUS_M
 
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
-    "StoredCells", "TILE", "diffraction_reductions", "clearance_reductions",
+    "StoredCells", "TILE", "diffraction_reductions", "bullington_reductions", "clearance_reductions",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -319,23 +319,18 @@ def diffraction_reductions_numpy(
     """What the Bullington-family methods need of each profile at one k, each (P,).
 
     ``stim``, ``srim``, ``v_max``, ``i_max`` of the profile
-    (:func:`profile_reductions_numpy`); with ``smooth``, the smooth-surface
-    heights ``hstd``, ``hsrd`` (:func:`smooth_heights_numpy`) and ``stim``,
-    ``srim``, ``v_max`` of the bare smooth earth under antennas ha - hstd,
-    hb - hsrd (:func:`bullington_reductions_numpy`), else those five NaN.
+    (:func:`profile_reductions_numpy`) and, with ``smooth``, the smooth-surface
+    heights ``hstd``, ``hsrd`` (:func:`smooth_heights_numpy`; NaN without).
     The compiled twin makes them in one pass per path, with the same bits.
     """
     stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr = profile_reductions_numpy(
         d1, surface, interior, ha, hb, length, lam, k)
     if not smooth:
         nan = np.full(stim.shape, np.nan)
-        return stim, srim, v_max, i_max, nan, nan, nan, nan, nan
-    length = np.asarray(length, dtype=float)
-    hstd, hsrd = smooth_heights_numpy(v1, v2, hobs, aobt, aobr, length, surface[:, 0], surface[:, -1])
-    stim_s, srim_s, v_max_s = bullington_reductions_numpy(
-        d1, interior, np.asarray(ha, dtype=float) - hstd, np.asarray(hb, dtype=float) - hsrd, length, lam, k)
-    return stim, srim, v_max, i_max, hstd, hsrd, stim_s, srim_s, v_max_s
-
+        return stim, srim, v_max, i_max, nan, nan
+    hstd, hsrd = smooth_heights_numpy(v1, v2, hobs, aobt, aobr, np.asarray(length, dtype=float),
+                                      surface[:, 0], surface[:, -1])
+    return stim, srim, v_max, i_max, hstd, hsrd
 
 # ---------------------------------------------------------------- numba versions
 
@@ -436,18 +431,12 @@ def _build() -> dict:
         i_max = np.zeros(n_paths, dtype=np.int64)
         hstd = np.full(n_paths, np.nan)
         hsrd = np.full(n_paths, np.nan)
-        stim_s = np.full(n_paths, np.nan)
-        srim_s = np.full(n_paths, np.nan)
-        v_max_s = np.full(n_paths, np.nan)
         inv1 = np.empty(width)
         inv2 = np.empty(width)
         ob = np.empty(width)
         b1 = np.empty(width)
         b2 = np.empty(width)
         b3 = np.empty(width)
-        b4 = np.empty(width)
-        b5 = np.empty(width)
-        b6 = np.empty(width)
         ok = np.empty(width, dtype=np.bool_)
         for i in range(n_paths):
             a = ha[i]
@@ -464,9 +453,6 @@ def _build() -> dict:
                 ok[c] = interior[i, c] & (x1 > 0.0) & (x2 > 0.0)
                 inv1[c] = 1.0 / x1
                 inv2[c] = 1.0 / x2
-            hts = 0.0
-            hrs = 0.0
-            slope_s = 0.0
             if smooth:
                 for c in range(width):
                     x1 = d1[i, c]
@@ -511,35 +497,19 @@ def _build() -> dict:
                 hsr = hn if hn < hsr else hsr
                 hstd[i] = hst
                 hsrd[i] = hsr
-                hts = a - hst
-                hrs = b - hsr
-                slope_s = (hrs - hts) * inv_d
-            # Pass 2 (at k): Bullington over the profile and over the bare smooth earth.
+            # Pass 2 (at k): Bullington over the profile.
             for c in range(width):
                 x1 = d1[i, c]
                 i1 = inv1[c]
                 i2 = inv2[c]
-                bulge = x1 * (d - x1) * inv_den
-                q = np.sqrt(two_over_lam * (i1 + i2))
-                elev = surface[i, c] + bulge
-                b1[c] = (elev - (a + x1 * slope)) * q
+                elev = surface[i, c] + x1 * (d - x1) * inv_den
+                b1[c] = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (i1 + i2))
                 b2[c] = (elev - a) * i1
                 b3[c] = (elev - b) * i2
-                b4[c] = q
-            if smooth:
-                for c in range(width):
-                    x1 = d1[i, c]
-                    bulge = x1 * (d - x1) * inv_den
-                    b5[c] = (bulge - hts) * inv1[c]
-                    b6[c] = (bulge - hrs) * inv2[c]
-                    b4[c] = (bulge - (hts + x1 * slope_s)) * b4[c]
             s_a = -np.inf
             s_b = -np.inf
             s_m = -np.inf
             s_i = 0
-            m_a = -np.inf
-            m_b = -np.inf
-            m_m = -np.inf
             for c in range(width):
                 if not ok[c]:
                     continue
@@ -553,25 +523,58 @@ def _build() -> dict:
                 t = b3[c]
                 if t > s_b or t != t:
                     s_b = t
-                if smooth:
-                    t = b5[c]
-                    if t > m_a or t != t:
-                        m_a = t
-                    t = b6[c]
-                    if t > m_b or t != t:
-                        m_b = t
-                    t = b4[c]
-                    if t > m_m or t != t:
-                        m_m = t
             stim[i] = s_a
             srim[i] = s_b
             v_max[i] = s_m
             i_max[i] = s_i
-            if smooth:
-                stim_s[i] = m_a
-                srim_s[i] = m_b
-                v_max_s[i] = m_m
-        return stim, srim, v_max, i_max, hstd, hsrd, stim_s, srim_s, v_max_s
+        return stim, srim, v_max, i_max, hstd, hsrd
+
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def bullington_reductions_nb(d1, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
+        n_paths, width = d1.shape
+        stim = np.full(n_paths, -np.inf)
+        srim = np.full(n_paths, -np.inf)
+        v_max = np.full(n_paths, -np.inf)
+        b1 = np.empty(width)
+        b2 = np.empty(width)
+        b3 = np.empty(width)
+        ok = np.empty(width, dtype=np.bool_)
+        for i in range(n_paths):
+            a = ha[i]
+            b = hb[i]
+            d = length[i]
+            inv_den = 1.0 / (2.0 * k[i] * radius)
+            slope = (b - a) * (1.0 / d)
+            two_over_lam = 2.0 / lam[i]
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = d - x1
+                ok[c] = interior[i, c] & (x1 > 0.0) & (x2 > 0.0)
+                i1 = 1.0 / x1
+                i2 = 1.0 / x2
+                elev = x1 * x2 * inv_den
+                b1[c] = (elev - a) * i1
+                b2[c] = (elev - b) * i2
+                b3[c] = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (i1 + i2))
+            s_a = -np.inf
+            s_b = -np.inf
+            s_m = -np.inf
+            for c in range(width):
+                if not ok[c]:
+                    continue
+                t = b1[c]
+                if t > s_a or t != t:
+                    s_a = t
+                t = b2[c]
+                if t > s_b or t != t:
+                    s_b = t
+                t = b3[c]
+                if t > s_m or t != t:
+                    s_m = t
+            stim[i] = s_a
+            srim[i] = s_b
+            v_max[i] = s_m
+        return stim, srim, v_max
 
     @numba.njit(cache=True, nogil=True, error_model="numpy")
     def clearance_reductions_nb(d1, surface, interior, length, ha, hb, lam, den, fraction):  # pragma: no cover
@@ -629,7 +632,8 @@ def _build() -> dict:
         return worst, worst_frac, worst_gap, los, shortfall
 
     return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
-            "diffraction_reductions": diffraction_reductions_nb, "clearance_reductions": clearance_reductions_nb}
+            "diffraction_reductions": diffraction_reductions_nb, "bullington_reductions": bullington_reductions_nb,
+            "clearance_reductions": clearance_reductions_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -684,6 +688,19 @@ def diffraction_reductions(
     return diffraction_reductions_numpy(d1, surface, interior, ha, hb, length, lam, k, smooth)
 
 
+def bullington_reductions(
+    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Bullington reductions over a bare smooth earth (see :func:`bullington_reductions_numpy`)."""
+    if use_numba(d1.size):
+        return _numba_kernels()["bullington_reductions"](
+            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(interior, dtype=np.bool_),
+            *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+        )
+    return bullington_reductions_numpy(d1, interior, ha, hb, length, lam, k)
+
+
 def clearance_reductions(
     d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, length: np.ndarray,
     ha: np.ndarray, hb: np.ndarray, lam: np.ndarray, bulge_den: float, fraction: float | None,
@@ -721,5 +738,7 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     for smooth in (True, False):
         k["diffraction_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
                                     col, col, 2.0 * col, col, col, EARTH_RADIUS_M, smooth)
+    k["bullington_reductions"](np.array([[0.0, 1.0, 2.0]]), np.ones((1, 3), dtype=np.bool_),
+                               col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
     k["clearance_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
                               2.0 * col, col, col, col, 1.0, 0.0)

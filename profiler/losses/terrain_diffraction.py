@@ -341,9 +341,6 @@ class _Reduced:
     i_max: np.ndarray
     hstd: np.ndarray  # smooth surface (NaN unless asked for)
     hsrd: np.ndarray
-    stim_s: np.ndarray
-    srim_s: np.ndarray
-    v_max_s: np.ndarray
 
     def column(self, name: str) -> np.ndarray:
         return getattr(self.c, name)[:, 0]
@@ -369,15 +366,24 @@ def _delta_bullington(r: _Reduced, polarisation: str, ground: str | GroundConsta
     Lbulls is Bullington over the bare smooth earth (bulge only) with the
     antennas at hts = ha - hstd, hrs = hb - hsrd above the smooth surface.
     """
+    from ..kernels import bullington_reductions
+
     if l_bulla is None:
         l_bulla = _bullington_reduced(r)
     length, k = r.column("length"), r.column("k")
     hts_s = r.column("ha") - r.hstd
     hrs_s = r.column("hb") - r.hsrd
-    l_bulls = _bullington_from(r.stim_s, r.srim_s, r.v_max_s, hts_s, hrs_s, length, r.lam)
     l_dsph = smooth_earth_loss_db(
         length, hts_s, hrs_s, r.column("freq"), k, polarisation=polarisation, ground=ground
     )
+    # Lbulls >= 0, so where Ldsph is exactly 0 the excess max(Ldsph - Lbulls, 0) is 0 whatever
+    # Lbulls is: it is computed only for the other paths (mostly those near or past the horizon).
+    l_bulls = np.zeros(l_dsph.shape)
+    rows = np.flatnonzero(~(l_dsph == 0.0))
+    if rows.size:
+        stim, srim, v_max = bullington_reductions(
+            r.c.d1[rows], r.c.interior[rows], hts_s[rows], hrs_s[rows], length[rows], r.lam[rows], k[rows])
+        l_bulls[rows] = _bullington_from(stim, srim, v_max, hts_s[rows], hrs_s[rows], length[rows], r.lam[rows])
     return l_bulla + np.maximum(l_dsph - l_bulls, 0.0)
 
 
