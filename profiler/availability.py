@@ -388,6 +388,7 @@ def evaluate_availability(
     settings: ClimateSettings = ClimateSettings(),
     latitude_deg: ArrayLike | None = None,
     multipath_outside_range: Literal["error", "exclude"] = "error",
+    solve_required: bool = True,
 ) -> AvailabilityResult:
     """Outage per mechanism, availability and the margin needed for the target, for many paths.
 
@@ -395,6 +396,8 @@ def evaluate_availability(
     altitudes are above sea level (m); ``latitude_deg`` (mid-path) enables the
     worst-month to year conversion.  With ``multipath_outside_range="exclude"``
     paths outside 15/d-45 GHz get no multipath term instead of an error.
+    ``solve_required=False`` leaves ``required_fade_margin_db`` NaN (callers
+    that do not report it, such as screening, skip its iterative solution).
     Sources: ITU-R P.838-3; ITU-R P.530-17 sections 2.3 and 2.4.1.
     """
     margin = np.asarray(fade_margin_db, dtype=float)
@@ -405,7 +408,7 @@ def evaluate_availability(
     rain, outside, mp_year, mp_month = _components(margin, pc)
     total = np.minimum(rain + mp_year, 100.0)
     target = settings.target_availability_pct
-    required = _solve_margin(100.0 - target, pc)
+    required = _solve_margin(100.0 - target, pc) if solve_required else np.full(pc.a001_db.shape, np.nan)
     availability = 100.0 - total
     return AvailabilityResult(
         fade_margin_db=margin.copy(),
@@ -504,12 +507,15 @@ def availability_for_links(
     latitude_deg: ArrayLike,
     valid: ArrayLike,
     settings: ClimateSettings = ClimateSettings(),
+    *,
+    solve_required: bool = True,
 ) -> LinkAvailability:
     """Availability of many links at once, skipping (with a reason) those it cannot estimate.
 
     Links outside 1-100 GHz (ITU-R P.838-3, P.530-17 rain) or marked not
     ``valid`` (no profile) get a reason instead of numbers; multipath is left
     out (and said so) outside 15/d-45 GHz; paths over 60 km carry a note.
+    ``solve_required=False``: see :func:`evaluate_availability`.
     """
     import warnings
 
@@ -530,7 +536,7 @@ def availability_for_links(
     reasons: list[str | None] = [None] * n
     in_band = (f >= AVAILABILITY_MIN_FREQ_GHZ) & (f <= AVAILABILITY_MAX_FREQ_GHZ)
     usable = ok & in_band & np.isfinite(margin) & (d > 0) & np.isfinite(ha) & np.isfinite(hb)
-    for i in range(n):
+    for i in np.flatnonzero(~usable):  # sentences for the few links left out only
         if not ok[i]:
             reasons[i] = "no profile for this path"
         elif not in_band[i]:
@@ -550,7 +556,7 @@ def availability_for_links(
             warnings.simplefilter("ignore", ModelValidityWarning)  # recorded per link below
             result = evaluate_availability(
                 margin[idx], d[idx], f[idx], ha[idx], hb[idx], settings,
-                latitude_deg=lat[idx], multipath_outside_range="exclude",
+                latitude_deg=lat[idx], multipath_outside_range="exclude", solve_required=solve_required,
             )
         atmosphere = ("pressure_hpa", "temperature_c", "water_vapour_g_m3")
         shared = (
@@ -560,12 +566,13 @@ def availability_for_links(
             + (" (defaults)" if all(a in settings.defaults_used() for a in atmosphere) else ""),
             *(a for a in result.assumptions if "taken as 0" not in a and "is extended there" not in a),
         )
-    notes: list[tuple[str, ...]] = []
-    for i in range(n):
+    notes: list[tuple[str, ...]] = [shared if j >= 0 else () for j in rows.tolist()]
+    special = np.zeros(n, dtype=bool)
+    if result is not None:
+        special[idx] = (~result.multipath_applicable | result.rain_outside_method_range
+                        | (d[idx] > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0))
+    for i in np.flatnonzero(special):  # links with notes of their own
         j = rows[i]
-        if j < 0 or result is None:
-            notes.append(())
-            continue
         extra = []
         if not result.multipath_applicable[j]:
             extra.append(
@@ -582,7 +589,7 @@ def availability_for_links(
                 f"path longer than {P530_RAIN_TESTED_MAX_DISTANCE_KM:g} km, the length to which the ITU-R P.530 rain "
                 "method was tested; rain outage less certain"
             )
-        notes.append(shared + tuple(extra))
+        notes[i] = shared + tuple(extra)
     return LinkAvailability(
         settings=settings,
         result=result,

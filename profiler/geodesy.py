@@ -137,8 +137,8 @@ def sample_paths(
     from .kernels import hermite_paths
 
     lat, lon = hermite_paths(distance, offsets, step, nlat, nlon, dlat, dlon)
-    wrapped = (lon < -180.0) | (lon > 180.0)
-    if wrapped.any():
+    if lon.size and (lon.min() < -180.0 or lon.max() > 180.0):
+        wrapped = (lon < -180.0) | (lon > 180.0)
         lon = np.where(wrapped, np.mod(lon + 180.0, 360.0) - 180.0, lon)
     # Near the poles interpolation in latitude/longitude degrades: exact points there.
     polar = np.flatnonzero(np.maximum.reduceat(np.abs(nlat), offsets[:-1]) > INTERPOLATION_MAX_LAT_DEG)
@@ -156,6 +156,6 @@ def sample_paths(
     lat[:, 0] = lat_a
     lon[:, 0] = lon_a
     at_end = col >= last
-    lat = np.where(at_end, lat_b[:, None], lat)
-    lon = np.where(at_end, lon_b[:, None], lon)
+    np.copyto(lat, lat_b[:, None], where=at_end)  # in place: no new (paths, samples) arrays
+    np.copyto(lon, lon_b[:, None], where=at_end)
     return lat, lon, distance, n, lines

@@ -8,7 +8,8 @@ Heights in metres, distances in metres.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -70,22 +71,63 @@ def line_height_m(
 class Clearance:
     """Clearance of many paths at one k-factor.
 
-    Arrays of shape (paths, samples): ``bulge_m``, ``line_m``, ``f1_m``,
-    ``clearance_m`` (line minus surface-plus-bulge; negative when blocked),
-    ``f1_fraction``.  Arrays of shape (paths,): the worst interior point.
+    Arrays of shape (paths, samples), made on first use: ``bulge_m``,
+    ``line_m``, ``f1_m``, ``clearance_m`` (line minus surface-plus-bulge;
+    negative when blocked), ``f1_fraction``.  Arrays of shape (paths,): the
+    worst interior point, and ``shortfall_m`` (the largest c F1 - clearance
+    over the interior samples, for the fraction c asked of :func:`clearance`;
+    None if none was asked).
     """
 
     k: float
-    bulge_m: np.ndarray
-    line_m: np.ndarray
-    f1_m: np.ndarray
-    clearance_m: np.ndarray
-    f1_fraction: np.ndarray
     worst_index: np.ndarray
     worst_f1_fraction: np.ndarray
     worst_clearance_m: np.ndarray
     worst_distance_m: np.ndarray
     line_of_sight: np.ndarray
+    shortfall_m: np.ndarray | None = None
+    _inputs: tuple = field(default=(), repr=False, compare=False)
+
+    @cached_property
+    def _arrays(self) -> dict[str, np.ndarray]:
+        return _clearance_arrays(*self._inputs)
+
+    @property
+    def bulge_m(self) -> np.ndarray:
+        return self._arrays["bulge"]
+
+    @property
+    def line_m(self) -> np.ndarray:
+        return self._arrays["line"]
+
+    @property
+    def f1_m(self) -> np.ndarray:
+        return self._arrays["f1"]
+
+    @property
+    def clearance_m(self) -> np.ndarray:
+        return self._arrays["gap"]
+
+    @property
+    def f1_fraction(self) -> np.ndarray:
+        return self._arrays["frac"]
+
+
+def _clearance_arrays(
+    distance_m: np.ndarray, surface_m: np.ndarray, interior: np.ndarray, length_m: np.ndarray,
+    antenna_a_amsl_m: ArrayLike, antenna_b_amsl_m: ArrayLike, freq_ghz: ArrayLike, k: float,
+) -> dict[str, np.ndarray]:
+    """Bulge, line, F1, clearance and its fraction of F1 at every sample (see :func:`clearance`)."""
+    d1 = distance_m
+    d2 = np.maximum(np.asarray(length_m, dtype=float)[:, None] - d1, 0.0)
+    bulge = earth_bulge_m(d1, d2, k)
+    line = line_height_m(d1, length_m, antenna_a_amsl_m, antenna_b_amsl_m)
+    f_arr = np.asarray(freq_ghz, dtype=float)
+    f1 = fresnel_radius_m(d1, d2, f_arr[:, None] if f_arr.ndim else f_arr)
+    gap = line - (surface_m + bulge)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.where(interior, gap / np.where(f1 > 0, f1, np.nan), np.inf)
+    return {"bulge": bulge, "line": line, "f1": f1, "gap": gap, "frac": frac}
 
 
 def clearance(
@@ -97,36 +139,56 @@ def clearance(
     antenna_b_amsl_m: ArrayLike,
     freq_ghz: ArrayLike,
     k: float,
+    shortfall_f1_fraction: float | None = None,
 ) -> Clearance:
     """Clearance of the first Fresnel zone along many paths at one k-factor.
 
     The worst point is the interior sample with the smallest clearance as a
     fraction of the first Fresnel radius; the path is line of sight when every
-    interior sample lies strictly below the line.
+    interior sample lies strictly below the line.  With ``shortfall_f1_fraction``
+    c, also the largest c F1 - clearance over the interior (the equal rise of
+    both antennas that gives c F1 everywhere, when positive).  Large batches
+    take one compiled pass (same bits); the full arrays are made on first use.
     """
-    d1 = distance_m
-    d2 = np.maximum(np.asarray(length_m, dtype=float)[:, None] - d1, 0.0)
-    bulge = earth_bulge_m(d1, d2, k)
-    line = line_height_m(d1, length_m, antenna_a_amsl_m, antenna_b_amsl_m)
-    f_arr = np.asarray(freq_ghz, dtype=float)
-    f1 = fresnel_radius_m(d1, d2, f_arr[:, None] if f_arr.ndim else f_arr)
-    gap = line - (surface_m + bulge)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        frac = np.where(interior, gap / np.where(f1 > 0, f1, np.nan), np.inf)
-    frac_search = np.where(np.isnan(frac), np.inf, frac)
-    worst = np.argmin(frac_search, axis=1)
-    rows = np.arange(distance_m.shape[0])
-    gap_interior = np.where(interior, gap, np.inf)
+    from .kernels import clearance_reductions
+
+    inputs = (distance_m, surface_m, interior, length_m, antenna_a_amsl_m, antenna_b_amsl_m, freq_ghz, k)
+    n_paths = distance_m.shape[0]
+    ha = np.broadcast_to(np.asarray(antenna_a_amsl_m, dtype=float), (n_paths,))
+    hb = np.broadcast_to(np.asarray(antenna_b_amsl_m, dtype=float), (n_paths,))
+    lam = np.broadcast_to(wavelength_m(np.asarray(freq_ghz, dtype=float)), (n_paths,))
+    reduced = clearance_reductions(
+        distance_m, surface_m, interior, np.asarray(length_m, dtype=float), ha, hb, lam,
+        2.0 * effective_radius_m(k), shortfall_f1_fraction,
+    )
+    if reduced is None:  # small batch: from the full arrays
+        arr = _clearance_arrays(*inputs)
+        frac, gap = arr["frac"], arr["gap"]
+        worst = np.argmin(np.where(np.isnan(frac), np.inf, frac), axis=1)
+        rows = np.arange(n_paths)
+        shortfall = None
+        if shortfall_f1_fraction is not None:
+            shortfall = np.max(np.where(interior, shortfall_f1_fraction * arr["f1"] - gap, -np.inf), axis=1)
+        c = Clearance(
+            k=float(k),
+            worst_index=worst,
+            worst_f1_fraction=frac[rows, worst],
+            worst_clearance_m=gap[rows, worst],
+            worst_distance_m=distance_m[rows, worst],
+            line_of_sight=np.min(np.where(interior, gap, np.inf), axis=1) > 0.0,
+            shortfall_m=shortfall,
+            _inputs=inputs,
+        )
+        c.__dict__["_arrays"] = arr  # made already
+        return c
+    worst, worst_frac, worst_gap, los, shortfall = reduced
     return Clearance(
         k=float(k),
-        bulge_m=bulge,
-        line_m=line,
-        f1_m=f1,
-        clearance_m=gap,
-        f1_fraction=frac,
         worst_index=worst,
-        worst_f1_fraction=frac[rows, worst],
-        worst_clearance_m=gap[rows, worst],
-        worst_distance_m=d1[rows, worst],
-        line_of_sight=np.min(gap_interior, axis=1) > 0.0,
+        worst_f1_fraction=worst_frac,
+        worst_clearance_m=worst_gap,
+        worst_distance_m=distance_m[np.arange(n_paths), worst],
+        line_of_sight=los,
+        shortfall_m=shortfall if shortfall_f1_fraction is not None else None,
+        _inputs=inputs,
     )

@@ -1,4 +1,5 @@
-"""Inner loops of sampling: geodesic interpolation and bilinear gather.
+"""Inner loops of sampling (geodesic interpolation, bilinear gather) and of the
+profile reductions of the diffraction methods (Bullington, smooth-surface fit).
 
 Each kernel exists twice with the same arithmetic in the same order: a numpy
 version (small batches, no compile cost) and a numba version used for large
@@ -14,9 +15,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .units import EARTH_RADIUS_M
+
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
-    "StoredCells", "TILE",
+    "StoredCells", "TILE", "diffraction_reductions", "bullington_reductions", "clearance_reductions",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -207,6 +210,128 @@ def affine_gather_numpy(
     return out, inside
 
 
+def profile_reductions_numpy(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, ...]:
+    """Per-path reductions over a terrain profile at one k-factor, each (P,).
+
+    Inputs: ``d1``, ``surface`` (m, no bulge), ``interior`` (P, N); ``ha``,
+    ``hb``, ``length``, ``lam`` (m) and ``k`` (P,).  Over the interior
+    samples with 0 < d1 < d (d2 = d - d1), with elev = surface + d1 d2 / (2 k a)
+    and h = elev - (ha + (hb - ha) d1 / d) its height above the antenna line:
+
+    * ``stim`` = max (elev - ha) / d1, ``srim`` = max (elev - hb) / d2: the
+      Bullington slopes (ITU-R P.526-15 section 4.5.1);
+    * ``v_max`` = max v, v = h sqrt(2 / lam (1/d1 + 1/d2)) (ITU-R P.526-15
+      eq. 26; equal to Bullington's h sqrt(2 d / (lam d1 d2)) as d1 + d2 = d),
+      and ``i_max`` its first column (0 if none);
+    * ``v1``, ``v2`` (sums over all steps), ``hobs``, ``aobt``, ``aobr``: the
+      smooth-surface fit of ITU-R P.526-15 section 4.5.2 (surface without bulge).
+
+    Maxima over no sample are -inf.  Each quotient by d1, d2, d or 2 k a is a
+    product with its reciprocal and sums run left to right, exactly as in the
+    compiled twin, so both give the same bits.
+    """
+    ha_, hb_, len_, lam_, k_ = (np.asarray(x, dtype=float)[:, None] for x in (ha, hb, length, lam, k))
+    d2 = len_ - d1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_den = 1.0 / (2.0 * k_ * EARTH_RADIUS_M)
+        inv_d = 1.0 / len_
+        slope = (hb_ - ha_) * inv_d
+        inv1 = 1.0 / d1
+        inv2 = 1.0 / d2
+        elev = surface + d1 * d2 * inv_den
+        height = elev - (ha_ + d1 * slope)
+        inner = interior & (d1 > 0.0) & (d2 > 0.0)
+        v = np.where(inner, height * np.sqrt(2.0 / lam_ * (inv1 + inv2)), -np.inf)
+        i_max = np.argmax(v, axis=1)
+        v_max = v.max(axis=1)
+        stim = np.where(inner, (elev - ha_) * inv1, -np.inf).max(axis=1)
+        srim = np.where(inner, (elev - hb_) * inv2, -np.inf).max(axis=1)
+        h = surface
+        step = d1[:, 1:] - d1[:, :-1]
+        t1 = step * (h[:, 1:] + h[:, :-1])
+        t2 = step * (h[:, 1:] * (2.0 * d1[:, 1:] + d1[:, :-1]) + h[:, :-1] * (d1[:, 1:] + 2.0 * d1[:, :-1]))
+        obst = h - (ha_ * d2 + hb_ * d1) * inv_d
+        hobs = np.where(inner, obst, -np.inf).max(axis=1)
+        aobt = np.where(inner, obst * inv1, -np.inf).max(axis=1)
+        aobr = np.where(inner, obst * inv2, -np.inf).max(axis=1)
+    v1 = _sum_left_to_right(t1)
+    v2 = _sum_left_to_right(t2)
+    return stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr
+
+
+def _sum_left_to_right(terms: np.ndarray) -> np.ndarray:
+    """Row sums added strictly left to right (np.sum adds pairwise: other last bits)."""
+    if terms.shape[1] == 0:
+        return np.zeros(terms.shape[0])
+    return np.cumsum(terms, axis=1)[:, -1]
+
+
+def bullington_reductions_numpy(
+    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``stim``, ``srim``, ``v_max`` of :func:`profile_reductions_numpy` over a bare smooth
+    earth (elev = d1 d2 / (2 k a)), antennas ``ha``, ``hb`` above it (ITU-R P.526-15 section 4.5.2)."""
+    ha_, hb_, len_, lam_, k_ = (np.asarray(x, dtype=float)[:, None] for x in (ha, hb, length, lam, k))
+    d2 = len_ - d1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        inv_den = 1.0 / (2.0 * k_ * EARTH_RADIUS_M)
+        slope = (hb_ - ha_) * (1.0 / len_)
+        inv1 = 1.0 / d1
+        inv2 = 1.0 / d2
+        elev = d1 * d2 * inv_den
+        inner = interior & (d1 > 0.0) & (d2 > 0.0)
+        stim = np.where(inner, (elev - ha_) * inv1, -np.inf).max(axis=1)
+        srim = np.where(inner, (elev - hb_) * inv2, -np.inf).max(axis=1)
+        height = elev - (ha_ + d1 * slope)
+        v_max = np.where(inner, height * np.sqrt(2.0 / lam_ * (inv1 + inv2)), -np.inf).max(axis=1)
+    return stim, srim, v_max
+
+
+
+def smooth_heights_numpy(
+    v1: np.ndarray, v2: np.ndarray, hobs: np.ndarray, aobt: np.ndarray, aobr: np.ndarray,
+    length: np.ndarray, h0: np.ndarray, hn: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Smooth-surface heights hstd, hsrd at a and b (ITU-R P.526-15 section 4.5.2), m, each (P,).
+
+    Least-squares line from the sums ``v1``, ``v2`` (hst = (2 v1 d - v2) / d^2,
+    hsr = (v2 - v1 d) / d^2), lowered under the highest obstacle ``hobs`` in
+    the ratio of ``aobt`` to ``aobr`` when hobs > 0, capped at the ground ``h0``, ``hn``.
+    """
+    hst = (2.0 * v1 * length - v2) / (length * length)
+    hsr = (v2 - v1 * length) / (length * length)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share_t = aobt / (aobt + aobr)
+    lower = hobs > 0.0
+    hst = np.where(lower, hst - hobs * share_t, hst)
+    hsr = np.where(lower, hsr - hobs * (1.0 - share_t), hsr)
+    return np.minimum(hst, h0), np.minimum(hsr, hn)
+
+
+def diffraction_reductions_numpy(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray, smooth: bool = True,
+) -> tuple[np.ndarray, ...]:
+    """What the Bullington-family methods need of each profile at one k, each (P,).
+
+    ``stim``, ``srim``, ``v_max``, ``i_max`` of the profile
+    (:func:`profile_reductions_numpy`) and, with ``smooth``, the smooth-surface
+    heights ``hstd``, ``hsrd`` (:func:`smooth_heights_numpy`; NaN without).
+    The compiled twin makes them in one pass per path, with the same bits.
+    """
+    stim, srim, v_max, i_max, v1, v2, hobs, aobt, aobr = profile_reductions_numpy(
+        d1, surface, interior, ha, hb, length, lam, k)
+    if not smooth:
+        nan = np.full(stim.shape, np.nan)
+        return stim, srim, v_max, i_max, nan, nan
+    hstd, hsrd = smooth_heights_numpy(v1, v2, hobs, aobt, aobr, np.asarray(length, dtype=float),
+                                      surface[:, 0], surface[:, -1])
+    return stim, srim, v_max, i_max, hstd, hsrd
+
 # ---------------------------------------------------------------- numba versions
 
 def _build() -> dict:
@@ -293,7 +418,222 @@ def _build() -> dict:
             out[k] = top + (bottom - top) * fy
         return out, inside
 
-    return {"hermite": hermite_nb, "affine_gather": affine_gather_nb}
+    # The reductions below first fill row buffers in branch-free loops (which the
+    # compiler turns into SIMD code; IEEE operations give the same bits in every
+    # lane), then take maxima over the interior in scalar loops.
+
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def diffraction_reductions_nb(d1, surface, interior, ha, hb, length, lam, k, radius, smooth):  # pragma: no cover
+        n_paths, width = d1.shape
+        stim = np.full(n_paths, -np.inf)
+        srim = np.full(n_paths, -np.inf)
+        v_max = np.full(n_paths, -np.inf)
+        i_max = np.zeros(n_paths, dtype=np.int64)
+        hstd = np.full(n_paths, np.nan)
+        hsrd = np.full(n_paths, np.nan)
+        inv1 = np.empty(width)
+        inv2 = np.empty(width)
+        ob = np.empty(width)
+        b1 = np.empty(width)
+        b2 = np.empty(width)
+        b3 = np.empty(width)
+        ok = np.empty(width, dtype=np.bool_)
+        for i in range(n_paths):
+            a = ha[i]
+            b = hb[i]
+            d = length[i]
+            inv_den = 1.0 / (2.0 * k[i] * radius)
+            inv_d = 1.0 / d
+            slope = (b - a) * inv_d
+            two_over_lam = 2.0 / lam[i]
+            # Pass 1 (no k): reciprocals; the smooth-surface sums and obstacle maxima.
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = d - x1
+                ok[c] = interior[i, c] & (x1 > 0.0) & (x2 > 0.0)
+                inv1[c] = 1.0 / x1
+                inv2[c] = 1.0 / x2
+            if smooth:
+                for c in range(width):
+                    x1 = d1[i, c]
+                    o = surface[i, c] - (a * (d - x1) + b * x1) * inv_d
+                    ob[c] = o
+                    b1[c] = o * inv1[c]
+                    b2[c] = o * inv2[c]
+                acc1 = 0.0
+                acc2 = 0.0
+                o_h = -np.inf
+                o_t = -np.inf
+                o_r = -np.inf
+                for c in range(width):
+                    if c > 0:
+                        x1 = d1[i, c]
+                        h = surface[i, c]
+                        xp = d1[i, c - 1]
+                        hp = surface[i, c - 1]
+                        step = x1 - xp
+                        acc1 += step * (h + hp)
+                        acc2 += step * (h * (2.0 * x1 + xp) + hp * (x1 + 2.0 * xp))
+                    if not ok[c]:
+                        continue
+                    t = ob[c]
+                    if t > o_h or t != t:
+                        o_h = t
+                    t = b1[c]
+                    if t > o_t or t != t:
+                        o_t = t
+                    t = b2[c]
+                    if t > o_r or t != t:
+                        o_r = t
+                hst = (2.0 * acc1 * d - acc2) / (d * d)
+                hsr = (acc2 - acc1 * d) / (d * d)
+                share_t = o_t / (o_t + o_r)
+                if o_h > 0.0:
+                    hst = hst - o_h * share_t
+                    hsr = hsr - o_h * (1.0 - share_t)
+                h0 = surface[i, 0]
+                hn = surface[i, width - 1]
+                hst = h0 if h0 < hst else hst  # np.minimum: NaN stays NaN
+                hsr = hn if hn < hsr else hsr
+                hstd[i] = hst
+                hsrd[i] = hsr
+            # Pass 2 (at k): Bullington over the profile.
+            for c in range(width):
+                x1 = d1[i, c]
+                i1 = inv1[c]
+                i2 = inv2[c]
+                elev = surface[i, c] + x1 * (d - x1) * inv_den
+                b1[c] = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (i1 + i2))
+                b2[c] = (elev - a) * i1
+                b3[c] = (elev - b) * i2
+            s_a = -np.inf
+            s_b = -np.inf
+            s_m = -np.inf
+            s_i = 0
+            for c in range(width):
+                if not ok[c]:
+                    continue
+                v = b1[c]
+                if v > s_m or (v != v and s_m == s_m):
+                    s_m = v
+                    s_i = c
+                t = b2[c]
+                if t > s_a or t != t:
+                    s_a = t
+                t = b3[c]
+                if t > s_b or t != t:
+                    s_b = t
+            stim[i] = s_a
+            srim[i] = s_b
+            v_max[i] = s_m
+            i_max[i] = s_i
+        return stim, srim, v_max, i_max, hstd, hsrd
+
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def bullington_reductions_nb(d1, interior, ha, hb, length, lam, k, radius):  # pragma: no cover
+        n_paths, width = d1.shape
+        stim = np.full(n_paths, -np.inf)
+        srim = np.full(n_paths, -np.inf)
+        v_max = np.full(n_paths, -np.inf)
+        b1 = np.empty(width)
+        b2 = np.empty(width)
+        b3 = np.empty(width)
+        ok = np.empty(width, dtype=np.bool_)
+        for i in range(n_paths):
+            a = ha[i]
+            b = hb[i]
+            d = length[i]
+            inv_den = 1.0 / (2.0 * k[i] * radius)
+            slope = (b - a) * (1.0 / d)
+            two_over_lam = 2.0 / lam[i]
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = d - x1
+                ok[c] = interior[i, c] & (x1 > 0.0) & (x2 > 0.0)
+                i1 = 1.0 / x1
+                i2 = 1.0 / x2
+                elev = x1 * x2 * inv_den
+                b1[c] = (elev - a) * i1
+                b2[c] = (elev - b) * i2
+                b3[c] = (elev - (a + x1 * slope)) * np.sqrt(two_over_lam * (i1 + i2))
+            s_a = -np.inf
+            s_b = -np.inf
+            s_m = -np.inf
+            for c in range(width):
+                if not ok[c]:
+                    continue
+                t = b1[c]
+                if t > s_a or t != t:
+                    s_a = t
+                t = b2[c]
+                if t > s_b or t != t:
+                    s_b = t
+                t = b3[c]
+                if t > s_m or t != t:
+                    s_m = t
+            stim[i] = s_a
+            srim[i] = s_b
+            v_max[i] = s_m
+        return stim, srim, v_max
+
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def clearance_reductions_nb(d1, surface, interior, length, ha, hb, lam, den, fraction):  # pragma: no cover
+        n_paths, width = d1.shape
+        worst = np.zeros(n_paths, dtype=np.int64)
+        worst_frac = np.empty(n_paths)
+        worst_gap = np.empty(n_paths)
+        los = np.empty(n_paths, dtype=np.bool_)
+        shortfall = np.full(n_paths, -np.inf)
+        fb = np.empty(width)
+        gb = np.empty(width)
+        qb = np.empty(width)
+        for i in range(n_paths):
+            d = length[i]
+            a = ha[i]
+            rise = hb[i] - a
+            la = lam[i]
+            for c in range(width):
+                x1 = d1[i, c]
+                x2 = max(d - x1, 0.0)
+                s = x1 + x2
+                r2 = la * x1 * x2 / s
+                f1 = np.sqrt(r2 if s > 0 else 0.0)
+                gap = (a + rise * x1 / d) - (surface[i, c] + x1 * x2 / den)
+                fb[c] = f1
+                gb[c] = gap
+                qb[c] = gap / f1
+            best = np.inf
+            idx = 0
+            g_min = np.inf
+            short = -np.inf
+            for c in range(width):
+                if not interior[i, c]:
+                    continue
+                f1 = fb[c]
+                gap = gb[c]
+                if f1 > 0 and qb[c] < best:
+                    best = qb[c]
+                    idx = c
+                if gap < g_min or gap != gap:
+                    g_min = gap
+                t = fraction * f1 - gap
+                if t > short or t != t:
+                    short = t
+            if not interior[i, idx]:
+                worst_frac[i] = np.inf
+            elif fb[idx] > 0:
+                worst_frac[i] = qb[idx]
+            else:
+                worst_frac[i] = np.nan
+            worst[i] = idx
+            worst_gap[i] = gb[idx]
+            los[i] = g_min > 0.0
+            shortfall[i] = short
+        return worst, worst_frac, worst_gap, los, shortfall
+
+    return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
+            "diffraction_reductions": diffraction_reductions_nb, "bullington_reductions": bullington_reductions_nb,
+            "clearance_reductions": clearance_reductions_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -330,6 +670,57 @@ def affine_gather(
     return affine_gather_numpy(cells, x, y, transform, width, height)
 
 
+def _columns(*arrays) -> tuple[np.ndarray, ...]:
+    return tuple(np.ascontiguousarray(np.asarray(a, dtype=float).reshape(-1)) for a in arrays)
+
+
+def diffraction_reductions(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray, smooth: bool = True,
+) -> tuple[np.ndarray, ...]:
+    """Reductions of profiles for the Bullington-family methods (see :func:`diffraction_reductions_numpy`)."""
+    if use_numba(d1.size):
+        return _numba_kernels()["diffraction_reductions"](
+            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(surface, dtype=float),
+            np.ascontiguousarray(interior, dtype=np.bool_), *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+            bool(smooth),
+        )
+    return diffraction_reductions_numpy(d1, surface, interior, ha, hb, length, lam, k, smooth)
+
+
+def bullington_reductions(
+    d1: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
+    length: np.ndarray, lam: np.ndarray, k: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Bullington reductions over a bare smooth earth (see :func:`bullington_reductions_numpy`)."""
+    if use_numba(d1.size):
+        return _numba_kernels()["bullington_reductions"](
+            np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(interior, dtype=np.bool_),
+            *_columns(ha, hb, length, lam, k), EARTH_RADIUS_M,
+        )
+    return bullington_reductions_numpy(d1, interior, ha, hb, length, lam, k)
+
+
+def clearance_reductions(
+    d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, length: np.ndarray,
+    ha: np.ndarray, hb: np.ndarray, lam: np.ndarray, bulge_den: float, fraction: float | None,
+) -> tuple[np.ndarray, ...] | None:
+    """Worst point, line of sight and shortfall of large batches in one compiled pass, or None.
+
+    The arithmetic is that of :func:`profiler.geometry.clearance` (bulge d1 d2 /
+    ``bulge_den``, ``bulge_den`` = 2 k a; F1 = sqrt(lam d1 d2 / (d1 + d2))), in
+    the same order, so the numbers are the same bits; None when the batch is
+    small or numba is missing (the caller then uses whole arrays).
+    """
+    if not use_numba(d1.size):
+        return None
+    return _numba_kernels()["clearance_reductions"](
+        np.ascontiguousarray(d1, dtype=float), np.ascontiguousarray(surface, dtype=float),
+        np.ascontiguousarray(interior, dtype=np.bool_), *_columns(length, ha, hb, lam),
+        float(bulge_den), 0.0 if fraction is None else float(fraction),
+    )
+
+
 def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     """Load (or compile) the numba kernels for these cell types now, not on the first big batch."""
     if os.environ.get("TERRAHOP_NO_NUMBA"):
@@ -343,3 +734,11 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     for dt in dict.fromkeys(np.dtype(d) for d in block_dtypes):
         k["affine_gather"](np.zeros((1, 1, TILE, TILE), dtype=dt), 2, 2, 0, 0, np.zeros(1), np.zeros(1),
                            1.0, 0.0, 0.0, 0.0, -1.0, 0.0, 2, 2, 1.0, 0.0, False)
+    col = np.ones(1)
+    for smooth in (True, False):
+        k["diffraction_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
+                                    col, col, 2.0 * col, col, col, EARTH_RADIUS_M, smooth)
+    k["bullington_reductions"](np.array([[0.0, 1.0, 2.0]]), np.ones((1, 3), dtype=np.bool_),
+                               col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
+    k["clearance_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
+                              2.0 * col, col, col, col, 1.0, 0.0)

@@ -7,6 +7,7 @@ paths.  A single link is a batch of one.  No printing, no file writing.
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import math
 from dataclasses import asdict, dataclass, field
 from typing import Any, Sequence
@@ -18,13 +19,14 @@ from .availability import ClimateSettings, LinkAvailability, availability_for_li
 from .budget import Budget, Radio, link_budget
 from .errors import DataError, InputError
 from .geometry import Clearance, clearance
-from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_path_attenuation_db
+from .losses.atmosphere import P676_MAX_FREQ_GHZ, P676_MIN_FREQ_GHZ, gaseous_specific_attenuation_db_km
 from .losses.free_space import free_space_loss_db
 from .losses.terrain_diffraction import (
     DEFAULT_DIFFRACTION_METHOD,
     diffraction_by_method,
     diffraction_loss_db,
     diffraction_validity_warnings,
+    diffraction_with_warnings,
     resolve_method,
 )
 from .losses.smooth_earth import resolve_ground, resolve_polarisation
@@ -33,6 +35,7 @@ from .terrain import ElevationModel
 
 __all__ = [
     "Site",
+    "SiteColumns",
     "Criterion",
     "Settings",
     "AtK",
@@ -68,6 +71,36 @@ class Site:
                 f"{where}: antenna height above ground must be 0 m or more, got {self.antenna_agl_m} m"
             )
         return self
+
+
+@dataclass(frozen=True, eq=False)
+class SiteColumns(Sequence[Site]):
+    """Many sites as columns (names, degrees, metres): a sequence of :class:`Site`
+    whose items are made only when asked for.  Batch callers (screening) pass
+    these to :func:`analyse_links` instead of one object per site."""
+
+    names: np.ndarray
+    lat_deg: np.ndarray
+    lon_deg: np.ndarray
+    antenna_agl_m: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.lat_deg)
+
+    def __getitem__(self, i):  # type: ignore[override]
+        if isinstance(i, slice):
+            return [self[j] for j in range(*i.indices(len(self)))]
+        return Site(str(self.names[i]), float(self.lat_deg[i]), float(self.lon_deg[i]),
+                    float(self.antenna_agl_m[i]))
+
+
+def _site_arrays(sites: Sequence[Site]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Latitudes, longitudes and antenna heights of sites, as float arrays."""
+    if isinstance(sites, SiteColumns):
+        return (np.asarray(sites.lat_deg, dtype=float), np.asarray(sites.lon_deg, dtype=float),
+                np.asarray(sites.antenna_agl_m, dtype=float))
+    return (np.array([s.lat_deg for s in sites], dtype=float), np.array([s.lon_deg for s in sites], dtype=float),
+            np.array([s.antenna_agl_m for s in sites], dtype=float))
 
 
 @dataclass(frozen=True)
@@ -175,23 +208,27 @@ def terrain_diffraction_db(
     freq_ghz: Any,
     k: float,
     settings: Settings,
+    surface_m: np.ndarray | None = None,
 ) -> tuple[np.ndarray, dict[str, np.ndarray], tuple[tuple[str, ...], ...]]:
     """Diffraction loss by the chosen method, by every method, and validity warnings per path.
 
     Methods and sources: :mod:`profiler.losses.terrain_diffraction`
     (ITU-R P.526-15 sections 4.1 and 4.5, Deygout, Epstein-Peterson).
+    ``surface_m`` may pass ``profiles.surface_m`` with NaN set to 0 when already made.
     """
     method = resolve_method(settings.diffraction_method)
+    surface = _finite_surface(profiles) if surface_m is None else surface_m
     args = (
-        profiles.distance_m, _finite_surface(profiles), profiles.interior, antenna_a_amsl_m,
+        profiles.distance_m, surface, profiles.interior, antenna_a_amsl_m,
         antenna_b_amsl_m, profiles.length_m, _per_path(freq_ghz), k,
     )
     opts = {"polarisation": settings.polarisation, "ground": settings.ground}
     if settings.compare_methods:
         by_method = diffraction_by_method(*args, **opts)
-    else:
-        by_method = {method: diffraction_loss_db(method, *args, **opts)}
-    warnings = tuple(diffraction_validity_warnings(method, *args))
+        warnings = tuple(diffraction_validity_warnings(method, *args))
+    else:  # one pass over the profiles gives the loss and the warnings
+        result = diffraction_with_warnings(method, *args, **opts)
+        by_method, warnings = {method: result.loss_db}, result.warnings
     return by_method[method], by_method, warnings
 
 
@@ -207,10 +244,25 @@ def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings 
     use = (f >= P676_MIN_FREQ_GHZ) & (f <= P676_MAX_FREQ_GHZ) & np.isfinite(length) & (length >= 0)
     out = np.zeros(length.shape)
     if np.any(use):
-        out[use] = gaseous_path_attenuation_db(
-            length[use], f[use], climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3
-        )
+        # gamma depends on the frequency only (one atmosphere): once per distinct frequency.
+        freqs, where = np.unique(f[use], return_inverse=True)
+        if freqs.size <= _GAMMA_CACHE_SIZE:
+            gamma = np.array([_gases_db_km(float(x), climate.pressure_hpa, climate.temperature_c,
+                                           climate.water_vapour_g_m3) for x in freqs])
+        else:
+            gamma = gaseous_specific_attenuation_db_km(
+                freqs, climate.pressure_hpa, climate.temperature_c, climate.water_vapour_g_m3)
+        out[use] = gamma[where] * length[use] / 1000.0  # A = gamma d, as gaseous_path_attenuation_db
     return out
+
+
+_GAMMA_CACHE_SIZE = 64
+
+
+@functools.lru_cache(maxsize=_GAMMA_CACHE_SIZE)
+def _gases_db_km(freq_ghz: float, pressure_hpa: float, temperature_c: float, water_vapour_g_m3: float) -> float:
+    """Specific gaseous attenuation, dB/km (ITU-R P.676-12 Annex 1), kept for repeated frequencies."""
+    return float(gaseous_specific_attenuation_db_km(freq_ghz, pressure_hpa, temperature_c, water_vapour_g_m3))
 
 
 def evaluate_profiles(
@@ -220,20 +272,28 @@ def evaluate_profiles(
     radio: Radio,
     k: float,
     settings: Settings,
+    surface_m: np.ndarray | None = None,
+    shortfall_f1_fraction: float | None = None,
 ) -> AtK:
-    """Clearance, losses and budget of prepared profiles at one k-factor."""
+    """Clearance, losses and budget of prepared profiles at one k-factor.
+
+    ``surface_m``: ``profiles.surface_m`` with NaN set to 0, when the caller made it already;
+    ``shortfall_f1_fraction``: see :func:`profiler.geometry.clearance`.
+    """
+    surface = _finite_surface(profiles) if surface_m is None else surface_m
     clear = clearance(
         profiles.distance_m,
-        _finite_surface(profiles),
+        surface,
         profiles.interior,
         profiles.length_m,
         antenna_a_amsl_m,
         antenna_b_amsl_m,
         _per_path(radio.freq_ghz),
         k,
+        shortfall_f1_fraction,
     )
     diffraction, by_method, warnings = terrain_diffraction_db(
-        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings
+        profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings, surface
     )
     gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
@@ -247,7 +307,7 @@ def _per_path(value: Any) -> Any:
 
 def _finite_surface(profiles: Profiles) -> np.ndarray:
     surface = profiles.surface_m
-    return np.where(np.isnan(surface), 0.0, surface)
+    return np.where(np.isnan(surface), 0.0, surface) if np.isnan(surface).any() else surface
 
 
 @dataclass(frozen=True)
@@ -255,8 +315,8 @@ class LinkBatch:
     """Results of many links; ``record(i)`` gives the JSON object of link i."""
 
     names: tuple[str, ...]
-    sites_a: tuple[Site, ...]
-    sites_b: tuple[Site, ...]
+    sites_a: Sequence[Site]  # a tuple, or SiteColumns from batch callers
+    sites_b: Sequence[Site]
     radio: Radio
     settings: Settings
     profiles: Profiles
@@ -462,10 +522,8 @@ def analyse_links(
                 f"{name}: site a {a.name!r} and site b {b.name!r} are at the same position "
                 f"({a.lat_deg}, {a.lon_deg}); a link needs two different places"
             )
-    lat_a = np.array([s.lat_deg for s in sites_a])
-    lon_a = np.array([s.lon_deg for s in sites_a])
-    lat_b = np.array([s.lat_deg for s in sites_b])
-    lon_b = np.array([s.lon_deg for s in sites_b])
+    lat_a, lon_a, agl_a = _site_arrays(sites_a)
+    lat_b, lon_b, agl_b = _site_arrays(sites_b)
     spacing = settings.spacing_m
     if surroundings is not None and spacing is None:
         spacing = surroundings.default_spacing_m(model, lon_a, lat_a)
@@ -478,15 +536,16 @@ def analyse_links(
     last = profiles.n_samples - 1
     ground_a = profiles.ground_m[:, 0]
     ground_b = profiles.ground_m[rows, last]
-    agl_a = np.array([s.antenna_agl_m for s in sites_a])
-    agl_b = np.array([s.antenna_agl_m for s in sites_b])
     antenna_a = np.nan_to_num(ground_a) + agl_a
     antenna_b = np.nan_to_num(ground_b) + agl_b
     fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
     with np.errstate(invalid="ignore"):
-        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings)
-        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings)
-    crit = settings.criterion
+        surface = _finite_surface(profiles)  # shared by both k-factors
+        crit = settings.criterion
+        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface,
+                                   crit.min_f1_fraction)
+        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface,
+                                  crit.min_f1_fraction_worst)
     meets = (design.clearance.worst_f1_fraction >= crit.min_f1_fraction) & (
         worst.clearance.worst_f1_fraction >= crit.min_f1_fraction_worst
     )
@@ -509,8 +568,8 @@ def analyse_links(
     }
     return LinkBatch(
         names=tuple(names),
-        sites_a=tuple(sites_a),
-        sites_b=tuple(sites_b),
+        sites_a=sites_a if isinstance(sites_a, SiteColumns) else tuple(sites_a),
+        sites_b=sites_b if isinstance(sites_b, SiteColumns) else tuple(sites_b),
         radio=radio,
         settings=settings,
         profiles=profiles,

@@ -32,7 +32,7 @@ from .budget import Radio
 from .errors import InputError
 from .geodesy import WGS84
 from .io.sites import BadRow, SiteTable
-from .link import LinkBatch, Settings, Site, analyse_links
+from .link import LinkBatch, Settings, SiteColumns, analyse_links
 from .terrain import ElevationModel
 from .units import EARTH_RADIUS_M
 
@@ -263,8 +263,10 @@ def mast_raise_m(batch: LinkBatch) -> np.ndarray:
     interior = batch.profiles.interior
     for at_k, frac in ((batch.design, crit.min_f1_fraction), (batch.worst, crit.min_f1_fraction_worst)):
         c = at_k.clearance
-        short = np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf)
-        need = np.maximum(need, np.max(short, axis=1))
+        short = c.shortfall_m  # made with the clearance by analyse_links (the same numbers)
+        if short is None:
+            short = np.max(np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf), axis=1)
+        need = np.maximum(need, short)
     return np.maximum(need, 0.0)
 
 
@@ -353,7 +355,7 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     av = availability_for_links(
         out["fade_margin_db"], np.where(valid, length_m, 1.0), _radio_freq(task.radio, n),
         out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
-        task.settings.climate,
+        task.settings.climate, solve_required=False,  # the margin needed is not a screening column
     )
     for name, values in _availability_columns(av, n).items():
         out[name][:] = values
@@ -381,10 +383,11 @@ def _availability_columns(av: Any, n: int) -> dict[str, np.ndarray]:
 
 def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems: list,
                    length_m: np.ndarray) -> None:
-    sites_a = [Site(str(task.names_a[k]), float(task.lat_a[k]), float(task.lon_a[k]), float(task.agl_a[k]))
-               for k in idx]
-    sites_b = [Site(str(task.names_b[k]), float(task.lat_b[k]), float(task.lon_b[k]), float(task.agl_b[k]))
-               for k in idx]
+    # Columns, not one Site object per pair (the engine reads them as arrays).
+    sites_a = SiteColumns(task.names_a[idx], task.lat_a[idx].astype(float), task.lon_a[idx].astype(float),
+                          task.agl_a[idx].astype(float))
+    sites_b = SiteColumns(task.names_b[idx], task.lat_b[idx].astype(float), task.lon_b[idx].astype(float),
+                          task.agl_b[idx].astype(float))
     radio = task.radio
     if task.gain_a is not None:
         radio = dataclasses.replace(radio, gain_a_dbi=task.gain_a[idx], gain_b_dbi=task.gain_b[idx])
@@ -392,7 +395,7 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
     # The other diffraction methods are for a single link's record: not computed in bulk.
     settings = dataclasses.replace(task.settings, compare_methods=False)
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
-                          names=[f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)],
+                          names=[f"{a} - {b}" for a, b in zip(sites_a.names.tolist(), sites_b.names.tolist())],
                           check_sites=False, estimate_availability=False)
     length_m[idx] = batch.profiles.length_m
     lines = batch.profiles.lines

@@ -146,3 +146,19 @@ def test_assumptions_name_the_defaults():
     assert "R0.01 = 42 mm/h (default" in text
     assert "dN1 = -200" in text and "sa = 40 m (default)" in text
     assert math.isclose(r.target_availability_pct, 99.99)
+
+
+def test_skipping_the_required_margin_leaves_the_other_numbers_unchanged():
+    """solve_required=False (screening) skips only the bisection of the margin needed."""
+    rng = np.random.default_rng(8)
+    args = (rng.uniform(-5.0, 60.0, 200), rng.uniform(2_000.0, 50_000.0, 200), rng.choice([6.0, 18.0, 38.0], 200),
+            rng.uniform(0.0, 900.0, 200), rng.uniform(0.0, 900.0, 200))
+    full = evaluate_availability(*args, latitude_deg=rng.uniform(-60, 60, 200), multipath_outside_range="exclude")
+    rng = np.random.default_rng(8)
+    args = (rng.uniform(-5.0, 60.0, 200), rng.uniform(2_000.0, 50_000.0, 200), rng.choice([6.0, 18.0, 38.0], 200),
+            rng.uniform(0.0, 900.0, 200), rng.uniform(0.0, 900.0, 200))
+    fast = evaluate_availability(*args, latitude_deg=rng.uniform(-60, 60, 200), multipath_outside_range="exclude",
+                                 solve_required=False)
+    assert np.all(np.isnan(fast.required_fade_margin_db)) and np.all(np.isfinite(full.required_fade_margin_db))
+    for name in ("availability_pct", "total_outage_pct", "rain_outage_pct", "multipath_outage_pct", "meets_target"):
+        assert np.array_equal(getattr(full, name), getattr(fast, name))

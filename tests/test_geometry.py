@@ -50,3 +50,31 @@ def test_clearance_detects_obstruction():
     assert c.worst_index[0] == 4
     assert c.worst_clearance_m[0] == pytest.approx(30.0 - 40.0 - earth_bulge_m(400.0, 600.0, 4 / 3))
     assert c.worst_f1_fraction[0] < 0
+
+
+@pytest.mark.parametrize("k", [4.0 / 3.0, 2.0 / 3.0, np.inf])
+def test_compiled_clearance_pass_gives_the_same_bits_as_the_full_arrays(k, monkeypatch):
+    """Large batches take one compiled pass (worst point, line of sight, shortfall); small ones use
+    whole arrays.  Same numbers to the bit, and the lazily made arrays are those of the small path."""
+    pytest.importorskip("numba")
+    from profiler import kernels
+
+    from .test_terrain_diffraction import batch, random_rows
+
+    rng = np.random.default_rng(11)
+    dist, surf, inner, length = batch(random_rows(rng, 400, n_min=3, n_max=90))
+    ha = surf[:, 0] + rng.choice([1.0, 10.0, 60.0, 300.0], 400)
+    hb = surf[:, -1] + rng.choice([1.0, 10.0, 60.0, 300.0], 400)
+    freq = rng.choice([2.4, 5.8, 23.0], 400)
+    out = {}
+    for threshold in (10**12, 1):
+        monkeypatch.setattr(kernels, "NUMBA_MIN_SAMPLES", threshold)
+        out[threshold] = clearance(dist, surf, inner, length, ha, hb, freq, k, 0.6)
+    small, large = out[10**12], out[1]
+    for name in ("worst_index", "worst_f1_fraction", "worst_clearance_m", "worst_distance_m", "line_of_sight",
+                 "shortfall_m", "f1_m", "clearance_m", "f1_fraction", "bulge_m", "line_m"):
+        assert np.array_equal(getattr(small, name), getattr(large, name)), name
+    # The shortfall is the largest 0.6 F1 - clearance over the interior: some paths lack it, some do not.
+    ref = np.max(np.where(inner, 0.6 * small.f1_m - small.clearance_m, -np.inf), axis=1)
+    assert np.array_equal(large.shortfall_m, ref)
+    assert np.any(ref > 0) and np.any(ref < 0) and np.any(~large.line_of_sight) and np.any(large.line_of_sight)

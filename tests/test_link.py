@@ -119,3 +119,43 @@ def test_default_spacing_is_half_a_cell(ridge):
     assert batch.profiles.spacing_m[0] == pytest.approx(cell / 2)
     steps = np.diff(batch.profiles.distance_m[0, : batch.profiles.n_samples[0]])
     assert steps.max() <= cell / 2 + 1e-9
+
+
+def test_gases_once_per_frequency_give_the_per_path_numbers():
+    """gaseous_loss_db computes gamma once per distinct frequency: same bits as A = gamma d per path
+    (ITU-R P.676-12 Annex 1 section 2.1 via gaseous_path_attenuation_db)."""
+    from types import SimpleNamespace
+
+    from profiler.link import gaseous_loss_db
+    from profiler.losses.atmosphere import gaseous_path_attenuation_db
+
+    rng = np.random.default_rng(4)
+    length = rng.uniform(100.0, 60_000.0, 300)
+    profiles = SimpleNamespace(length_m=length)
+    for freq in (np.full(300, 5.8), rng.choice([2.4, 11.0, 23.0, 0.5, 1500.0], 300), rng.uniform(1.0, 90.0, 300)):
+        got = gaseous_loss_db(profiles, freq)
+        use = (freq >= 1.0) & (freq <= 1000.0)
+        ref = np.zeros(300)
+        ref[use] = gaseous_path_attenuation_db(length[use], freq[use])
+        assert np.array_equal(got, ref)
+        assert np.all(got[~use] == 0.0) and np.all(got[use] > 0.0)
+
+
+def test_site_columns_give_the_numbers_of_site_objects(ridge):
+    """Batch callers may pass SiteColumns (arrays) instead of one Site per link: same records."""
+    from profiler.link import SiteColumns
+
+    a = [Site("a1", 46.02, 10.01, 10), Site("a2", 46.0, 10.01, 30), Site("a3", 46.04, 10.02, 3)]
+    b = [Site("b1", 46.02, 10.09, 10), Site("b2", 46.03, 10.03, 5), Site("b3", 46.01, 10.08, 12)]
+
+    def columns(sites):
+        return SiteColumns(np.array([s.name for s in sites], dtype=object), np.array([s.lat_deg for s in sites]),
+                           np.array([s.lon_deg for s in sites]), np.array([s.antenna_agl_m for s in sites]))
+
+    ref = analyse_links(ridge, a, b, RADIO)
+    got = analyse_links(ridge, columns(a), columns(b), RADIO)
+    assert list(columns(a)) == a and columns(b)[1:] == b[1:]
+    for i in range(3):
+        rec, want = got.record(i), ref.record(i)
+        for key in ("sites", "distance_km", "loss_db", "budget", "clearance", "worst_case", "availability"):
+            assert rec[key] == want[key]

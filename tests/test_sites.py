@@ -90,3 +90,33 @@ def test_pairs_file(tmp_path):
     assert [r.row for r in bad] == [3, 4, 5]
     assert "same pair as row 2" in bad[0].reason
     assert "'Z'" in bad[1].reason
+
+
+def test_read_pairs_many_rows_equals_a_row_by_row_reading(tmp_path):
+    """Whole-column reading keeps the row-by-row rules: unknown site, self pair, repeat (either way)."""
+    rng = np.random.default_rng(1)
+    names = np.array([f"s{i}" for i in range(30)])
+    rows = []
+    for _ in range(400):
+        a, b = f"s{rng.integers(0, 35)}", f"s{rng.integers(0, 35)}"
+        rows.append((a, a) if rng.random() < 0.1 else (a, b))
+    path = tmp_path / "pairs.csv"
+    path.write_text("a,b\n" + "".join(f" {a},{b}\n" for a, b in rows))
+    index = {n: k for k, n in enumerate(names)}
+    ref_a, ref_b, ref_bad, seen = [], [], [], {}
+    for k, (na, nb) in enumerate(rows):
+        row = k + 2
+        if na not in index or nb not in index:
+            ref_bad.append((row, f"site {(na if na not in index else nb)!r} is not among the usable sites"))
+        elif na == nb:
+            ref_bad.append((row, "pairs a site with itself"))
+        elif (key := tuple(sorted((index[na], index[nb])))) in seen:
+            ref_bad.append((row, f"same pair as row {seen[key]}"))
+        else:
+            seen[key] = row
+            ref_a.append(index[na])
+            ref_b.append(index[nb])
+    a, b, bad = read_pairs(path, names)
+    assert a.tolist() == ref_a and b.tolist() == ref_b
+    assert [(r.row, r.reason) for r in bad] == ref_bad
+    assert {r.reason.split()[0] for r in bad} == {"site", "pairs", "same"}

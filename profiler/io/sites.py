@@ -277,24 +277,32 @@ def read_pairs(
         if c not in cols:
             raise InputError(f"{p}: no column {c!r}; columns are: {', '.join(cols)}")
     index = {str(nm): k for k, nm in enumerate(names)}
-    ia, ib, bad = [], [], []
-    seen: dict[tuple[int, int], int] = {}
-    for k, (na, nb) in enumerate(zip(frame[a_col].astype(str).str.strip(), frame[b_col].astype(str).str.strip())):
-        row = k + 2
+    col_a = frame[a_col].astype(str).str.strip()
+    col_b = frame[b_col].astype(str).str.strip()
+    # Whole columns at once; sentences only for the rows left out (in file order).
+    a = col_a.map(index).to_numpy(dtype=float, na_value=np.nan)
+    b = col_b.map(index).to_numpy(dtype=float, na_value=np.nan)
+    known = ~np.isnan(a) & ~np.isnan(b)
+    a = np.where(known, a, -1).astype(np.int64)
+    b = np.where(known, b, -1).astype(np.int64)
+    valid = known & (a != b)
+    key = np.minimum(a, b) * max(len(index), 1) + np.maximum(a, b)
+    rows = np.flatnonzero(valid)
+    _, first = np.unique(key[rows], return_index=True)
+    keep = np.zeros(len(frame), dtype=bool)
+    keep[rows[first]] = True
+    first_row = dict(zip(key[rows[first]].tolist(), (rows[first] + 2).tolist()))
+    bad = []
+    names_a, names_b = col_a.to_numpy(), col_b.to_numpy()
+    for k in np.flatnonzero(~keep).tolist():
+        na, nb = names_a[k], names_b[k]
         label = f"{na} - {nb}"
-        if na not in index or nb not in index:
+        if not known[k]:
             missing = na if na not in index else nb
-            bad.append(BadRow(p.name, row, label, f"site {missing!r} is not among the usable sites"))
-            continue
-        a, b = index[na], index[nb]
-        if a == b:
-            bad.append(BadRow(p.name, row, label, "pairs a site with itself"))
-            continue
-        key = (min(a, b), max(a, b))
-        if key in seen:
-            bad.append(BadRow(p.name, row, label, f"same pair as row {seen[key]}"))
-            continue
-        seen[key] = row
-        ia.append(a)
-        ib.append(b)
-    return np.asarray(ia, dtype=np.int64), np.asarray(ib, dtype=np.int64), bad
+            reason = f"site {missing!r} is not among the usable sites"
+        elif a[k] == b[k]:
+            reason = "pairs a site with itself"
+        else:
+            reason = f"same pair as row {first_row[int(key[k])]}"
+        bad.append(BadRow(p.name, k + 2, label, reason))
+    return a[keep], b[keep], bad

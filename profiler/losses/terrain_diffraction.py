@@ -143,6 +143,20 @@ def _as_column(value: ArrayLike, n_paths: int, name: str) -> np.ndarray:
     return arr[:, None]
 
 
+@dataclass(frozen=True)
+class _Checked:
+    """Validated inputs: (P, N) arrays and (P, 1) columns."""
+
+    d1: np.ndarray
+    surface: np.ndarray
+    interior: np.ndarray
+    ha: np.ndarray
+    hb: np.ndarray
+    length: np.ndarray
+    freq: np.ndarray
+    k: np.ndarray
+
+
 def _prepare(
     distance_m: ArrayLike,
     surface_m: ArrayLike,
@@ -153,6 +167,30 @@ def _prepare(
     freq_ghz: ArrayLike,
     k: ArrayLike,
 ) -> _Batch:
+    c = _check(distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
+    d1, surface, inner, ha, hb, length, freq, kk = (
+        c.d1, c.surface, c.interior, c.ha, c.hb, c.length, c.freq, c.k)
+    d2 = length - d1
+    lam = wavelength_m(freq)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        elev = surface + d1 * d2 / (2.0 * kk * EARTH_RADIUS_M)
+        height = elev - (ha + (hb - ha) * d1 / length)
+        v = fresnel_kirchhoff_v(height, d1, d2, freq)
+    inner = inner & (d1 > 0.0) & (d2 > 0.0)
+    v = np.where(inner, v, -np.inf)
+    return _Batch(d1, d2, surface, inner, elev, height, v, ha, hb, length, freq, kk, lam)
+
+
+def _check(
+    distance_m: ArrayLike,
+    surface_m: ArrayLike,
+    interior: ArrayLike,
+    antenna_a_amsl_m: ArrayLike,
+    antenna_b_amsl_m: ArrayLike,
+    path_length_m: ArrayLike,
+    freq_ghz: ArrayLike,
+    k: ArrayLike,
+) -> _Checked:
     d1 = np.atleast_2d(np.asarray(distance_m, dtype=float))
     surface = np.atleast_2d(np.asarray(surface_m, dtype=float))
     inner = np.atleast_2d(np.asarray(interior, dtype=bool))
@@ -183,16 +221,7 @@ def _prepare(
             f"profile of path {row} has a missing (NaN) height or distance at sample {col} "
             f"({d1[row, col] / 1000.0:.3f} km from site a)"
         )
-
-    d2 = length - d1
-    lam = wavelength_m(freq)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        elev = surface + d1 * d2 / (2.0 * kk * EARTH_RADIUS_M)
-        height = elev - (ha + (hb - ha) * d1 / length)
-        v = fresnel_kirchhoff_v(height, d1, d2, freq)
-    inner = inner & (d1 > 0.0) & (d2 > 0.0)
-    v = np.where(inner, v, -np.inf)
-    return _Batch(d1, d2, surface, inner, elev, height, v, ha, hb, length, freq, kk, lam)
+    return _Checked(d1, surface, inner, ha, hb, length, freq, kk)
 
 
 def _check_positive(arr: np.ndarray, name: str) -> None:
@@ -278,84 +307,83 @@ def _epstein_peterson(b: _Batch, parts: dict[str, np.ndarray] | None = None) -> 
     return loss + np.where(use_r, knife_edge_loss_db(p["vr"]), 0.0)
 
 
-def _bullington_core(
-    elev: np.ndarray,
-    interior: np.ndarray,
-    d1: np.ndarray,
-    d2: np.ndarray,
-    ha: np.ndarray,
-    hb: np.ndarray,
-    length: np.ndarray,
-    lam: np.ndarray,
+def _bullington_from(
+    stim: np.ndarray, srim: np.ndarray, v_max: np.ndarray,
+    ha: np.ndarray, hb: np.ndarray, d: np.ndarray, lam: np.ndarray,
 ) -> np.ndarray:
-    """Bullington loss (ITU-R P.526-15 section 4.5.1) in SI units.
+    """Bullington loss (ITU-R P.526-15 section 4.5.1) from the profile's reductions, dB (P,).
 
-    ``elev`` already holds the earth bulge; ha, hb, length, lam are (P, 1).
+    ``stim``, ``srim``: largest slopes from each antenna to the profile; ``v_max``:
+    largest v (the line-of-sight case) (see :func:`profiler.kernels.diffraction_reductions`);
+    ha, hb, d, lam in metres, each (P,).
     """
     with np.errstate(divide="ignore", invalid="ignore"):
-        stim = np.where(interior, (elev - ha) / d1, -np.inf).max(axis=1)
-        s_tr = ((hb - ha) / length)[:, 0]
-        srim = np.where(interior, (elev - hb) / d2, -np.inf).max(axis=1)
-        # Line-of-sight case: v of the sample of largest v.
-        h_line = elev - (ha + (hb - ha) * d1 / length)
-        v_all = np.where(interior, h_line * np.sqrt(2.0 * length / (lam * d1 * d2)), -np.inf)
-        v_los = v_all.max(axis=1)
+        s_tr = (hb - ha) / d
         # Trans-horizon case: the point where the two horizon rays meet.
-        ha1, hb1, d, lam1 = ha[:, 0], hb[:, 0], length[:, 0], lam[:, 0]
         denom = stim + srim
-        dbp = (hb1 - ha1 + srim * d) / denom
-        h_bp = ha1 + stim * dbp - (ha1 * (d - dbp) + hb1 * dbp) / d
-        v_b = h_bp * np.sqrt(2.0 * d / (lam1 * dbp * (d - dbp)))
+        dbp = (hb - ha + srim * d) / denom
+        h_bp = ha + stim * dbp - (ha * (d - dbp) + hb * dbp) / d
+        v_b = h_bp * np.sqrt(2.0 * d / (lam * dbp * (d - dbp)))
     nlos = (stim > s_tr) & (denom > 0.0) & np.isfinite(v_b)
-    luc = knife_edge_loss_db(np.where(nlos, v_b, v_los))
+    luc = knife_edge_loss_db(np.where(nlos, v_b, v_max))
     return luc + (1.0 - np.exp(-luc / 6.0)) * (10.0 + 0.02 * d / 1000.0)
 
 
-def _bullington(b: _Batch) -> np.ndarray:
-    return _bullington_core(b.elev, b.interior, b.d1, b.d2, b.ha, b.hb, b.length, b.lam)
+@dataclass(frozen=True)
+class _Reduced:
+    """Per-path reductions of checked profiles at one k (see profiler.kernels.diffraction_reductions)."""
+
+    c: _Checked
+    lam: np.ndarray  # (P,)
+    stim: np.ndarray
+    srim: np.ndarray
+    v_max: np.ndarray
+    i_max: np.ndarray
+    hstd: np.ndarray  # smooth surface (NaN unless asked for)
+    hsrd: np.ndarray
+
+    def column(self, name: str) -> np.ndarray:
+        return getattr(self.c, name)[:, 0]
 
 
-def _smooth_surface(b: _Batch) -> tuple[np.ndarray, np.ndarray]:
-    """Smooth-surface heights at a and b for the complete method (ITU-R P.526-15 section 4.5.2).
+def _reduce(c: _Checked, smooth: bool) -> _Reduced:
+    from ..kernels import diffraction_reductions
 
-    Least-squares line v1, v2 over the profile, lowered so that it passes
-    under the highest obstacle, and capped at the ground at each end.
-    """
-    d, h = b.d1, b.surface
-    length = b.length[:, 0]
-    step = np.diff(d, axis=1)
-    v1 = np.sum(step * (h[:, 1:] + h[:, :-1]), axis=1)
-    v2 = np.sum(step * (h[:, 1:] * (2.0 * d[:, 1:] + d[:, :-1]) + h[:, :-1] * (d[:, 1:] + 2.0 * d[:, :-1])), axis=1)
-    hst = (2.0 * v1 * length - v2) / length**2
-    hsr = (v2 - v1 * length) / length**2
-    with np.errstate(divide="ignore", invalid="ignore"):
-        obst = h - (b.ha * b.d2 + b.hb * b.d1) / b.length
-        hobs = np.where(b.interior, obst, -np.inf).max(axis=1)
-        aobt = np.where(b.interior, obst / b.d1, -np.inf).max(axis=1)
-        aobr = np.where(b.interior, obst / b.d2, -np.inf).max(axis=1)
-        share_t = aobt / (aobt + aobr)
-    lower = hobs > 0.0
-    hst = np.where(lower, hst - hobs * share_t, hst)
-    hsr = np.where(lower, hsr - hobs * (1.0 - share_t), hsr)
-    h0 = h[:, 0]
-    hn = h[:, -1]
-    return np.minimum(hst, h0), np.minimum(hsr, hn)
+    lam = wavelength_m(c.freq[:, 0])
+    out = diffraction_reductions(c.d1, c.surface, c.interior, c.ha[:, 0], c.hb[:, 0], c.length[:, 0], lam,
+                                 c.k[:, 0], smooth)
+    return _Reduced(c, lam, *out)
 
 
-def _delta_bullington(b: _Batch, polarisation: str, ground: str | GroundConstants,
+def _bullington_reduced(r: _Reduced) -> np.ndarray:
+    return _bullington_from(r.stim, r.srim, r.v_max, r.column("ha"), r.column("hb"), r.column("length"), r.lam)
+
+
+def _delta_bullington(r: _Reduced, polarisation: str, ground: str | GroundConstants,
                       l_bulla: np.ndarray | None = None) -> np.ndarray:
-    """Complete method Ld = Lbulla + max(Ldsph - Lbulls, 0) (ITU-R P.526-15 section 4.5.2)."""
+    """Complete method Ld = Lbulla + max(Ldsph - Lbulls, 0) (ITU-R P.526-15 section 4.5.2).
+
+    Lbulls is Bullington over the bare smooth earth (bulge only) with the
+    antennas at hts = ha - hstd, hrs = hb - hsrd above the smooth surface.
+    """
+    from ..kernels import bullington_reductions
+
     if l_bulla is None:
-        l_bulla = _bullington(b)
-    hstd, hsrd = _smooth_surface(b)
-    hts_s = b.ha[:, 0] - hstd
-    hrs_s = b.hb[:, 0] - hsrd
-    with np.errstate(divide="ignore", invalid="ignore"):
-        bulge = b.d1 * b.d2 / (2.0 * b.k * EARTH_RADIUS_M)
-    l_bulls = _bullington_core(bulge, b.interior, b.d1, b.d2, hts_s[:, None], hrs_s[:, None], b.length, b.lam)
+        l_bulla = _bullington_reduced(r)
+    length, k = r.column("length"), r.column("k")
+    hts_s = r.column("ha") - r.hstd
+    hrs_s = r.column("hb") - r.hsrd
     l_dsph = smooth_earth_loss_db(
-        b.length[:, 0], hts_s, hrs_s, b.freq[:, 0], b.k[:, 0], polarisation=polarisation, ground=ground
+        length, hts_s, hrs_s, r.column("freq"), k, polarisation=polarisation, ground=ground
     )
+    # Lbulls >= 0, so where Ldsph is exactly 0 the excess max(Ldsph - Lbulls, 0) is 0 whatever
+    # Lbulls is: it is computed only for the other paths (mostly those near or past the horizon).
+    l_bulls = np.zeros(l_dsph.shape)
+    rows = np.flatnonzero(~(l_dsph == 0.0))
+    if rows.size:
+        stim, srim, v_max = bullington_reductions(
+            r.c.d1[rows], r.c.interior[rows], hts_s[rows], hrs_s[rows], length[rows], r.lam[rows], k[rows])
+        l_bulls[rows] = _bullington_from(stim, srim, v_max, hts_s[rows], hrs_s[rows], length[rows], r.lam[rows])
     return l_bulla + np.maximum(l_dsph - l_bulls, 0.0)
 
 
@@ -382,21 +410,36 @@ def _split_args(args: tuple, sl: slice, n_paths: int) -> tuple:
     return tuple(out)
 
 
+#: Methods computed from per-path reductions (no (P, N) temporaries).
+_REDUCED_METHODS = frozenset({"knife-edge", "bullington", "delta-bullington"})
+
+
 def _run(methods: tuple[str, ...], args: tuple, polarisation: str,
-         ground: str | GroundConstants) -> dict[str, np.ndarray]:
-    """Losses of several methods, computed block by block over the paths."""
+         ground: str | GroundConstants, warn: str | None = None,
+         ) -> tuple[dict[str, np.ndarray], list[tuple[str, ...]]]:
+    """Losses of several methods (and the validity warnings of method ``warn``), block by block."""
     polarisation = resolve_polarisation(polarisation)
     ground = resolve_ground(ground)
     shape = np.atleast_2d(np.asarray(args[0])).shape
     n_paths, n_cols = shape
     pieces: dict[str, list[np.ndarray]] = {m: [] for m in methods}
-    for sl in _blocks(n_paths, n_cols):
-        b = _prepare(*_split_args(args, sl, n_paths))
-        parts = _deygout_parts(b) if {"deygout", "epstein-peterson"} & set(methods) else None
-        l_bull = _bullington(b) if {"bullington", "delta-bullington"} & set(methods) else None
+    warnings: list[tuple[str, ...]] = []
+    from ..kernels import use_numba
+
+    # The compiled reductions make no (P, N) temporaries: no need to cut the batch then.
+    whole = not ({"deygout", "epstein-peterson"} & set(methods)) and use_numba(n_paths * n_cols)
+    for sl in [slice(0, n_paths)] if whole else _blocks(n_paths, n_cols):
+        part = _split_args(args, sl, n_paths)
+        c = _check(*part)
+        r = _reduce(c, "delta-bullington" in methods) if (_REDUCED_METHODS & set(methods)) or warn else None
+        b = parts = None
+        if {"deygout", "epstein-peterson"} & set(methods):
+            b = _prepare(*part)
+            parts = _deygout_parts(b)
+        l_bull = _bullington_reduced(r) if {"bullington", "delta-bullington"} & set(methods) else None
         for m in methods:
             if m == "knife-edge":
-                loss = _knife_edge(b)
+                loss = knife_edge_loss_db(r.v_max)
             elif m == "deygout":
                 loss = _deygout(b, parts)
             elif m == "epstein-peterson":
@@ -404,9 +447,11 @@ def _run(methods: tuple[str, ...], args: tuple, polarisation: str,
             elif m == "bullington":
                 loss = l_bull
             else:
-                loss = _delta_bullington(b, polarisation, ground, l_bull)
+                loss = _delta_bullington(r, polarisation, ground, l_bull)
             pieces[m].append(loss)
-    return {m: np.concatenate(p) if p else np.zeros(0) for m, p in pieces.items()}
+        if warn:
+            warnings.extend(_warnings(warn, r))
+    return {m: np.concatenate(p) if p else np.zeros(0) for m, p in pieces.items()}, warnings
 
 
 def diffraction_loss_db(
@@ -432,7 +477,7 @@ def diffraction_loss_db(
     """
     name = resolve_method(method)
     args = (distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    return _run((name,), args, polarisation, ground)[name]
+    return _run((name,), args, polarisation, ground)[0][name]
 
 
 def diffraction_by_method(
@@ -450,7 +495,7 @@ def diffraction_by_method(
 ) -> dict[str, np.ndarray]:
     """Loss of every method in :data:`DIFFRACTION_METHODS` for the same profiles, dB, each (P,)."""
     args = (distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    return _run(DIFFRACTION_METHODS, args, polarisation, ground)
+    return _run(DIFFRACTION_METHODS, args, polarisation, ground)[0]
 
 
 def _single(method: str):
@@ -533,8 +578,9 @@ def smooth_surface_heights_m(
     ITU-R P.526-15 section 4.5.2: least-squares line through the profile,
     lowered under the highest obstacle, capped by the ground at each end.
     """
-    b = _prepare(distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    return _smooth_surface(b)
+    c = _check(distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
+    r = _reduce(c, True)
+    return r.hstd, r.hsrd
 
 
 def diffraction_validity_warnings(
@@ -557,51 +603,56 @@ def diffraction_validity_warnings(
     """
     name = resolve_method(method)
     args = (distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    shape = np.atleast_2d(np.asarray(distance_m)).shape
-    n_paths, n_cols = shape
-    out: list[tuple[str, ...]] = []
-    for sl in _blocks(n_paths, n_cols):
-        b = _prepare(*_split_args(args, sl, n_paths))
-        freq = b.freq[:, 0]
-        # Diffraction angle at the edge of largest v: height (1/d1 + 1/d2).
-        idx = np.argmax(b.v, axis=1)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            angle = (_rows(b.height, idx) * (1.0 / _rows(b.d1, idx) + 1.0 / _rows(b.d2, idx)))[:, 0]
-        has_edge = np.isfinite(b.v.max(axis=1))
-        lo, hi = _FREQ_RANGE_GHZ.get(name, (0.0, np.inf))
-        bad_freq = ~((freq >= lo) & (freq <= hi))
-        steep = has_edge & (angle > _MAX_DIFFRACTION_ANGLE_RAD)
-        low_a = b.ha[:, 0] < b.surface[:, 0]
-        low_b = b.hb[:, 0] < b.surface[:, -1]
-        block_msgs: list[tuple[str, ...]] = [()] * freq.shape[0]
-        for row in np.flatnonzero(bad_freq | steep | low_a | low_b):  # message text only
-            msgs: list[str] = []
-            if bad_freq[row]:
-                msgs.append(
-                    f"{name} diffraction: frequency {freq[row]:g} GHz lies outside {lo:g}-{hi:g} GHz, "
-                    "the range of the ITU-R Recommendations built on this method; loss less certain"
-                )
-            if steep[row]:
-                i = idx[row]
-                msgs.append(
-                    f"{name} diffraction: steep obstacle {b.d1[row, i] / 1000.0:.3f} km from site a bends the "
-                    f"path by {np.degrees(angle[row]):.1f} degrees, beyond the small-angle range "
-                    f"(about {np.degrees(_MAX_DIFFRACTION_ANGLE_RAD):.0f} degrees) of ITU-R P.526-15 section 4.1; "
-                    "loss less certain"
-                )
-            if low_a[row]:
-                msgs.append(
-                    f"{name} diffraction: antenna a ({b.ha[row, 0]:.1f} m above sea level) is below the "
-                    f"surface at its own site ({b.surface[row, 0]:.1f} m); check its height"
-                )
-            if low_b[row]:
-                msgs.append(
-                    f"{name} diffraction: antenna b ({b.hb[row, 0]:.1f} m above sea level) is below the "
-                    f"surface at its own site ({b.surface[row, -1]:.1f} m); check its height"
-                )
-            block_msgs[row] = tuple(msgs)
-        out.extend(block_msgs)
-    return out
+    return _run((), args, "horizontal", "land", warn=name)[1]
+
+
+def _warnings(name: str, r: _Reduced) -> list[tuple[str, ...]]:
+    """Validity warnings of method ``name`` for the paths of ``r`` (see diffraction_validity_warnings)."""
+    c = r.c
+    freq = c.freq[:, 0]
+    # Diffraction angle at the edge of largest v: height (1/d1 + 1/d2).
+    idx = r.i_max
+    rows = np.arange(idx.shape[0])
+    d1 = c.d1[rows, idx]
+    ha, hb, length, kk = c.ha[:, 0], c.hb[:, 0], c.length[:, 0], c.k[:, 0]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d2 = length - d1
+        elev = c.surface[rows, idx] + d1 * d2 / (2.0 * kk * EARTH_RADIUS_M)
+        height = elev - (ha + (hb - ha) * d1 / length)
+        angle = height * (1.0 / d1 + 1.0 / d2)
+    has_edge = np.isfinite(r.v_max)
+    lo, hi = _FREQ_RANGE_GHZ.get(name, (0.0, np.inf))
+    bad_freq = ~((freq >= lo) & (freq <= hi))
+    steep = has_edge & (angle > _MAX_DIFFRACTION_ANGLE_RAD)
+    low_a = ha < c.surface[:, 0]
+    low_b = hb < c.surface[:, -1]
+    block_msgs: list[tuple[str, ...]] = [()] * freq.shape[0]
+    for row in np.flatnonzero(bad_freq | steep | low_a | low_b):  # message text only
+        msgs: list[str] = []
+        if bad_freq[row]:
+            msgs.append(
+                f"{name} diffraction: frequency {freq[row]:g} GHz lies outside {lo:g}-{hi:g} GHz, "
+                "the range of the ITU-R Recommendations built on this method; loss less certain"
+            )
+        if steep[row]:
+            msgs.append(
+                f"{name} diffraction: steep obstacle {d1[row] / 1000.0:.3f} km from site a bends the "
+                f"path by {np.degrees(angle[row]):.1f} degrees, beyond the small-angle range "
+                f"(about {np.degrees(_MAX_DIFFRACTION_ANGLE_RAD):.0f} degrees) of ITU-R P.526-15 section 4.1; "
+                "loss less certain"
+            )
+        if low_a[row]:
+            msgs.append(
+                f"{name} diffraction: antenna a ({ha[row]:.1f} m above sea level) is below the "
+                f"surface at its own site ({c.surface[row, 0]:.1f} m); check its height"
+            )
+        if low_b[row]:
+            msgs.append(
+                f"{name} diffraction: antenna b ({hb[row]:.1f} m above sea level) is below the "
+                f"surface at its own site ({c.surface[row, -1]:.1f} m); check its height"
+            )
+        block_msgs[row] = tuple(msgs)
+    return block_msgs
 
 
 def diffraction_with_warnings(
@@ -621,5 +672,5 @@ def diffraction_with_warnings(
     """Loss by ``method`` together with its validity warnings (see the two functions it joins)."""
     name = resolve_method(method)
     args = (distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m, freq_ghz, k)
-    loss = diffraction_loss_db(name, *args, polarisation=polarisation, ground=ground)
-    return DiffractionResult(name, loss, tuple(diffraction_validity_warnings(name, *args)))
+    losses, warnings = _run((name,), args, polarisation, ground, warn=name)
+    return DiffractionResult(name, losses[name], tuple(warnings))
