@@ -46,7 +46,7 @@ def fresnel_radius_m(
 ) -> np.ndarray:
     """Radius of the n-th Fresnel zone, metres.
 
-    R_n = sqrt(n lambda d1 d2 / (d1 + d2)) (ITU-R P.526-15 eq. 2; P.530-18
+    R_n = sqrt(n lambda d1 d2 / (d1 + d2)) (ITU-R P.526-15 eq. 2; P.530-17
     writes F1 = 17.3 sqrt(d1 d2 / (f d)) with km and GHz).
     """
     d1 = np.asarray(d1_m, dtype=float)

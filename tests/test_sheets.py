@@ -155,7 +155,7 @@ def test_drawn_bulge_fresnel_and_criterion_follow_the_handbook(batch):
     # Earth bulge h = d1 d2 / (12.742 k) m with km (handbook form of d1 d2 / (2 k a), a = 6371 km).
     bulge = d1 * d2 / (12.742 * (4.0 / 3.0))
     assert art.lines["ground"].get_ydata()[i] - d.ground_m[i] == pytest.approx(bulge, rel=1e-4)
-    # First Fresnel radius F1 = 17.3 sqrt(d1 d2 / (f d)) m, f in GHz, d in km (ITU-R P.530-18;
+    # First Fresnel radius F1 = 17.3 sqrt(d1 d2 / (f d)) m, f in GHz, d in km (ITU-R P.530-17;
     # the section, 2.2.2, is from memory).  17.3 rounds 17.32, hence the 2e-3 tolerance.
     f1 = 17.3 * np.sqrt(d1 * d2 / (5.8 * dist))
 

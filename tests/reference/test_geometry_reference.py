@@ -7,7 +7,7 @@ from profiler.geometry import earth_bulge_m, fresnel_radius_m
 
 
 def test_f1_against_p530():
-    # ITU-R P.530-18 (09/2021), section 2.2.2 / eq. (2): F1 = 17.3 sqrt(d1 d2 / (f d)) m,
+    # ITU-R P.530-17 (12/2017), section 2.2.2 / eq. (2): F1 = 17.3 sqrt(d1 d2 / (f d)) m,
     # f in GHz, d in km. d1 = d2 = 10 km at 10 GHz: 12.233 m (shared/references.md, itur).
     # 12.233 m uses the rounded 17.3; the exact constant sqrt(299.79) = 17.314 gives 12.243 m.
     assert fresnel_radius_m(10_000.0, 10_000.0, 10.0) == pytest.approx(12.233, rel=1e-3)
