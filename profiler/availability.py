@@ -560,7 +560,8 @@ def availability_for_links(
             )
         atmosphere = ("pressure_hpa", "temperature_c", "water_vapour_g_m3")
         shared = (
-            "fade margin taken from the budget at the design k (median conditions, gases included)",
+            "fade margin taken from the budget at the design k (median conditions, gases and any diffraction "
+            "loss included; how diffraction loss varies with refraction is not part of this estimate)",
             f"gases: ITU-R P.676-12 Annex 1 at {settings.pressure_hpa:g} hPa, {settings.temperature_c:g} degC, "
             f"{settings.water_vapour_g_m3:g} g/m^3"
             + (" (defaults)" if all(a in settings.defaults_used() for a in atmosphere) else ""),

@@ -141,7 +141,7 @@ site_options = _compose(
 
 #: Radio flags and the Radio field each one sets.
 RADIO_FLAGS = {
-    "freq_ghz": "Frequency, GHz (required unless in the link file).",
+    "freq_ghz": "Frequency, GHz (required; a link file may give it instead).",
     "tx_power_dbm": "Transmitter power at site a, dBm [default: 20].",
     "gain_a_dbi": "Antenna gain at site a, dBi [default: 0].",
     "gain_b_dbi": "Antenna gain at site b, dBi [default: 0].",
