@@ -11,7 +11,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 from pyproj import Geod
 
-__all__ = ["WGS84", "PathLines", "path_lines", "sample_counts", "sample_paths", "NODE_SPACING_M"]
+__all__ = ["WGS84", "PathLines", "path_lines", "sample_counts", "sample_paths", "NODE_SPACING_M",
+           "canonical_order", "path_nodes"]
 
 #: The one ellipsoid of the package: WGS84 (Karney's algorithms in PROJ).
 WGS84 = Geod(ellps="WGS84")
@@ -101,6 +102,43 @@ def _geodesic_nodes(
     return offsets, lat, lon, dlat, dlon, step
 
 
+def canonical_order(
+    lat_a: np.ndarray, lon_a: np.ndarray, lat_b: np.ndarray, lon_b: np.ndarray
+) -> np.ndarray:
+    """True where a path is sampled from b to a: the end of smaller (lat, lon) comes first.
+
+    Every sampling step runs from this canonical first end, so a path and its
+    reverse get exactly the same points (reciprocity; common practice).
+    """
+    return (lat_a > lat_b) | ((lat_a == lat_b) & (lon_a > lon_b))
+
+
+def _canonical(lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg):
+    lat_a, lon_a, lat_b, lon_b = (np.atleast_1d(np.asarray(x, dtype=float)) for x in
+                                  (lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg))
+    flip = canonical_order(lat_a, lon_a, lat_b, lon_b)
+    c_lat_a, c_lat_b = np.where(flip, lat_b, lat_a), np.where(flip, lat_a, lat_b)
+    c_lon_a, c_lon_b = np.where(flip, lon_b, lon_a), np.where(flip, lon_a, lon_b)
+    return flip, c_lat_a, c_lon_a, c_lat_b, c_lon_b
+
+
+def path_nodes(
+    lat_a_deg: ArrayLike, lon_a_deg: ArrayLike, lat_b_deg: ArrayLike, lon_b_deg: ArrayLike
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Exact points along each geodesic, both ends included, at most NODE_SPACING_M apart.
+
+    Returns ``(offsets, lat_deg, lon_deg)``; the points of path i are at flat
+    indices ``offsets[i]:offsets[i + 1]``.  Computed from the canonical end
+    (:func:`canonical_order`), so a path and its reverse give the same set.
+    """
+    flip, la, lo, lb, lob = _canonical(lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg)
+    az, _, dist = WGS84.inv(lo, la, lob, lb)
+    offsets, lat, lon, _, _, _ = _geodesic_nodes(la, lo, np.mod(np.asarray(az, dtype=float), 360.0),
+                                                 np.asarray(dist, dtype=float))
+    lon = np.where((lon < -180.0) | (lon > 180.0), np.mod(lon + 180.0, 360.0) - 180.0, lon)
+    return offsets, lat, lon
+
+
 def sample_paths(
     lat_a_deg: ArrayLike,
     lon_a_deg: ArrayLike,
@@ -111,8 +149,14 @@ def sample_paths(
     """Evenly spaced points along many geodesics, both end points included.
 
     Returns ``(lat_deg, lon_deg, distance_m, n_samples, lines)``; the first
-    three have shape (paths, samples).  Rows of shorter paths are padded by
-    repeating their last point, so padded columns sit exactly on site b.
+    three have shape (paths, samples), ordered from site a.  Rows of shorter
+    paths are padded by repeating their last point, so padded columns sit
+    exactly on site b.
+
+    Reciprocal: each path is sampled from its canonical end
+    (:func:`canonical_order`) and the row reversed when that end is site b, so
+    swapping a and b gives exactly the reversed points, the same length and
+    the same count (distances from a then agree to rounding).
 
     Exact points every ``NODE_SPACING_M`` come from one vectorised forward
     geodesic call (pyproj.Geod.fwd, Karney's algorithm); samples between them
@@ -120,11 +164,13 @@ def sample_paths(
     (within about a millimetre of the exact geodesic).  Paths reaching beyond
     ``INTERPOLATION_MAX_LAT_DEG`` are computed exactly at every sample.
     """
-    lines = path_lines(lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg)
-    lat_a = np.atleast_1d(np.asarray(lat_a_deg, dtype=float))
-    lon_a = np.atleast_1d(np.asarray(lon_a_deg, dtype=float))
-    lat_b = np.atleast_1d(np.asarray(lat_b_deg, dtype=float))
-    lon_b = np.atleast_1d(np.asarray(lon_b_deg, dtype=float))
+    flip, lat_a, lon_a, lat_b, lon_b = _canonical(lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg)
+    canon = path_lines(lat_a, lon_a, lat_b, lon_b)
+    lines = PathLines(
+        length_m=canon.length_m,
+        azimuth_a_to_b_deg=np.where(flip, canon.azimuth_b_to_a_deg, canon.azimuth_a_to_b_deg),
+        azimuth_b_to_a_deg=np.where(flip, canon.azimuth_a_to_b_deg, canon.azimuth_b_to_a_deg),
+    )
     n = np.broadcast_to(sample_counts(lines.length_m, spacing_m), lines.length_m.shape)
     width = int(n.max())
     col = np.arange(width)[None, :]
@@ -132,7 +178,7 @@ def sample_paths(
     frac = np.minimum(col, last) / last
     distance = frac * lines.length_m[:, None]
     offsets, nlat, nlon, dlat, dlon, step = _geodesic_nodes(
-        lat_a, lon_a, lines.azimuth_a_to_b_deg, lines.length_m
+        lat_a, lon_a, canon.azimuth_a_to_b_deg, lines.length_m
     )
     from .kernels import hermite_paths
 
@@ -147,7 +193,7 @@ def sample_paths(
         plon, plat, _ = WGS84.fwd(
             np.broadcast_to(lon_a[polar, None], shape).ravel(),
             np.broadcast_to(lat_a[polar, None], shape).ravel(),
-            np.broadcast_to(lines.azimuth_a_to_b_deg[polar, None], shape).ravel(),
+            np.broadcast_to(canon.azimuth_a_to_b_deg[polar, None], shape).ravel(),
             distance[polar].ravel(),
         )
         lat[polar] = np.asarray(plat, dtype=float).reshape(shape)
@@ -158,4 +204,11 @@ def sample_paths(
     at_end = col >= last
     np.copyto(lat, lat_b[:, None], where=at_end)  # in place: no new (paths, samples) arrays
     np.copyto(lon, lon_b[:, None], where=at_end)
+    rows = np.flatnonzero(flip)
+    if rows.size:
+        # Reverse the real samples of b-first rows; padding (column >= n-1) maps to column 0, site b.
+        idx = last[rows] - np.minimum(col, last[rows])
+        lat[rows] = np.take_along_axis(lat[rows], idx, axis=1)
+        lon[rows] = np.take_along_axis(lon[rows], idx, axis=1)
+        distance[rows] = lines.length_m[rows, None] - np.take_along_axis(distance[rows], idx, axis=1)
     return lat, lon, distance, n, lines

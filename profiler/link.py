@@ -159,8 +159,12 @@ class Settings:
             value = getattr(self, name)
             if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
                 raise InputError(f"{name} (effective earth radius factor) must be greater than 0, got {value!r}")
-        if self.spacing_m is not None and not (math.isfinite(self.spacing_m) and self.spacing_m > 0):
-            raise InputError(f"sample spacing must be greater than 0 m, got {self.spacing_m!r}")
+        if self.spacing_m is not None:
+            from .profile import check_spacing_m
+
+            if isinstance(self.spacing_m, bool):
+                raise InputError(f"sample spacing must be a number of metres, got {self.spacing_m!r}")
+            check_spacing_m(self.spacing_m)
         for name in ("min_f1_fraction", "min_f1_fraction_worst"):
             value = getattr(self.criterion, name)
             if not math.isfinite(value):
@@ -370,6 +374,7 @@ class LinkBatch:
                 "k_worst": self.settings.k_worst,
                 "sample_spacing_m": float(self.profiles.spacing_m[i]),
                 "samples": int(self.profiles.n_samples[i]),
+                **self._sampling_inputs(i),
                 "min_f1_fraction": self.settings.criterion.min_f1_fraction,
                 "min_f1_fraction_worst": self.settings.criterion.min_f1_fraction_worst,
                 "diffraction_method": resolve_method(self.settings.diffraction_method),
@@ -386,6 +391,20 @@ class LinkBatch:
         }
         self._add_surroundings(record, i)
         return record
+
+    def _sampling_inputs(self, i: int) -> dict:
+        """Where the spacing came from, the finest raster cell on the path and the spacing advised."""
+        from .profile import FALLBACK_SPACING_M
+
+        p = self.profiles
+        cell = float(p.finest_cell_m[i]) if p.finest_cell_m is not None else float("nan")
+        advised = cell / 2.0 if math.isfinite(cell) else FALLBACK_SPACING_M
+        return {
+            "sample_spacing_source": "given" if self.settings.spacing_m is not None else "default",
+            "finest_cell_m": cell if math.isfinite(cell) else None,
+            "recommended_spacing_m": advised,
+            "spacing_coarser_than_raster": bool(p.sampling_warnings and p.sampling_warnings[i]),
+        }
 
     def _add_surroundings(self, record: dict, i: int) -> None:
         """Site mounts, clutter and warnings of link i (rooftop and urban links)."""
@@ -420,6 +439,9 @@ class LinkBatch:
     def warnings(self, i: int) -> list[str]:
         """Validity warnings of link i: design k first, then any new at the worst-case k."""
         out = list(self.design.warnings[i]) if self.design.warnings else []
+        note = self.profiles.sampling_warnings[i] if self.profiles.sampling_warnings else None
+        if note:
+            out.insert(0, note)
         for w in self.worst.warnings[i] if self.worst.warnings else ():
             if w not in out:
                 out.append(f"worst case (k={self.worst.k:.4g}): {w}")
@@ -526,7 +548,7 @@ def analyse_links(
     lat_b, lon_b, agl_b = _site_arrays(sites_b)
     spacing = settings.spacing_m
     if surroundings is not None and spacing is None:
-        spacing = surroundings.default_spacing_m(model, lon_a, lat_a)
+        spacing = surroundings.default_spacing_m(model, lon_a, lat_a, lat_b, lon_b)
     profiles = build_profiles(model, lat_a, lon_a, lat_b, lon_b, spacing_m=spacing, labels=names)
     crossings, clutter_warnings = None, ()
     if surroundings is not None:

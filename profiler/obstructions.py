@@ -489,11 +489,12 @@ class Surroundings:
                 f"{', '.join(sorted(ground))}; bring both to one vertical datum before subtracting them"
             )
 
-    def default_spacing_m(self, model: ElevationModel, lon_deg: np.ndarray, lat_deg: np.ndarray) -> np.ndarray:
-        """Half the finest cell of the terrain at site a, or of the surface model if finer, metres."""
-        from .profile import default_spacing_m
+    def default_spacing_m(self, model: ElevationModel, lon_deg: np.ndarray, lat_deg: np.ndarray,
+                          lat_b_deg: np.ndarray, lon_b_deg: np.ndarray) -> np.ndarray:
+        """Half the finest terrain cell on each path a-b, or of the surface model if finer, metres."""
+        from .profile import path_spacings_m
 
-        terrain = np.array([default_spacing_m(model, lo, la) for lo, la in zip(lon_deg, lat_deg)])
+        terrain = path_spacings_m(model, lat_deg, lon_deg, lat_b_deg, lon_b_deg)
         if self.surface is None:
             return terrain
         return np.minimum(terrain, _finest_cell_m(self.surface) / 2.0)

@@ -9,10 +9,23 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .errors import InputError
-from .geodesy import PathLines, sample_paths
+from .geodesy import PathLines, path_nodes, sample_paths
 from .terrain import ElevationModel
 
-__all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "CLUTTER_KINDS"]
+__all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "finest_cells_m",
+           "path_spacings_m", "check_spacing_m", "sample_limit_problem", "spacing_warning",
+           "CLUTTER_KINDS", "MIN_SPACING_M", "MAX_SAMPLES_PER_PATH", "MAX_SAMPLES_PER_BATCH",
+           "FALLBACK_SPACING_M"]
+
+#: Finest sample spacing accepted, m: below it the raster, not the sampling, limits
+#: what a profile can show, and the sample count grows without bound (common practice).
+MIN_SPACING_M = 0.01
+#: Most samples one path may have (a 100 km path at 10 cm; bounds memory, common practice).
+MAX_SAMPLES_PER_PATH = 1_000_000
+#: Most samples one engine call may hold, paths x samples of the widest (about 1 GB of arrays).
+MAX_SAMPLES_PER_BATCH = 5_000_000
+#: Spacing used where no raster cell size is known along a path, m.
+FALLBACK_SPACING_M = 15.0
 
 #: Codes of ``Profiles.clutter_kind``.
 CLUTTER_KINDS = {0: "none", 1: "building", 2: "trees", 3: "surface model"}
@@ -41,6 +54,10 @@ class Profiles:
     spacing_m: np.ndarray
     problems: tuple[str | None, ...] = field(default=())
     clutter_kind: np.ndarray | None = None
+    #: Finest raster cell on each path, m (NaN where unknown); see :func:`finest_cells_m`.
+    finest_cell_m: np.ndarray | None = None
+    #: Per path, None or a sentence saying the given spacing is coarser than the raster.
+    sampling_warnings: tuple[str | None, ...] = field(default=())
 
     @property
     def length_m(self) -> np.ndarray:
@@ -67,14 +84,89 @@ def default_spacing_m(model: ElevationModel, lon_deg: float, lat_deg: float) -> 
     """Half the ground size of the finest raster cell at a point, metres."""
     cell = model.cell_size_m(lon_deg, lat_deg)
     if not np.isfinite(cell) or cell <= 0:
-        return 15.0
+        return FALLBACK_SPACING_M
     return cell / 2.0
 
 
 def default_spacings_m(model: ElevationModel, lon_deg: ArrayLike, lat_deg: ArrayLike) -> np.ndarray:
     """Half the ground size of the finest raster cell at many points, metres (15 m where unknown)."""
     cell = model.cell_sizes_m(lon_deg, lat_deg)
-    return np.where(np.isfinite(cell) & (cell > 0), cell / 2.0, 15.0)
+    return np.where(np.isfinite(cell) & (cell > 0), cell / 2.0, FALLBACK_SPACING_M)
+
+
+def finest_cells_m(model: ElevationModel, lat_a_deg: ArrayLike, lon_a_deg: ArrayLike,
+                   lat_b_deg: ArrayLike, lon_b_deg: ArrayLike) -> np.ndarray:
+    """Ground size of the finest raster cell along each path, m, shape (paths,); NaN where unknown.
+
+    Measured at both ends and at exact geodesic points no more than
+    ``geodesy.NODE_SPACING_M`` (10 km) apart, all taken from the path's
+    canonical end, so the value does not depend on which site is called a.
+    """
+    offsets, lat, lon = path_nodes(lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg)
+    cell = model.cell_sizes_m(lon, lat)
+    cell = np.where(np.isfinite(cell) & (cell > 0), cell, np.inf)
+    best = np.minimum.reduceat(cell, offsets[:-1]) if cell.size else np.zeros(0)
+    return np.where(np.isfinite(best), best, np.nan)
+
+
+def path_spacings_m(model: ElevationModel, lat_a_deg: ArrayLike, lon_a_deg: ArrayLike,
+                    lat_b_deg: ArrayLike, lon_b_deg: ArrayLike) -> np.ndarray:
+    """Default spacing of each path: half its finest raster cell (:func:`finest_cells_m`), m.
+
+    Half a cell so every cell crossed gets at least one sample (common
+    practice); 15 m where no cell size is known.
+    """
+    cell = finest_cells_m(model, lat_a_deg, lon_a_deg, lat_b_deg, lon_b_deg)
+    return np.where(np.isfinite(cell), cell / 2.0, FALLBACK_SPACING_M)
+
+
+def check_spacing_m(spacing_m: ArrayLike) -> np.ndarray:
+    """The given spacing as an array, or InputError if not finite or finer than 1 cm."""
+    spacing = np.asarray(spacing_m, dtype=float)
+    bad = ~np.isfinite(spacing) | ~(spacing >= MIN_SPACING_M)
+    if np.any(bad):
+        value = spacing.reshape(-1)[int(np.argmax(bad.reshape(-1)))]
+        raise InputError(
+            f"sample spacing must be a number of metres from {MIN_SPACING_M:g} m (1 cm) up, got {value!r}; "
+            "leave it out to use half the finest raster cell"
+        )
+    return spacing
+
+
+def sample_limit_problem(label: str, length_m: float, n_samples: int, spacing_m: float) -> str | None:
+    """None, or the sentence refusing a path of more than MAX_SAMPLES_PER_PATH samples."""
+    if n_samples <= MAX_SAMPLES_PER_PATH:
+        return None
+    coarsest = length_m / (MAX_SAMPLES_PER_PATH - 1)
+    return (
+        f"{label}: {length_m / 1000:.3f} km at {spacing_m:g} m spacing needs {n_samples:,} samples, "
+        f"more than the limit of {MAX_SAMPLES_PER_PATH:,} per path; use a spacing of at least "
+        f"{_round_up(coarsest):g} m"
+    )
+
+
+def _round_up(value: float) -> float:
+    """A short number not below ``value`` (3 significant figures)."""
+    if not np.isfinite(value) or value <= 0:
+        return value
+    scale = 10.0 ** (np.floor(np.log10(value)) - 2)
+    return float(np.ceil(value / scale) * scale)
+
+
+def spacing_warning(label: str, spacing_m: float, finest_cell_m: float) -> str | None:
+    """None, or a warning when a given spacing is coarser than the finest raster cell on the path.
+
+    Samples further apart than one cell can step over a ridge or a building
+    the raster holds, and the clearance then reads better than the terrain
+    allows (common practice: sample at least once per cell).
+    """
+    if not np.isfinite(finest_cell_m) or not spacing_m > finest_cell_m:
+        return None
+    return (
+        f"{label}: sample spacing {spacing_m:g} m is coarser than the finest raster cell on the path "
+        f"({finest_cell_m:.3g} m); terrain between samples is not seen, so clearance and diffraction "
+        f"may read too good; recommended spacing {finest_cell_m / 2.0:.3g} m (half a cell, the default)"
+    )
 
 
 def build_profiles(
@@ -89,9 +181,15 @@ def build_profiles(
 ) -> Profiles:
     """Sample the geodesic of each path and the terrain beneath it.
 
-    ``spacing_m`` None uses half the finest raster cell at site a of each path.
+    ``spacing_m`` None uses half the finest raster cell on each path
+    (:func:`path_spacings_m`); a given spacing must be at least 1 cm, and a
+    spacing coarser than the finest cell on a path gives that path a sentence
+    in ``sampling_warnings``.  A path needing more than MAX_SAMPLES_PER_PATH
+    samples, or a batch of more than MAX_SAMPLES_PER_BATCH (paths x widest),
+    raises InputError before anything is allocated.
     Paths whose sites lie outside the rasters, or which cross nodata, are
     kept with NaN heights and a sentence in ``problems`` naming the place.
+    Sampling is reciprocal: swapping a and b reverses every row exactly.
     """
     lat_a = np.atleast_1d(np.asarray(lat_a_deg, dtype=float))
     lon_a = np.atleast_1d(np.asarray(lon_a_deg, dtype=float))
@@ -99,12 +197,14 @@ def build_profiles(
     lon_b = np.atleast_1d(np.asarray(lon_b_deg, dtype=float))
     n_paths = lat_a.shape[0]
     labels = labels or [f"path {i + 1}" for i in range(n_paths)]
+    finest = finest_cells_m(model, lat_a, lon_a, lat_b, lon_b)
     if spacing_m is None:
-        spacing = default_spacings_m(model, lon_a, lat_a)
+        spacing = np.where(np.isfinite(finest), finest / 2.0, FALLBACK_SPACING_M)
+        notes: list[str | None] = [None] * n_paths
     else:
-        spacing = np.broadcast_to(np.asarray(spacing_m, dtype=float), (n_paths,)).copy()
-        if np.any(~np.isfinite(spacing)) or np.any(spacing <= 0):
-            raise InputError(f"sample spacing must be a positive number of metres, got {spacing_m!r}")
+        spacing = np.broadcast_to(check_spacing_m(spacing_m), (n_paths,)).copy()
+        notes = [spacing_warning(labels[i], spacing[i], finest[i]) for i in range(n_paths)]
+    _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing)
     lat, lon, dist, n, lines = sample_paths(lat_a, lon_a, lat_b, lon_b, spacing)
     ground, covered = model.sample(lon, lat)
     # Padded columns repeat site b, so whole-row checks equal checks of the real samples.
@@ -123,7 +223,28 @@ def build_profiles(
         spacing_m=spacing,
         problems=tuple(problems),
         clutter_kind=np.zeros(ground.shape, dtype=np.int8),
+        finest_cell_m=finest,
+        sampling_warnings=tuple(notes),
     )
+
+
+def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
+    """InputError if a path or the whole batch would hold more samples than allowed."""
+    from .geodesy import path_lines
+
+    length = path_lines(lat_a, lon_a, lat_b, lon_b).length_m
+    with np.errstate(over="ignore", invalid="ignore"):
+        counts = np.ceil(length / spacing) + 1  # float: no overflow before the check
+    for i in np.flatnonzero(~(counts <= MAX_SAMPLES_PER_PATH)):
+        raise InputError(sample_limit_problem(labels[i], float(length[i]), int(min(counts[i], 2**62)),
+                                              float(spacing[i])))
+    total = counts.size * (counts.max() if counts.size else 0)
+    if total > MAX_SAMPLES_PER_BATCH:
+        raise InputError(
+            f"{counts.size} paths of up to {int(counts.max()):,} samples need {int(total):,} samples at once, "
+            f"more than the limit of {MAX_SAMPLES_PER_BATCH:,}; analyse fewer links at a time or use a "
+            "coarser spacing"
+        )
 
 
 def _problem(label, lat, lon, dist, ground, covered, n) -> str | None:

@@ -328,12 +328,21 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     length_m = np.full(n, np.nan)
     if todo.size:
         _, _, length = WGS84.inv(task.lon_a[todo], task.lat_a[todo], task.lon_b[todo], task.lat_b[todo])
-        spacing = task.settings.spacing_m
-        if spacing is None:
-            from .profile import default_spacings_m
+        from .profile import MAX_SAMPLES_PER_PATH, path_spacings_m, sample_limit_problem
 
-            spacing = default_spacings_m(model, task.lon_a[todo], task.lat_a[todo])
+        spacing = task.settings.spacing_m
+        if spacing is None:  # the spacing build_profiles will use: symmetric, from the whole path
+            spacing = path_spacings_m(model, task.lat_a[todo], task.lon_a[todo], task.lat_b[todo], task.lon_b[todo])
+        spacing = np.broadcast_to(np.asarray(spacing, dtype=float), todo.shape)
         n_samples = np.ceil(np.asarray(length) / spacing) + 1
+        # A pair needing more samples than a path may hold is reported and skipped, not fatal.
+        over = ~(n_samples <= MAX_SAMPLES_PER_PATH)
+        for k in np.flatnonzero(over):
+            i = int(todo[k])
+            problems.append((task.first_pair + i, sample_limit_problem(
+                f"{task.names_a[i]} - {task.names_b[i]}", float(length[k]), int(min(n_samples[k], 2**62)),
+                float(spacing[k]))))
+        todo, n_samples = todo[~over], n_samples[~over]
         todo = todo[np.argsort(n_samples, kind="stable")]
         n_sorted = np.sort(n_samples, kind="stable")
         start = 0

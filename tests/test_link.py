@@ -113,9 +113,11 @@ def test_bad_settings(ridge, settings):
         analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.02, 10.02, 10), RADIO, settings)
 
 
-def test_default_spacing_is_half_a_cell(ridge):
+def test_default_spacing_is_half_the_finest_cell_on_the_path(ridge):
     batch = analyse_link(ridge, Site("a", 46.0, 10.01, 10), Site("b", 46.02, 10.02, 10), RADIO)
-    cell = ridge.cell_size_m(10.01, 46.0)
+    # Geographic cells shrink northwards: the finest cell on this path is at site b, not a.
+    cell = min(ridge.cell_size_m(10.01, 46.0), ridge.cell_size_m(10.02, 46.02))
+    assert cell < ridge.cell_size_m(10.01, 46.0)
     assert batch.profiles.spacing_m[0] == pytest.approx(cell / 2)
     steps = np.diff(batch.profiles.distance_m[0, : batch.profiles.n_samples[0]])
     assert steps.max() <= cell / 2 + 1e-9
