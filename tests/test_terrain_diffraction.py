@@ -232,6 +232,57 @@ def test_deygout_line_of_sight_equals_knife_edge():
     assert out["epstein-peterson"][0] == pytest.approx(out["knife-edge"][0], abs=1e-12)
 
 
+def _hills(dip_m, freq_ghz=5.8):
+    """Flat earth, 10 km, antennas 10 m, 1 m samples: a rounded summit 40 m high at 5 km
+    (a parabola 1.2 km wide) and a second summit 30 m high at 7.5 km, the ground between them
+    falling to ``dip_m`` below the second summit's top."""
+    d = np.arange(0.0, 10_001.0, 1.0)
+    main = 40.0 - 40.0 * ((d - 5000.0) / 600.0) ** 2
+    second = 30.0 - 30.0 * ((d - 7500.0) / 600.0) ** 2
+    saddle = np.where((d > 5000.0) & (d < 7500.0), 30.0 - dip_m, 0.0)
+    s = np.maximum.reduce([main, second, saddle])
+    return args_for([(d, s)], 10.0, 10.0), freq_ghz
+
+
+def test_a_densely_sampled_rounded_summit_is_one_edge():
+    # One rounded summit at 1 m spacing: its flanks are not further edges (issue 10 item 7).
+    d = np.arange(0.0, 10_001.0, 1.0)
+    s = np.maximum(40.0 - 40.0 * ((d - 4000.0) / 800.0) ** 2, 0.0)
+    args = args_for([(d, s)], 10.0, 10.0)
+    out = td.diffraction_by_method(*args, 5.8, np.inf)
+    assert out["knife-edge"][0] > 20.0
+    assert out["deygout"][0] == pytest.approx(out["knife-edge"][0], abs=1e-12)
+    assert out["epstein-peterson"][0] == pytest.approx(out["knife-edge"][0], abs=1e-12)
+    assert out["deygout"][0] <= out["bullington"][0]
+
+
+def test_an_isolated_thin_edge_on_a_dense_profile_is_j_of_v():
+    # ITU-R P.526-15 section 4.1: a single thin edge costs J(v), whatever method builds on it.
+    d = np.arange(0.0, 8_001.0, 1.0)
+    s = np.zeros_like(d)
+    s[3000] = 30.0
+    args = args_for([(d, s)], 10.0, 10.0)
+    out = td.diffraction_by_method(*args, 2.0, np.inf)
+    expect = float(knife_edge_loss_db(fresnel_kirchhoff_v(20.0, 3000.0, 5000.0, 2.0)))
+    for m in ("knife-edge", "deygout", "epstein-peterson"):
+        assert out[m][0] == pytest.approx(expect, abs=1e-9), m
+
+
+@pytest.mark.parametrize("dip_m, distinct", [(0.5, False), (25.0, True)])
+def test_a_second_summit_counts_only_beyond_a_dip(dip_m, distinct):
+    (dist, surf, inner, ha, hb, length), f = _hills(dip_m)
+    out = td.diffraction_by_method(dist, surf, inner, ha, hb, length, f, np.inf)
+    b = td._prepare(dist, surf, inner, ha, hb, length, f, np.inf)
+    parts = td._deygout_parts(b)
+    assert int(parts["ip"][0]) == 5000
+    if distinct:  # a valley 25 m deep between the summits: the second one is an edge of its own
+        assert 7300 < int(parts["ir"][0]) < 7700
+        assert out["deygout"][0] > out["knife-edge"][0] + 1.0
+    else:  # a 0.5 m dip (0.6 F1 is about 5 m here): one summit, its flanks are not edges
+        assert not np.isfinite(parts["vr"][0])
+        assert out["deygout"][0] == pytest.approx(out["knife-edge"][0], abs=1e-12)
+
+
 # --- Bullington and delta-Bullington --------------------------------------
 
 
