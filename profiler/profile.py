@@ -22,8 +22,9 @@ __all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_
 MIN_SPACING_M = 0.01
 #: Most samples one path may have (a 100 km path at 10 cm; bounds memory, common practice).
 MAX_SAMPLES_PER_PATH = 1_000_000
-#: Most samples one engine call may hold, paths x samples of the widest (about 1 GB of arrays).
-MAX_SAMPLES_PER_BATCH = 5_000_000
+#: Most samples one engine call may hold, paths x samples of the widest (about 1 GB of arrays
+#: at the 400-500 bytes a sample costs through the whole analysis, measured).
+MAX_SAMPLES_PER_BATCH = 2_000_000
 #: Spacing used where no raster cell size is known along a path, m.
 FALLBACK_SPACING_M = 15.0
 
@@ -127,7 +128,7 @@ def check_spacing_m(spacing_m: ArrayLike) -> np.ndarray:
     if np.any(bad):
         value = spacing.reshape(-1)[int(np.argmax(bad.reshape(-1)))]
         raise InputError(
-            f"sample spacing must be a number of metres from {MIN_SPACING_M:g} m (1 cm) up, got {value!r}; "
+            f"sample spacing must be a number of metres from {MIN_SPACING_M:g} m (1 cm) up, got {float(value):g}; "
             "leave it out to use half the finest raster cell"
         )
     return spacing
