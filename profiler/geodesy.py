@@ -89,6 +89,7 @@ def _geodesic_nodes(
     path = np.repeat(np.arange(counts.size), counts)
     j = np.arange(offsets[-1]) - offsets[path]
     step = length_m / segments
+    step = np.where(step > 0.0, step, 1.0)  # a zero-length path: every sample at node 0, no 0/0
     lon, lat, back = WGS84.fwd(lon_a[path], lat_a[path], az_deg[path], j * step[path])
     lon = np.asarray(lon, dtype=float)
     lat = np.asarray(lat, dtype=float)
