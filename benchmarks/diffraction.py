@@ -57,7 +57,7 @@ def _j(v: float) -> float:
     return 6.9 + 20.0 * math.log10(math.sqrt((v - 0.1) ** 2 + 1.0) + v - 0.1) if v > -0.78 else 0.0
 
 
-def _loop_knife(d, s, ha, hb, length, lam, ae, lo=0, hi=None, ya=None, yb=None, da=None, db=None):
+def _loop_knife(d, s, ha, hb, length, lam, ae, lo=0, hi=None, ya=None, yb=None, da=None, db=None, allowed=None):
     """Largest v between columns lo..hi (exclusive) against the line (da, ya) -> (db, yb)."""
     hi = len(d) - 1 if hi is None else hi
     da = 0.0 if da is None else da
@@ -67,7 +67,7 @@ def _loop_knife(d, s, ha, hb, length, lam, ae, lo=0, hi=None, ya=None, yb=None, 
     best, where = -math.inf, -1
     for i in range(lo + 1, hi):
         d1, d2 = d[i] - da, db - d[i]
-        if d1 <= 0 or d2 <= 0:
+        if d1 <= 0 or d2 <= 0 or (allowed is not None and i not in allowed):
             continue
         elev = s[i] + d[i] * (length - d[i]) / (2 * ae)
         h = elev - (ya + (yb - ya) * d1 / (db - da))
@@ -110,8 +110,21 @@ def loop_method(name: str, d, s, ha, hb, length, freq_ghz, k) -> float:
         if vp <= 0:
             return _j(vp)
         ep = s[ip] + d[ip] * (length - d[ip]) / (2 * ae)
-        vt, it = _loop_knife(d, s, ha, ep, length, lam, ae, lo=0, hi=ip, db=d[ip])
-        vr, ir = _loop_knife(d, s, ep, hb, length, lam, ae, lo=ip, hi=n - 1, da=d[ip])
+        # Distinct summits only: the ground between a side edge and the main edge dips
+        # below the lower of the two by 0.6 F1 (profiler.losses.terrain_diffraction).
+        elev = [s[i] + d[i] * (length - d[i]) / (2 * ae) for i in range(n)]
+        left, right, low = set(), set(), math.inf
+        for i in range(ip - 1, 0, -1):
+            if min(elev[i], ep) - low >= 0.6 * math.sqrt(lam * d[i] * (d[ip] - d[i]) / d[ip]):
+                left.add(i)
+            low = min(low, elev[i])
+        low = math.inf
+        for i in range(ip + 1, n - 1):
+            if min(elev[i], ep) - low >= 0.6 * math.sqrt(lam * (d[i] - d[ip]) * (length - d[i]) / (length - d[ip])):
+                right.add(i)
+            low = min(low, elev[i])
+        vt, it = _loop_knife(d, s, ha, ep, length, lam, ae, lo=0, hi=ip, db=d[ip], allowed=left)
+        vr, ir = _loop_knife(d, s, ep, hb, length, lam, ae, lo=ip, hi=n - 1, da=d[ip], allowed=right)
         if name == "deygout":
             return _j(vp) + _j(vt) + _j(vr)
         loss = 0.0

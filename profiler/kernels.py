@@ -20,6 +20,7 @@ from .units import EARTH_RADIUS_M
 __all__ = [
     "hermite_paths", "gather_bilinear", "affine_gather", "use_numba", "warm_up", "NUMBA_MIN_SAMPLES",
     "StoredCells", "TILE", "diffraction_reductions", "bullington_reductions", "clearance_reductions",
+    "summit_dips",
 ]
 
 #: Batches with at least this many samples use the compiled kernels.
@@ -334,6 +335,31 @@ def diffraction_reductions_numpy(
 
 # ---------------------------------------------------------------- numba versions
 
+def summit_dips_numpy(elev: np.ndarray, ip: np.ndarray, ep: np.ndarray) -> np.ndarray:
+    """How far the profile dips between each sample and the main edge, m, shape (P, N).
+
+    For column j of row p on either side of the main edge column ``ip[p]``
+    (top ``ep[p]``): min(elev_j, ep) minus the lowest ``elev`` strictly
+    between j and ``ip``; -inf at ``ip`` itself and where nothing lies between.
+    Used by Deygout's distinct-summit rule (profiler.losses.terrain_diffraction).
+    """
+    n_cols = elev.shape[1]
+    cols = np.arange(n_cols)[None, :]
+    ipc = ip[:, None]
+    epc = ep[:, None]
+    dip = np.full(elev.shape, -np.inf)
+    with np.errstate(invalid="ignore"):
+        before = cols < ipc
+        z = np.where(before, elev, np.inf)
+        run = np.minimum.accumulate(z[:, ::-1], axis=1)[:, ::-1]  # lowest from j to the edge
+        dip[:, :-1] = np.where(before[:, :-1], np.minimum(z[:, :-1], epc) - run[:, 1:], -np.inf)
+        after = cols > ipc
+        z = np.where(after, elev, np.inf)
+        run = np.minimum.accumulate(z, axis=1)
+        dip[:, 1:] = np.where(after[:, 1:], np.minimum(z[:, 1:], epc) - run[:, :-1], dip[:, 1:])
+    return dip
+
+
 def _build() -> dict:
     import numba
 
@@ -631,9 +657,32 @@ def _build() -> dict:
             shortfall[i] = short
         return worst, worst_frac, worst_gap, los, shortfall
 
+    @numba.njit(cache=True, nogil=True, error_model="numpy")
+    def summit_dips_nb(elev, ip, ep):  # pragma: no cover - compiled
+        n_paths, n_cols = elev.shape
+        dip = np.empty((n_paths, n_cols))
+        for p in range(n_paths):
+            i = ip[p]
+            e = ep[p]
+            for j in range(n_cols):
+                dip[p, j] = -np.inf
+            low = np.inf
+            for j in range(i - 1, -1, -1):
+                z = elev[p, j]
+                dip[p, j] = (z if z < e else e) - low
+                if z < low:
+                    low = z
+            low = np.inf
+            for j in range(i + 1, n_cols):
+                z = elev[p, j]
+                dip[p, j] = (z if z < e else e) - low
+                if z < low:
+                    low = z
+        return dip
+
     return {"hermite": hermite_nb, "affine_gather": affine_gather_nb,
             "diffraction_reductions": diffraction_reductions_nb, "bullington_reductions": bullington_reductions_nb,
-            "clearance_reductions": clearance_reductions_nb}
+            "clearance_reductions": clearance_reductions_nb, "summit_dips": summit_dips_nb}
 
 
 # ---------------------------------------------------------------- dispatch
@@ -721,6 +770,15 @@ def clearance_reductions(
     )
 
 
+def summit_dips(elev: np.ndarray, ip: np.ndarray, ep: np.ndarray) -> np.ndarray:
+    """Dip between each sample and the main edge (see :func:`summit_dips_numpy`), m, (P, N)."""
+    if use_numba(elev.size):
+        return _numba_kernels()["summit_dips"](
+            np.ascontiguousarray(elev, dtype=float), np.ascontiguousarray(ip, dtype=np.int64),
+            np.ascontiguousarray(ep, dtype=float))
+    return summit_dips_numpy(elev, ip, ep)
+
+
 def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
     """Load (or compile) the numba kernels for these cell types now, not on the first big batch."""
     if os.environ.get("TERRAHOP_NO_NUMBA"):
@@ -742,3 +800,4 @@ def warm_up(block_dtypes: tuple = (np.float64,)) -> None:
                                col, col, 2.0 * col, col, col, EARTH_RADIUS_M)
     k["clearance_reductions"](np.array([[0.0, 1.0, 2.0]]), np.zeros((1, 3)), np.ones((1, 3), dtype=np.bool_),
                               2.0 * col, col, col, col, 1.0, 0.0)
+    k["summit_dips"](np.zeros((1, 3)), np.ones(1, dtype=np.int64), np.zeros(1))

@@ -84,3 +84,24 @@ def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(compiled):
         got, _ = kernels.affine_gather_numpy(stored, x, y, transform, 250, 200)
     assert np.isnan(ref).any()
     assert np.array_equal(ref, got, equal_nan=True)
+
+
+def test_summit_dips_numba_equals_numpy_bitwise():
+    # Deygout's distinct-summit rule: random rough profiles, main edges anywhere (ends included),
+    # plateaus of equal heights (ties) and padding that repeats the last sample.
+    rng = np.random.default_rng(7)
+    elev = np.round(np.cumsum(rng.normal(0.0, 3.0, (60, 97)), axis=1), 1)
+    elev[5, 20:40] = 50.0
+    elev[6, 80:] = elev[6, 79]
+    ip = rng.integers(0, 97, 60)
+    ip[:3] = (0, 96, 48)
+    ep = elev[np.arange(60), ip] + rng.normal(0.0, 1.0, 60)
+    ref = kernels.summit_dips_numpy(elev, ip, ep)
+    got = kernels._numba_kernels()["summit_dips"](elev, ip.astype(np.int64), ep)
+    np.testing.assert_array_equal(got, ref)
+    # The meaning, by a plain loop on one row: min(z_j, top) minus the lowest point in between.
+    row, i = 10, int(ip[10])
+    for j in range(97):
+        between = elev[row, min(j, i) + 1: max(j, i)]
+        expect = -np.inf if j == i or between.size == 0 else min(elev[row, j], ep[row]) - between.min()
+        assert ref[row, j] == expect

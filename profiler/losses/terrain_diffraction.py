@@ -254,46 +254,11 @@ def _knife_edge(b: _Batch) -> np.ndarray:
 
 #: Two edges are distinct summits only if the profile between them dips below the
 #: lower of the two by at least this fraction of the first Fresnel radius of the
-#: side sub-path at the side edge (see :func:`_distinct_summits`).
+#: side sub-path at the side edge (see :func:`_deygout_parts`).
 SUMMIT_DIP_F1_FRACTION = 0.6
-
-
-def _distinct_summits(b: _Batch, ip: np.ndarray, ep: np.ndarray, dp: np.ndarray,
-                      side: str) -> np.ndarray:
-    """(P, N) True where a sample is a summit distinct from the main edge, on one side of it.
-
-    Sample j (surface plus earth bulge z_j) is a distinct summit when the
-    lowest point strictly between it and the main edge lies below
-    min(z_j, z_main) by at least SUMMIT_DIP_F1_FRACTION of the first Fresnel
-    radius of j's sub-path (antenna to main edge top) at j.  The flanks of the
-    main edge's own rounded summit, and slopes climbing to it, have no such
-    dip, so one summit is not counted twice; a second ridge beyond a valley
-    is kept.  Our rule (common practice: Deygout's construction assumes
-    separate edges; the 0.6 F1 amount is the usual clear-path criterion,
-    ITU-R P.530-18 section 2.2.2.1, from memory).
-    """
-    n_cols = b.d1.shape[1]
-    cols = np.arange(n_cols)[None, :]
-    ipc = ip[:, None]
-    inf_col = np.full((b.d1.shape[0], 1), np.inf)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if side == "a":
-            gap = dp - b.d1
-            mask = b.interior & (cols < ipc) & (gap > 0.0)
-            z = np.where(mask, b.elev, np.inf)
-            # Lowest surface strictly between j and the main edge.
-            run = np.minimum.accumulate(z[:, ::-1], axis=1)[:, ::-1]
-            between = np.concatenate([run[:, 1:], inf_col], axis=1)
-            f1 = np.sqrt(b.lam * b.d1 * gap / dp)
-        else:
-            gap = b.d1 - dp
-            mask = b.interior & (cols > ipc) & (gap > 0.0)
-            z = np.where(mask, b.elev, np.inf)
-            run = np.minimum.accumulate(z, axis=1)
-            between = np.concatenate([inf_col, run[:, :-1]], axis=1)
-            f1 = np.sqrt(b.lam * gap * b.d2 / (b.length - dp))
-        dip = np.minimum(z, ep) - between
-        return mask & (dip >= SUMMIT_DIP_F1_FRACTION * f1)
+#: The same threshold as a Fresnel-Kirchhoff v: h / F1 >= 0.6 is v = sqrt(2) h / F1 >= 0.6 sqrt(2)
+#: (ITU-R P.526-15 eq. 26 with F1 of eq. 2).
+_SUMMIT_DIP_V = SUMMIT_DIP_F1_FRACTION * np.sqrt(2.0)
 
 
 def _deygout_parts(b: _Batch) -> dict[str, np.ndarray]:
@@ -305,19 +270,32 @@ def _deygout_parts(b: _Batch) -> dict[str, np.ndarray]:
     dp = _rows(b.d1, ip)
     ep = _rows(b.elev, ip)
     ipc = ip[:, None]
+    from ..kernels import summit_dips
+
+    # Distinct summits only: the profile between a side edge and the main edge dips below
+    # the lower of the two by 0.6 F1 of the side sub-path at the side edge, i.e. dip * (the
+    # v factor sqrt(2/lambda (1/d1 + 1/d2)) of that sub-path) >= 0.6 sqrt(2).  The flanks of
+    # one rounded summit, and slopes climbing to it, have no such dip.  Our rule (common
+    # practice: Deygout's construction assumes separate edges; 0.6 F1 is the usual
+    # clear-path amount, ITU-R P.530-18 section 2.2.2.1, from memory).
+    dip = summit_dips(b.elev, ip, ep[:, 0])
     with np.errstate(divide="ignore", invalid="ignore"):
         # Side a: line from antenna a (height 0 above the main line) to the main edge top.
         left_d2 = dp - b.d1
         left_h = b.height - hp * b.d1 / dp
-        left_ok = b.interior & (cols < ipc) & (left_d2 > 0.0) & _distinct_summits(b, ip, ep, dp, "a")
-        left_v = left_h * np.sqrt(2.0 / b.lam * (1.0 / b.d1 + 1.0 / left_d2))
-        it, vt = _masked_argmax(left_v, left_ok)
+        before = cols < ipc
+        left_ok = b.interior & before & (left_d2 > 0.0)
+        factor = np.sqrt(2.0 / b.lam * (1.0 / b.d1 + 1.0 / left_d2))
+        left_ok &= dip * factor >= _SUMMIT_DIP_V
+        it, vt = _masked_argmax(left_h * factor, left_ok)
         # Side b: line from the main edge top to antenna b.
         right_d1 = b.d1 - dp
         right_h = b.height - hp * b.d2 / (b.length - dp)
-        right_ok = b.interior & (cols > ipc) & (right_d1 > 0.0) & _distinct_summits(b, ip, ep, dp, "b")
-        right_v = right_h * np.sqrt(2.0 / b.lam * (1.0 / right_d1 + 1.0 / b.d2))
-        ir, vr = _masked_argmax(right_v, right_ok)
+        after = cols > ipc
+        right_ok = b.interior & after & (right_d1 > 0.0)
+        factor = np.sqrt(2.0 / b.lam * (1.0 / right_d1 + 1.0 / b.d2))
+        right_ok &= dip * factor >= _SUMMIT_DIP_V
+        ir, vr = _masked_argmax(right_h * factor, right_ok)
     return {"ip": ip, "vp": vp, "it": it, "vt": vt, "ir": ir, "vr": vr, "hp": hp[:, 0], "dp": dp[:, 0]}
 
 
