@@ -714,6 +714,8 @@ class ScreenSummary:
     resumed_pairs: int
     min_margin_db: float
     problems: tuple[str, ...] = field(default=())
+    #: Run-wide warnings (e.g. a given spacing coarser than the rasters), for stderr.
+    warnings: tuple[str, ...] = field(default=())
 
 
 def verdicts(cols: dict[str, np.ndarray], min_margin_db: float) -> np.ndarray:
@@ -775,10 +777,24 @@ def screen(
     bad.sort(key=lambda r: (r.source != sites.source, r.row))
     executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
     try:
-        return _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max,
-                       resume, restart, chunk_pairs, min_margin_db, progress, t0)
+        summary = _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max,
+                          resume, restart, chunk_pairs, min_margin_db, progress, t0)
+        return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
     finally:
         executor.close(cancel=True)
+
+
+def _spacing_warnings(model: ElevationModel, sites: SiteTable, settings: Settings) -> tuple[str, ...]:
+    """A warning when a given spacing is coarser than the finest raster cell at the sites."""
+    if settings.spacing_m is None or len(sites) == 0:
+        return ()
+    from .profile import spacing_warning
+
+    cells = model.cell_sizes_m(sites.lon_deg, sites.lat_deg)
+    if not np.isfinite(cells).any():
+        return ()
+    note = spacing_warning("screening", float(settings.spacing_m), float(np.nanmin(cells)))
+    return (note.replace("on the path", "at the sites"),) if note else ()
 
 
 def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:

@@ -103,3 +103,18 @@ def test_screening_flags_a_pair_over_the_cap_and_goes_on(ridge, monkeypatch):
     assert "w - e" in problems[0][1] and "limit of 2,000 per path" in problems[0][1]
     assert cols["status"].tolist() == [1, 0]
     assert np.isfinite(cols["fade_margin_db"][1])
+
+
+def test_screening_warns_once_when_the_given_spacing_is_coarser_than_the_raster(tmp_path):
+    from profiler.io.sites import read_sites
+    from tests._screening_data import DEMO_DEM, DEMO_SITES
+
+    sites, _ = read_sites(DEMO_SITES)
+    sites_few = screening._drop_sites(sites, screening.PairPlan(), np.arange(len(sites)) < 3)[0]
+    with ElevationModel([DEMO_DEM]) as model:
+        coarse = screening.screen(sites_few, model, RADIO, Settings(spacing_m=60.0), tmp_path / "c.gpkg", workers=1)
+        fine = screening.screen(sites_few, model, RADIO, Settings(spacing_m=20.0), tmp_path / "f.gpkg", workers=1)
+    assert len(coarse.warnings) == 1
+    assert "60 m is coarser than the finest raster cell at the sites (25 m)" in coarse.warnings[0]
+    assert "recommended spacing 12.5 m" in coarse.warnings[0]
+    assert fine.warnings == ()

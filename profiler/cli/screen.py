@@ -182,5 +182,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
+    for note in summary.warnings:  # shown even with -q
+        click.echo(f"warning: {note}", err=True)
     if not quiet:
         click.echo(format_screen_summary(summary))
