@@ -9,7 +9,7 @@ from __future__ import annotations
 import datetime as _dt
 import functools
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace as _replace
 from typing import Any, Sequence
 
 import numpy as np
@@ -550,6 +550,8 @@ def analyse_links(
     if surroundings is not None and spacing is None:
         spacing = surroundings.default_spacing_m(model, lon_a, lat_a, lat_b, lon_b)
     profiles = build_profiles(model, lat_a, lon_a, lat_b, lon_b, spacing_m=spacing, labels=names)
+    if surroundings is not None and getattr(surroundings, "surface", None) is not None:
+        profiles = _with_surface_cells(profiles, surroundings.surface, settings.spacing_m, names)
     crossings, clutter_warnings = None, ()
     if surroundings is not None:
         surrounded = surroundings.apply(profiles, model)
@@ -611,6 +613,19 @@ def analyse_links(
         clutter_warnings=clutter_warnings,
         availability=availability,
     )
+
+
+def _with_surface_cells(profiles: Profiles, surface: Any, spacing_m: float | None, names: list[str]) -> Profiles:
+    """Count a surface model's cells in the finest cell and the coarse-spacing warning of each path."""
+    from .obstructions import _finest_cell_m
+    from .profile import spacing_warning
+
+    finest = np.fmin(profiles.finest_cell_m, _finest_cell_m(surface))
+    notes = tuple(
+        spacing_warning(names[i], float(profiles.spacing_m[i]), float(finest[i])) if spacing_m is not None else None
+        for i in range(len(names))
+    )
+    return _replace(profiles, finest_cell_m=finest, sampling_warnings=notes)
 
 
 def analyse_link(

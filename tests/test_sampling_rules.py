@@ -4,6 +4,7 @@ samples per path and per batch capped with a message a planner can act on."""
 from __future__ import annotations
 
 import dataclasses
+import json
 
 import numpy as np
 import pytest
@@ -15,6 +16,7 @@ from profiler.errors import InputError
 from profiler.link import Settings, Site, analyse_link
 from profiler.profile import MAX_SAMPLES_PER_BATCH, MAX_SAMPLES_PER_PATH, build_profiles
 from profiler.terrain import ElevationModel
+from tests.conftest import DEMO_DEM, REPO
 
 RADIO = Radio(5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23)
 A, B = Site("west", 46.02, 10.01, 10), Site("east", 46.02, 10.09, 10)
@@ -107,7 +109,7 @@ def test_screening_flags_a_pair_over_the_cap_and_goes_on(ridge, monkeypatch):
 
 def test_screening_warns_once_when_the_given_spacing_is_coarser_than_the_raster(tmp_path):
     from profiler.io.sites import read_sites
-    from tests._screening_data import DEMO_DEM, DEMO_SITES
+    from tests._screening_data import DEMO_SITES
 
     sites, _ = read_sites(DEMO_SITES)
     sites_few = screening._drop_sites(sites, screening.PairPlan(), np.arange(len(sites)) < 3)[0]
@@ -118,3 +120,17 @@ def test_screening_warns_once_when_the_given_spacing_is_coarser_than_the_raster(
     assert "60 m is coarser than the finest raster cell at the sites (25 m)" in coarse.warnings[0]
     assert "recommended spacing 12.5 m" in coarse.warnings[0]
     assert fine.warnings == ()
+
+
+def test_a_surface_model_finer_than_the_terrain_sets_the_warning(cli):
+    # Demo town: terrain cells 25 m, surface model 2 m; 10 m spacing is fine for the terrain only.
+    args = ["link", "--dem", str(DEMO_DEM), "--surface", str(REPO / "data" / "demo" / "town-surface.tif"),
+            "--site-a", "-30.535178,-20.845193", "--site-b", "-30.534618,-20.830600",
+            "--agl-a", "23", "--agl-b", "23", "--freq-ghz", "5.8", "--json"]
+    r = json.loads(cli(*args, "--spacing-m", "10").output)
+    assert r["inputs"]["finest_cell_m"] == pytest.approx(2.0, rel=0.01)
+    assert r["inputs"]["spacing_coarser_than_raster"] is True
+    assert any("recommended spacing 1 m" in w for w in r["warnings"])
+    r = json.loads(cli(*args).output)  # default: half the surface model's cell, no warning
+    assert r["inputs"]["sample_spacing_m"] == pytest.approx(1.0, rel=0.01)
+    assert r["inputs"]["spacing_coarser_than_raster"] is False
