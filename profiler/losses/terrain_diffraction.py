@@ -257,7 +257,7 @@ def _knife_edge(b: _Batch) -> np.ndarray:
 #: side sub-path at the side edge (see :func:`_deygout_parts`).
 SUMMIT_DIP_F1_FRACTION = 0.6
 #: The same threshold as a Fresnel-Kirchhoff v: h / F1 >= 0.6 is v = sqrt(2) h / F1 >= 0.6 sqrt(2)
-#: (ITU-R P.526-15 eq. 26 with F1 of eq. 2).
+#: (v = sqrt(2) h / F1: ITU-R P.526-15 section 4.1 with F1 of eq. 2).
 _SUMMIT_DIP_V = SUMMIT_DIP_F1_FRACTION * np.sqrt(2.0)
 
 
@@ -275,9 +275,10 @@ def _deygout_parts(b: _Batch) -> dict[str, np.ndarray]:
     # Distinct summits only: the profile between a side edge and the main edge dips below
     # the lower of the two by 0.6 F1 of the side sub-path at the side edge, i.e. dip * (the
     # v factor sqrt(2/lambda (1/d1 + 1/d2)) of that sub-path) >= 0.6 sqrt(2).  The flanks of
-    # one rounded summit, and slopes climbing to it, have no such dip.  Our rule (common
-    # practice: Deygout's construction assumes separate edges; 0.6 F1 is the usual
-    # clear-path amount, ITU-R P.530-18 section 2.2.2.1, from memory).
+    # one rounded summit, and slopes climbing to it, have no such dip; a second ridge beyond
+    # a valley keeps its own edge.  Our rule, common practice: Deygout's construction
+    # assumes separate edges, and 0.6 F1 is the usual clear-path amount (this tool's
+    # default clearance criterion).
     dip = summit_dips(b.elev, ip, ep[:, 0])
     with np.errstate(divide="ignore", invalid="ignore"):
         # Side a: line from antenna a (height 0 above the main line) to the main edge top.
@@ -558,14 +559,18 @@ Main edge by largest v over the whole path; if it blocks the direct line
 (v > 0), add J(v) of the dominant edge of each side sub-path, measured against
 the line from that antenna to the main edge top (Deygout, IEEE Trans. AP-14,
 1966, from memory; limiting to three edges and to blocking main edges is
-common practice).  Vectorised with masked maxima over column ranges."""
+common practice).  A side edge must be a summit distinct from the main edge:
+the profile between them dips below the lower of the two by at least 0.6 F1
+of the side sub-path at the side edge (common practice, our rule), so the
+flanks of one rounded summit are not counted as further edges.  Vectorised
+with masked maxima over column ranges."""
 
 epstein_peterson_loss_db = _single("epstein-peterson")
 epstein_peterson_loss_db.__name__ = "epstein_peterson_loss_db"
 epstein_peterson_loss_db.__doc__ = """Epstein-Peterson sum over the Deygout edges, dB (P,).
 
-The edges are the main edge and, when it blocks, the side edges that obstruct
-their sub-paths (v > -0.78); each edge's v is measured against the line
+The edges are the main edge and, when it blocks, the side edges (distinct
+summits, as for Deygout) that obstruct their sub-paths (v > -0.78); each edge's v is measured against the line
 joining its neighbouring edges or antennas and the J(v) add (Epstein and
 Peterson, Proc. IRE 41, 1953, from memory)."""
 
