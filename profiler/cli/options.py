@@ -163,7 +163,7 @@ analysis_options = _compose(
     click.option("--k-worst", default=None, metavar="K",
                  help="Worst-case k-factor, a number or a fraction [default: 2/3]."),
     click.option("--spacing-m", type=float, default=None,
-                 help="Profile sample spacing, m [default: half the finest raster cell]."),
+                 help="Profile sample spacing, m, at least 0.01 [default: half the finest raster cell on the path]."),
     click.option("--min-f1-fraction", type=float, default=None,
                  help="Clearance needed at the design k, fraction of F1 [default: 0.6]."),
     click.option("--min-f1-fraction-worst", type=float, default=None,
