@@ -236,7 +236,9 @@ def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
     length = path_lines(lat_a, lon_a, lat_b, lon_b).length_m
     with np.errstate(over="ignore", invalid="ignore"):
         counts = np.ceil(length / spacing) + 1  # float: no overflow before the check
-    for i in np.flatnonzero(~(counts <= MAX_SAMPLES_PER_PATH)):
+    over = np.flatnonzero(~(counts <= MAX_SAMPLES_PER_PATH))
+    if over.size:  # the first such path names the problem and the spacing that fits
+        i = int(over[0])
         raise InputError(sample_limit_problem(labels[i], float(length[i]), int(min(counts[i], 2**62)),
                                               float(spacing[i])))
     total = counts.size * (counts.max() if counts.size else 0)
