@@ -162,8 +162,6 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     )
     if len(sites) < 2:
         raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen")
-    if not quiet:
-        click.echo(f"columns: {sites.describe_columns()}", err=True)
     explicit = None
     if pairs_file:
         a, b, bad_pairs = read_pairs(pairs_file, sites.names)
@@ -189,3 +187,4 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         model.close()
     if not quiet:
         click.echo(format_screen_summary(summary))
+        click.echo(f"columns: {sites.describe_columns()}")
