@@ -289,7 +289,7 @@ def read_sites(
         raw = frame[agl_c].to_numpy()
         flag(~np.isfinite(agl), lambda k: f"antenna height {raw[k]!r} is not a number")
         agl_range = check_numbers(np.where(np.isfinite(agl), agl, 0.0), "antenna_agl_m")
-        flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: f"antenna height: {agl_range[k]}")
+        flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: agl_range[k])
         used.add(agl_c)
         where["agl"] = agl_c
     else:
