@@ -77,8 +77,9 @@ LIMITS: dict[str, Limit] = {
     "required_snr_db": Limit(-30.0, 70.0, "dB", "spread-spectrum modes work near -30 dB, the densest "
                              "modulations need under 45 dB (common practice)"),
     # Analysis
-    "k": Limit(0.1, 100.0, "", "k-factors below 0.1 or above 100 do not occur outside ducting, which "
-               "the method does not model (ITU-R P.530-18 section 2.2.2 uses k down to about 0.5; common practice)"),
+    "k": Limit(0.1, 100.0, "", "k = 157 / (157 + dN/dh) (ITU-R P.453, from memory): k of 100 is dN/dh of about -155 N-units/km, "
+               "the edge of ducting, which the method does not model; k below 0.1 is dN/dh above +1400 "
+               "(common practice)"),
     "k_worst": Limit(0.1, 100.0, "", "as k; k_worst may not exceed k"),
     "min_f1_fraction": Limit(-2.0, 2.0, "F1", "criteria ask between 0 and 1 F1; beyond +-2 F1 is a typing "
                              "error (common practice)"),
@@ -94,18 +95,19 @@ LIMITS: dict[str, Limit] = {
                     "(common practice)"),
     "nodata_fill_m": Limit(-11000.0, 9000.0, "m", "between the deepest ocean floor and the highest summit "
                            "(from memory)"),
-    "tree_allowance_m": Limit(0.0, 100.0, "m", "the tallest trees are about 115 m tall in all (from memory)"),
+    "tree_allowance_m": Limit(0.0, 100.0, "m", "added to every tree height for growth and uncertainty; over 100 m is a "
+                           "typing error (common practice)"),
     # Screening
     "max_km": Limit(0.0, 20100.0, "km", "no two points on earth are more than about 20,004 km apart (WGS84)",
                     low_open=True),
     "min_margin_db": Limit(-100.0, 100.0, "dB", "fade margins of real links lie well within +-100 dB "
                            "(common practice)"),
-    # Climate (ITU-R P.530-18 and P.676-12 inputs; ClimateSettings checks its own model ranges too)
-    "rain_rate_mm_h": Limit(0.0, 300.0, "mm/h", "R0.01 on earth lies below about 250 mm/h (ITU-R P.837-7 maps)"),
-    "target_availability_pct": Limit(99.0, 99.999, "%", "outage 0.001-1 %, the range of the ITU-R P.530-18 "
+    # Climate (ITU-R P.530-17 and P.676-12 inputs; ClimateSettings checks its own model ranges too)
+    "rain_rate_mm_h": Limit(0.0, 300.0, "mm/h", "R0.01 on earth lies below about 250 mm/h (ITU-R P.837 maps, from memory)"),
+    "target_availability_pct": Limit(99.0, 99.999, "%", "outage 0.001-1 %, the range of the ITU-R P.530-17 "
                                      "rain method (section 2.4.1)"),
     "dn1_n_per_km": Limit(-2000.0, 200.0, "N-units/km", "ITU-R P.453 maps give about -850 to 0 N-units/km"),
-    "terrain_roughness_m": Limit(0.0, 2000.0, "m", "sa (ITU-R P.530-18 section 2.3.1) is a few to a few "
+    "terrain_roughness_m": Limit(0.0, 2000.0, "m", "sa (ITU-R P.530-17 section 2.3.1) is a few to a few "
                                  "hundred metres (common practice)"),
     "pressure_hpa": Limit(0.0, 1100.0, "hPa", "sea-level pressure has never exceeded about 1085 hPa (from memory)",
                           low_open=True),
