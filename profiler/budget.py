@@ -42,13 +42,13 @@ class Radio:
             v = np.asarray(getattr(self, name), dtype=float)
             if not np.all(np.isfinite(v)):
                 bad(name, "a finite number")
-        if np.any(np.asarray(self.freq_ghz) <= 0):
-            bad("freq_ghz", "greater than 0")
-        if np.any(np.asarray(self.bandwidth_mhz) <= 0):
-            bad("bandwidth_mhz", "greater than 0")
-        for name in ("loss_a_db", "loss_b_db", "noise_figure_db"):
-            if np.any(np.asarray(getattr(self, name)) < 0):
-                bad(name, "0 or more")
+        # Ranges shared with every entry point: profiler.validation.LIMITS.
+        from .validation import check_numbers
+
+        for name in asdict(self):
+            reasons = [r for r in check_numbers(np.ravel(getattr(self, name)), name) if r is not None]
+            if reasons:
+                raise InputError(f"radio: {reasons[0]}")
         return self
 
 

@@ -176,7 +176,7 @@ def check_numbers(values: ArrayLike, name: str) -> list[str | None]:
     out: list[str | None] = [None] * arr.size
     for k in np.flatnonzero(~ok):
         v = arr.flat[k]
-        label = LABELS.get(name, name)
+        label = f"{LABELS[name]} ({name})" if name in LABELS else name
         out[k] = (f"{label} {v!r} is not a finite number" if not np.isfinite(v)
                   else f"{label} must lie {limit.describe()}, got {v:g}")
     return out

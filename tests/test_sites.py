@@ -43,7 +43,7 @@ def test_bad_rows_are_reported_with_line_numbers_and_skipped(tmp_path):
     assert "outside -90..90" in rows[4]
     assert "duplicate name (first on row 2)" in rows[5]
     assert "no name" in rows[6]
-    assert "antenna height above ground must lie between 0 and 1000 m, got -2" in rows[7]
+    assert "antenna height above ground (antenna_agl_m) must lie between 0 and 1000 m, got -2" in rows[7]
     assert "s.csv row 3" in bad[0].describe()
 
 

@@ -362,7 +362,8 @@ def read_pairs(
     if not p.exists():
         raise DataFileError(f"pairs file not found: {p}")
     try:
-        frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True)
+        frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True, sep=_sniff_separator(p),
+                            encoding="utf-8-sig")
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
         raise InputError(f"{p}: not a readable CSV pairs file ({exc})") from None
     cols = [str(c) for c in frame.columns]
