@@ -513,9 +513,14 @@ def analyse_links(
 
         sites_a, placements_a = place_sites(model, sites_a, mounts_a, surroundings, "site a")
         sites_b, placements_b = place_sites(model, sites_b, mounts_b, surroundings, "site b")
-    for a, b, name in zip(sites_a, sites_b, names) if check_sites else ():
-        a.validate(f"{name}: site a")
-        b.validate(f"{name}: site b")
+    if check_sites:
+        # Checked sites carry folded longitudes, so the records show what was analysed.
+        checked = [(a.validate(f"{name}: site a"), b.validate(f"{name}: site b"))
+                   for a, b, name in zip(sites_a, sites_b, names)]
+        if not isinstance(sites_a, SiteColumns):
+            sites_a = [a for a, _ in checked]
+        if not isinstance(sites_b, SiteColumns):
+            sites_b = [b for _, b in checked]
     lat_a, lon_a, agl_a = _site_arrays(sites_a)
     lat_b, lon_b, agl_b = _site_arrays(sites_b)
     # One position rule (profiler.validation): longitudes folded, poles at longitude 0.

@@ -171,3 +171,18 @@ def test_longitudes_in_0_360_are_folded_and_heights_bounded(tmp_path):
     assert list(sites.names) == ["A"] and sites.lon_deg[0] == pytest.approx(-9.5)
     reasons = {b.row: b.reason for b in bad}
     assert "between 0 and 1000" in reasons[3] and "longitude 361" in reasons[4]
+
+
+def test_near_match_with_an_explicit_default_height_uses_the_default(tmp_path):
+    p = tmp_path / "cut.csv"
+    p.write_text("name,lat,lon,antenna_ag\nA,46.1,10.1,25\nB,46.2,10.2,30\n")
+    sites, _ = read_sites(p, default_agl_m=12.0)
+    assert sites.antenna_agl_m.tolist() == [12.0, 12.0]
+    assert "--agl-m 12 m for every site" in sites.describe_columns()
+
+
+def test_decimal_commas_in_a_comma_separated_file_get_a_hint(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text("name,lat,lon\nA,46,1,10,1\nB,46.2,10.2\n")
+    with pytest.raises(InputError, match="line 2 has 5 cells but the header has 3; numbers with decimal commas"):
+        read_sites(p)

@@ -111,7 +111,8 @@ class SiteTable:
         )
 
 
-def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool) -> str | None:
+def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool,
+          default_given: bool = False) -> str | None:
     if given is not None:
         if given not in columns:
             raise InputError(
@@ -122,7 +123,7 @@ def _find(columns: Sequence[str], role: str, given: str | None, source: str, req
     for candidate in DEFAULT_COLUMNS[role]:
         if candidate in lower:
             return lower[candidate]
-    near = _near_match(columns, role)
+    near = None if default_given else _near_match(columns, role)
     if near is not None:
         # e.g. a Shapefile cuts antenna_agl_m to antenna_ag; guessing would be silent, a default wrong.
         raise InputError(
@@ -218,11 +219,14 @@ def read_sites(
     if p.suffix.lower() in CSV_SUFFIXES:
         sep = _sniff_separator(p)
         decimal_comma = sep != ","
+        _check_field_counts(p, sep)
         try:
             frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True,
-                                encoding="utf-8-sig")
+                                encoding="utf-8-sig", index_col=False)
         except (pd.errors.ParserError, UnicodeDecodeError) as exc:
-            raise InputError(f"{p}: not a readable CSV table ({exc})") from None
+            hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
+                    if sep == "," and isinstance(exc, pd.errors.ParserError) else "")
+            raise InputError(f"{p}: not a readable CSV table ({str(exc).strip()}){hint}") from None
         except pd.errors.EmptyDataError:
             raise InputError(f"{p}: the sites file is empty") from None
         rows = np.arange(len(frame)) + 2  # header on line 1
@@ -241,7 +245,7 @@ def read_sites(
     columns = [str(c) for c in frame.columns]
     frame.columns = columns
     name_c = _find(columns, "name", name_col, source, required=True)
-    agl_c = _find(columns, "agl", agl_col, source, required=False)
+    agl_c = _find(columns, "agl", agl_col, source, required=False, default_given=default_agl_m is not None)
     gain_c = _find(columns, "gain", gain_col, source, required=False)
     mast_c = _find(columns, "max_mast", max_mast_col, source, required=False)
     n = len(frame)
@@ -331,6 +335,30 @@ def read_sites(
         columns=where,
     )
     return table, bad
+
+
+def _check_field_counts(p: Path, sep: str) -> None:
+    """InputError naming the first line with more cells than the header.
+
+    pandas would otherwise take the extra leading cells as an index and shift
+    every value of that row (a site named '1' at the wrong place).
+    """
+    try:
+        with open(p, encoding="utf-8-sig", newline="") as fh:
+            reader = csv.reader(fh, delimiter=sep)
+            header = next(reader, None)
+            if header is None:
+                return
+            for line, cells in enumerate(reader, start=2):
+                if len(cells) > len(header):
+                    hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
+                            if sep == "," else "")
+                    raise InputError(f"{p}: line {line} has {len(cells)} cells but the header has "
+                                     f"{len(header)}{hint}")
+    except UnicodeDecodeError:
+        return  # reported by the reader below
+    except csv.Error as exc:
+        raise InputError(f"{p}: not a readable CSV table ({exc})") from None
 
 
 def _optional(frame: Any, column: str | None, what: str, limit: str, decimal_comma: bool, flag) -> np.ndarray | None:

@@ -219,3 +219,10 @@ def test_link_obstructions_kind_is_named(tmp_path):
     assert_refused(["link", "--dem", str(DEMO_DEM), "--site-a", ORRIN, "--site-b", BRACKWELL, "--freq-ghz", "5",
                     "--obstructions", f"lava={tmp_path / 'flows.gpkg'}"],
                    ["unknown obstruction kind 'lava'", "known kinds: building"], inputs=[DEMO_DEM])
+
+
+def test_screen_decimal_commas_in_a_comma_file_are_refused(tmp_path):
+    """Unquoted 46,1 in a comma file shifted the row (a site named '1'); now one line with the fix."""
+    sites = tmp_path / "dc.csv"
+    sites.write_text("name,lat,lon\nA,-30,426077,-20,973967\nB,-30.403493,-20.916715\n")
+    assert_refused(_screen(sites, tmp_path), ["line 2 has 5 cells", "semicolons"], inputs=[sites, DEMO_DEM])
