@@ -202,6 +202,10 @@ class ElevationModel:
             _open_source(p, vertical_unit) for p in paths
         )
         _check_one_datum(self.sources)
+        if nodata_fill_m is not None:
+            from .validation import check_number
+
+            nodata_fill_m = check_number(nodata_fill_m, "nodata_fill_m")
         self.nodata_fill_m = nodata_fill_m
         self._datasets: dict[str, object] = {}
         self._cache: dict[str, StoredCells] = {}

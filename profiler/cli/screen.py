@@ -155,6 +155,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     if max_km is not None:
         check_number(max_km, "max_km", "--max-km")
     check_number(min_margin_db, "min_margin_db", "--min-margin-db")
+    if opts.get("nodata_fill_m") is not None:
+        check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
     radio, settings = resolve_radio_settings(opts)
     sites, bad = read_sites(
         sites_file, name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,

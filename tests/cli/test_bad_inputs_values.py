@@ -195,6 +195,9 @@ def _screen(sites: Path, tmp_path: Path, *extra: str) -> list[str]:
         (["--max-km", "nan"], ["--max-km", "finite"]),
         (["--max-km", "0"], ["--max-km", "above 0"]),
         (["--min-margin-db", "1e6"], ["--min-margin-db", "between -100 and 100"]),
+        (["--nodata-fill-m", "inf"], ["--nodata-fill-m", "finite"]),
+        (["--k", "1", "--k-worst", "2"], ["k_worst 2 is above k 1"]),
+        (["--dn1", "nan"], ["--dn1", "dn1", "finite"]),
     ],
 )
 def test_screen_options(tmp_path, extra, words):
