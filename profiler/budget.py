@@ -11,6 +11,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .errors import InputError
+from .validation import check_numbers
 from .units import BOLTZMANN_J_PER_K, REFERENCE_TEMPERATURE_K, ratio_to_db
 
 __all__ = ["Radio", "Budget", "thermal_noise_dbm", "noise_floor_dbm", "link_budget", "shannon_capacity_mbps"]
@@ -43,8 +44,6 @@ class Radio:
             if not np.all(np.isfinite(v)):
                 bad(name, "a finite number")
         # Ranges shared with every entry point: profiler.validation.LIMITS.
-        from .validation import check_numbers
-
         for name in asdict(self):
             reasons = [r for r in check_numbers(np.ravel(getattr(self, name)), name) if r is not None]
             if reasons:

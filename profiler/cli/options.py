@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import contextlib
 import functools
-import math
 from dataclasses import dataclass
 from typing import Any, Callable, Iterator
 
