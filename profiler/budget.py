@@ -11,8 +11,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .errors import InputError
-from .validation import check_numbers
 from .units import BOLTZMANN_J_PER_K, REFERENCE_TEMPERATURE_K, ratio_to_db
+from .validation import check_numbers
 
 __all__ = ["Radio", "Budget", "thermal_noise_dbm", "noise_floor_dbm", "link_budget", "shannon_capacity_mbps"]
 
