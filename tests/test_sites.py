@@ -186,3 +186,20 @@ def test_decimal_commas_in_a_comma_separated_file_get_a_hint(tmp_path):
     p.write_text("name,lat,lon\nA,46,1,10,1\nB,46.2,10.2\n")
     with pytest.raises(InputError, match="line 2 has 5 cells but the header has 3; numbers with decimal commas"):
         read_sites(p)
+
+
+def test_shapefile_cut_column_names_are_reported(tmp_path):
+    """A Shapefile keeps 10 characters of a field name: antenna_agl_m becomes antenna_ag."""
+    import warnings
+
+    gpd = pytest.importorskip("geopandas")
+    from shapely.geometry import Point
+
+    frame = gpd.GeoDataFrame({"name": ["A", "B"], "antenna_agl_m": [25.0, 30.0]},
+                             geometry=[Point(10.1, 46.1), Point(10.2, 46.2)], crs="EPSG:4326")
+    path = tmp_path / "sites.shp"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the writer warns that it cuts the name
+        frame.to_file(path)
+    with pytest.raises(InputError, match="'antenna_ag' looks like one"):
+        read_sites(path)
