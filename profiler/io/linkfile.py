@@ -175,8 +175,9 @@ def _check_types(p: Path, data: dict[str, Any]) -> None:
             if key in NUMBER_KEYS:
                 text_ok = key in ("k", "k_worst")
                 if isinstance(value, bool) or not isinstance(value, (int, float, str) if text_ok else (int, float)):
+                    shown = str(value).lower() if isinstance(value, bool) else repr(value)
                     raise InputError(
-                        f"{p}: [{table}] {key} must be a number, got {value!r}"
+                        f"{p}: [{table}] {key} must be a number, got {shown}"
                         + (" (true/false are not numbers)" if isinstance(value, bool) else "")
                     )
             elif key in TEXT_KEYS and not isinstance(value, str):
