@@ -12,6 +12,7 @@ from numpy.typing import ArrayLike
 
 from .errors import InputError
 from .units import BOLTZMANN_J_PER_K, REFERENCE_TEMPERATURE_K, ratio_to_db
+from .validation import check_numbers
 
 __all__ = ["Radio", "Budget", "thermal_noise_dbm", "noise_floor_dbm", "link_budget", "shannon_capacity_mbps"]
 
@@ -42,13 +43,11 @@ class Radio:
             v = np.asarray(getattr(self, name), dtype=float)
             if not np.all(np.isfinite(v)):
                 bad(name, "a finite number")
-        if np.any(np.asarray(self.freq_ghz) <= 0):
-            bad("freq_ghz", "greater than 0")
-        if np.any(np.asarray(self.bandwidth_mhz) <= 0):
-            bad("bandwidth_mhz", "greater than 0")
-        for name in ("loss_a_db", "loss_b_db", "noise_figure_db"):
-            if np.any(np.asarray(getattr(self, name)) < 0):
-                bad(name, "0 or more")
+        # Ranges shared with every entry point: profiler.validation.LIMITS.
+        for name in asdict(self):
+            reasons = [r for r in check_numbers(np.ravel(getattr(self, name)), name) if r is not None]
+            if reasons:
+                raise InputError(f"radio: {reasons[0]}")
         return self
 
 

@@ -28,6 +28,7 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
+from .validation import check_number
 from .link import AtK, LinkBatch, evaluate_profiles
 from .profile import Profiles
 
@@ -40,6 +41,12 @@ SOLVE_CHOICES = ("a", "b", "both")
 DEFAULT_MAX_MAST_M = 30.0
 
 _TOLERANCE_M = 1e-9
+
+#: Most antenna heights tried at one end (mast limit / step), so time and memory stay bounded.
+MAX_GRID_HEIGHTS = 20_000
+
+#: Grid heights x profile constraints evaluated at once (bounds the memory of the "both" search).
+_BLOCK_ELEMENTS = 4_000_000
 
 
 @dataclass(frozen=True)
@@ -156,11 +163,17 @@ def solve_heights(
     """
     if solve not in SOLVE_CHOICES:
         raise InputError(f"solve must be one of {', '.join(SOLVE_CHOICES)}, got {solve!r}")
-    for name, value in (("max_mast_a_m", max_mast_a_m), ("max_mast_b_m", max_mast_b_m)):
-        if not math.isfinite(value) or value < 0:
-            raise InputError(f"{name} must be 0 m or more, got {value!r}")
-    if not math.isfinite(step_m) or step_m <= 0:
-        raise InputError(f"height step must be greater than 0 m, got {step_m!r}")
+    # Ranges shared with every entry point: profiler.validation.LIMITS.
+    for tag, value in (("a", max_mast_a_m), ("b", max_mast_b_m)):
+        check_number(value, "max_mast_m", f"site {tag}")
+    check_number(step_m, "step_m")
+    heights = max(max_mast_a_m, max_mast_b_m) / step_m
+    if heights > MAX_GRID_HEIGHTS:
+        raise InputError(
+            f"a mast limit of {max(max_mast_a_m, max_mast_b_m):g} m in steps of {step_m:g} m gives "
+            f"{heights:,.0f} heights to try, more than {MAX_GRID_HEIGHTS:,}; use a coarser --step-m "
+            "or a lower mast limit"
+        )
     if batch.problems[i] is not None:
         raise InputError(batch.problems[i])
     profiles, settings = batch.profiles, batch.settings
@@ -174,7 +187,11 @@ def solve_heights(
     need, t = np.concatenate([r1, r2]), np.concatenate([t1, t2])
 
     def least_b(a_m: np.ndarray) -> np.ndarray:
-        a_amsl = base_a + np.asarray(a_m, dtype=float)[..., None]
+        a_m = np.asarray(a_m, dtype=float)
+        if a_m.ndim == 1 and a_m.size * max(need.size, 1) > _BLOCK_ELEMENTS:
+            rows = max(1, _BLOCK_ELEMENTS // max(need.size, 1))
+            return np.concatenate([least_b(a_m[j:j + rows]) for j in range(0, a_m.size, rows)])
+        a_amsl = base_a + a_m[..., None]
         top = np.max((need - a_amsl * (1.0 - t)) / t, axis=-1, initial=-np.inf)
         return _up(top - base_b, step_m)
 

@@ -6,6 +6,7 @@ paths.  A single link is a batch of one.  No printing, no file writing.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 import functools
 import math
@@ -32,6 +33,7 @@ from .losses.terrain_diffraction import (
 from .losses.smooth_earth import resolve_ground, resolve_polarisation
 from .profile import Profiles, build_profiles
 from .terrain import ElevationModel
+from .validation import check_k_pair, check_number, normalise_positions, position_problem, too_close
 
 __all__ = [
     "Site",
@@ -56,20 +58,22 @@ class Site:
     antenna_agl_m: float
 
     def validate(self, role: str = "site") -> "Site":
-        """Raise InputError if the position or height is out of range."""
+        """This site with its longitude folded into -180..180 (and 0 at a pole); InputError if out of range.
+
+        One rule for every entry point: :mod:`profiler.validation`.
+        """
         where = f"{role} {self.name!r}" if self.name else role
-        for attr in ("lat_deg", "lon_deg", "antenna_agl_m"):
+        for attr in ("lat_deg", "lon_deg"):
             value = getattr(self, attr)
-            if not isinstance(value, (int, float)) or not math.isfinite(value):
-                raise InputError(f"{where}: {attr} must be a finite number, got {value!r}")
-        if not -90.0 <= self.lat_deg <= 90.0:
-            raise InputError(f"{where}: latitude {self.lat_deg} is outside -90..90 degrees")
-        if not -180.0 <= self.lon_deg <= 360.0:
-            raise InputError(f"{where}: longitude {self.lon_deg} is outside -180..180 degrees")
-        if self.antenna_agl_m < 0:
-            raise InputError(
-                f"{where}: antenna height above ground must be 0 m or more, got {self.antenna_agl_m} m"
-            )
+            if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
+                raise InputError(f"{where}: {attr} must be a number, got {value!r}")
+        problem = position_problem(self.lat_deg, self.lon_deg)
+        if problem is not None:
+            raise InputError(f"{where}: {problem}")
+        check_number(self.antenna_agl_m, "antenna_agl_m", f"{where}: antenna height above ground")
+        lat, lon = normalise_positions(self.lat_deg, self.lon_deg)
+        if float(lon) != self.lon_deg:
+            return dataclasses.replace(self, lon_deg=float(lon))
         return self
 
 
@@ -155,10 +159,7 @@ class Settings:
         resolve_method(self.diffraction_method)
         resolve_polarisation(self.polarisation)
         resolve_ground(self.ground)
-        for name in ("k", "k_worst"):
-            value = getattr(self, name)
-            if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
-                raise InputError(f"{name} (effective earth radius factor) must be greater than 0, got {value!r}")
+        check_k_pair(self.k, self.k_worst)  # ranges: profiler.validation.LIMITS
         if self.spacing_m is not None:
             from .profile import check_spacing_m
 
@@ -166,9 +167,7 @@ class Settings:
                 raise InputError(f"sample spacing must be a number of metres, got {self.spacing_m!r}")
             check_spacing_m(self.spacing_m)
         for name in ("min_f1_fraction", "min_f1_fraction_worst"):
-            value = getattr(self.criterion, name)
-            if not math.isfinite(value):
-                raise InputError(f"criterion {name} must be a finite number, got {value!r}")
+            check_number(getattr(self.criterion, name), name, "criterion")
         return self
 
 
@@ -536,16 +535,29 @@ def analyse_links(
 
         sites_a, placements_a = place_sites(model, sites_a, mounts_a, surroundings, "site a")
         sites_b, placements_b = place_sites(model, sites_b, mounts_b, surroundings, "site b")
-    for a, b, name in zip(sites_a, sites_b, names) if check_sites else ():
-        a.validate(f"{name}: site a")
-        b.validate(f"{name}: site b")
-        if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):
-            raise InputError(
-                f"{name}: site a {a.name!r} and site b {b.name!r} are at the same position "
-                f"({a.lat_deg}, {a.lon_deg}); a link needs two different places"
-            )
+    if check_sites:
+        # Checked sites carry folded longitudes, so the records show what was analysed.
+        checked = [(a.validate(f"{name}: site a"), b.validate(f"{name}: site b"))
+                   for a, b, name in zip(sites_a, sites_b, names)]
+        if not isinstance(sites_a, SiteColumns):
+            sites_a = [a for a, _ in checked]
+        if not isinstance(sites_b, SiteColumns):
+            sites_b = [b for _, b in checked]
     lat_a, lon_a, agl_a = _site_arrays(sites_a)
     lat_b, lon_b, agl_b = _site_arrays(sites_b)
+    # One position rule (profiler.validation): longitudes folded, poles at longitude 0.
+    lat_a, lon_a = normalise_positions(lat_a, lon_a)
+    lat_b, lon_b = normalise_positions(lat_b, lon_b)
+    if check_sites:
+        short, dist = too_close(lat_a, lon_a, lat_b, lon_b)
+        if short.any():
+            i = int(np.flatnonzero(short)[0])
+            a, b = sites_a[i], sites_b[i]
+            raise InputError(
+                f"{names[i]}: site a {a.name!r} ({a.lat_deg}, {a.lon_deg}) and site b {b.name!r} "
+                f"({b.lat_deg}, {b.lon_deg}) are at the same position ({dist[i]:.3g} m apart; a link needs "
+                "two places at least 1 m apart)"
+            )
     spacing = settings.spacing_m
     if surroundings is not None and spacing is None:
         spacing = surroundings.default_spacing_m(model, lon_a, lat_a, lat_b, lon_b)

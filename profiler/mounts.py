@@ -50,9 +50,13 @@ class Mount:
                              f"{', '.join(REFERENCES)}")
         if not isinstance(self.height_m, (int, float)) or not math.isfinite(self.height_m):
             raise InputError(f"{where}: antenna height must be a finite number, got {self.height_m!r}")
-        if self.reference in ("ground", "roof") and self.height_m < 0:
-            raise InputError(f"{where}: antenna height {REFERENCES[self.reference]} must be 0 m or more, "
-                             f"got {self.height_m} m")
+        # Ranges shared with every entry point (profiler.validation.LIMITS).
+        from .validation import check_number
+
+        limit = {"ground": "antenna_agl_m", "roof": "antenna_above_roof_m", "elevation": "antenna_amsl_m",
+                 "ellipsoid": "antenna_ellipsoidal_m"}.get(self.reference)
+        if limit is not None:
+            check_number(self.height_m, limit, where)
         return self
 
 

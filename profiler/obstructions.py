@@ -29,6 +29,7 @@ are in the vertical datum of the elevation rasters.
 from __future__ import annotations
 
 import os
+import re
 from dataclasses import dataclass, replace
 from functools import cached_property
 from typing import Any, Sequence
@@ -77,7 +78,8 @@ def normalise_kind(kind: str, where: str = "obstruction layer") -> str:
     """'building'/'buildings' -> 'building', 'tree'/'trees' -> 'trees'; InputError otherwise."""
     key = str(kind).strip().lower()
     if key not in _KIND_ALIASES:
-        raise InputError(f"{where}: unknown obstruction kind {kind!r}; use building or trees")
+        raise InputError(f"{where}: unknown obstruction kind {kind!r}; known kinds: "
+                         f"{', '.join(_KIND_ALIASES)}")
     return _KIND_ALIASES[key]
 
 
@@ -107,6 +109,9 @@ def parse_layer_spec(
     head, sep, rest = text.partition("=")
     if sep and head.strip().lower() in _KIND_ALIASES:
         kind, text = normalise_kind(head), rest
+    elif sep and re.fullmatch(r"\s*[A-Za-z_-]+\s*", head) and not os.path.exists(text):
+        # KIND=FILE with a kind we do not know (e.g. lava=...): name the kinds, not a missing file.
+        normalise_kind(head, f"--obstructions {text}")
     layer = None
     if "#" in text and not os.path.exists(text):
         text, _, layer = text.rpartition("#")

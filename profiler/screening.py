@@ -320,10 +320,13 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
         if COLUMNS[name] == "f8":
             out[name][:] = np.nan
     problems: list[tuple[int, str]] = []
-    same = (task.lat_a == task.lat_b) & (task.lon_a == task.lon_b)
+    from .validation import MIN_PATH_M, too_close
+
+    same, gap_m = too_close(task.lat_a, task.lon_a, task.lat_b, task.lon_b)
     for k in np.flatnonzero(same):
         problems.append((task.first_pair + int(k),
-                         f"{task.names_a[k]} - {task.names_b[k]}: both sites are at the same position"))
+                         f"{task.names_a[k]} - {task.names_b[k]}: both sites are at the same position"
+                         + (f" ({gap_m[k]:.3g} m apart, under {MIN_PATH_M:g} m)" if gap_m[k] > 0 else "")))
     todo = np.flatnonzero(~same)
     length_m = np.full(n, np.nan)
     if todo.size:
@@ -399,7 +402,10 @@ def _evaluate_into(model, task: ChunkTask, idx: np.ndarray, out: dict, problems:
                           task.agl_b[idx].astype(float))
     radio = task.radio
     if task.gain_a is not None:
-        radio = dataclasses.replace(radio, gain_a_dbi=task.gain_a[idx], gain_b_dbi=task.gain_b[idx])
+        # A blank gain cell is "not given": the radio's gain applies (profiler.io.sites).
+        ga, gb = task.gain_a[idx], task.gain_b[idx]
+        radio = dataclasses.replace(radio, gain_a_dbi=np.where(np.isnan(ga), radio.gain_a_dbi, ga),
+                                    gain_b_dbi=np.where(np.isnan(gb), radio.gain_b_dbi, gb))
     # Sites were checked when read, and same-place pairs set aside, so skip the per-pair checks.
     # The other diffraction methods are for a single link's record: not computed in bulk.
     settings = dataclasses.replace(task.settings, compare_methods=False)
@@ -772,6 +778,11 @@ def screen(
     for k in np.flatnonzero(~covered):
         bad.append(BadRow(sites.source, int(sites.rows[k]), str(sites.names[k]),
                           f"position ({sites.lat_deg[k]:.6f}, {sites.lon_deg[k]:.6f}) lies outside the elevation rasters"))
+    if covered.sum() < 2:
+        raise InputError(
+            f"{sites.source}: {int(covered.sum())} of {len(sites)} usable sites lie inside the elevation rasters; "
+            "nothing to screen (check the --dem files and the site coordinates)"
+        )
     if not covered.all():
         sites, plan = _drop_sites(sites, plan, covered)
     bad.sort(key=lambda r: (r.source != sites.source, r.row))

@@ -30,11 +30,16 @@ VERTICAL_UNITS = {
     "m": 1.0,
     "metre": 1.0,
     "meter": 1.0,
+    "metres": 1.0,
+    "meters": 1.0,
     "ft": FEET_TO_M,
     "foot": FEET_TO_M,
     "feet": FEET_TO_M,
     "us-ft": 1200.0 / 3937.0,
 }
+
+#: What a raster says when it states no vertical datum.
+DATUM_NOT_STATED = "as the raster (not stated in the file)"
 
 
 def _unit_factor(unit: str, where: str) -> float:
@@ -80,7 +85,7 @@ def _describe_vertical_datum(crs) -> str:
                     return sub.name
     except Exception:  # pragma: no cover - defensive; pyproj CRS quirks
         pass
-    return "as the raster (not stated in the file)"
+    return DATUM_NOT_STATED
 
 
 def _open_source(path: str, vertical_unit: str | None) -> RasterSource:
@@ -110,7 +115,13 @@ def _open_source(path: str, vertical_unit: str | None) -> RasterSource:
                     factor = _unit_factor(band_unit, f"band unit of {path}")
                     unit_name = band_unit
                 except InputError:
-                    factor, unit_name = 1.0, "m"
+                    # Reading an unknown tag as metres gave ground 31 km high for "cm".
+                    raise DataError(
+                        f"elevation raster {path}: band unit {band_unit!r} is not one terrahop knows "
+                        f"(known: {', '.join(VERTICAL_UNITS)}, US survey foot); say what the heights are "
+                        "in with --vertical-unit m, ft or us-ft, or [terrain] vertical_unit in the link file, "
+                        "after converting other units (e.g. gdal_calc.py for centimetres)"
+                    ) from None
             else:
                 factor, unit_name = 1.0, "m"
             return RasterSource(
@@ -129,6 +140,36 @@ def _open_source(path: str, vertical_unit: str | None) -> RasterSource:
             )
     except RasterioIOError as exc:
         raise DataFileError(f"cannot read {path} as an elevation raster: {exc}") from None
+
+
+def _check_one_datum(sources: Sequence[RasterSource]) -> None:
+    """DataError when rasters state different vertical datums (they would be joined into one profile)."""
+    stated: dict[str, str] = {}
+    for s in sources:
+        if s.vertical_datum != DATUM_NOT_STATED:
+            stated.setdefault(s.vertical_datum, s.path)
+    if len(stated) > 1:
+        (d1, p1), (d2, p2) = list(stated.items())[:2]
+        raise DataError(
+            f"elevation rasters state different vertical datums ({d1} in {p1}, {d2} in {p2}); terrahop "
+            "never joins datums silently: convert the rasters to one datum first "
+            "(e.g. gdalwarp -s_srs <CRS+datum A> -t_srs <CRS+datum B> with the PROJ geoid grids)"
+        )
+
+
+def _wrap_x(s: RasterSource, x: np.ndarray) -> np.ndarray:
+    """For a geographic raster, longitudes shifted by 360 degrees into its own span (-180..180 or 0..360).
+
+    Points already inside the raster's west..west+360 span are returned bit for bit.
+    """
+    if not s.is_geographic:
+        return x
+    west = min(s.bounds[0], s.bounds[2])
+    with np.errstate(invalid="ignore"):
+        low, high = x < west, x >= west + 360.0
+    if not (low.any() or high.any()):
+        return x
+    return np.where(low, x + 360.0, np.where(high, x - 360.0, x))
 
 
 class ElevationModel:
@@ -160,6 +201,11 @@ class ElevationModel:
         self.sources: tuple[RasterSource, ...] = tuple(
             _open_source(p, vertical_unit) for p in paths
         )
+        _check_one_datum(self.sources)
+        if nodata_fill_m is not None:
+            from .validation import check_number
+
+            nodata_fill_m = check_number(nodata_fill_m, "nodata_fill_m")
         self.nodata_fill_m = nodata_fill_m
         self._datasets: dict[str, object] = {}
         self._cache: dict[str, StoredCells] = {}
@@ -250,7 +296,8 @@ class ElevationModel:
         from .kernels import pixel_numpy
 
         x, y = self._transformers[i].transform(lon, lat)
-        return pixel_numpy(np.asarray(x, dtype=float), np.asarray(y, dtype=float), self.sources[i].transform)
+        x = _wrap_x(self.sources[i], np.asarray(x, dtype=float))
+        return pixel_numpy(x, np.asarray(y, dtype=float), self.sources[i].transform)
 
     def _sample_source(self, i: int, lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Bilinear heights of one raster at 1-D points: ``(values, inside)``, NaN where none."""
@@ -258,7 +305,7 @@ class ElevationModel:
 
         s = self.sources[i]
         x, y = self._transformers[i].transform(lon, lat)
-        x = np.asarray(x, dtype=float)
+        x = _wrap_x(s, np.asarray(x, dtype=float))
         y = np.asarray(y, dtype=float)
         cached = self._cache.get(s.path)
         if cached is not None:

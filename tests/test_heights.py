@@ -125,8 +125,11 @@ def test_take_paths_repeats_every_field(ridge):
 
 @pytest.mark.parametrize("kwargs, message", [
     ({"solve": "c"}, "solve must be one of"),
-    ({"max_mast_a_m": -1.0}, "0 m or more"),
-    ({"step_m": 0.0}, "greater than 0"),
+    ({"max_mast_a_m": -1.0}, "between 0 and 1000 m"),
+    ({"max_mast_a_m": 1e9}, "between 0 and 1000 m"),
+    ({"step_m": 0.0}, "between 0.01 and 100 m"),
+    ({"step_m": 1e-9}, "between 0.01 and 100 m"),
+    ({"step_m": 0.01, "max_mast_a_m": 999.0}, "heights to try"),
 ])
 def test_bad_settings(ridge, kwargs, message):
     with pytest.raises(InputError, match=message):

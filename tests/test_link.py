@@ -161,3 +161,12 @@ def test_site_columns_give_the_numbers_of_site_objects(ridge):
         rec, want = got.record(i), ref.record(i)
         for key in ("sites", "distance_km", "loss_db", "budget", "clearance", "worst_case", "availability"):
             assert rec[key] == want[key]
+
+
+def test_longitudes_in_0_360_are_folded_by_validate():
+    from profiler.link import Site
+
+    assert Site("b", 46.0, 350.0, 10.0).validate().lon_deg == pytest.approx(-10.0)
+    assert Site("b", 90.0, 45.0, 10.0).validate().lon_deg == 0.0
+    same = Site("c", 46.0, 10.0, 10.0)
+    assert same.validate() is same  # in range: unchanged

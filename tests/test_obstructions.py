@@ -270,7 +270,8 @@ def test_parse_layer_spec():
     assert parse_layer_spec("a.gpkg") == LayerSpec("a.gpkg", "building", None)
     assert parse_layer_spec("trees=a.gpkg#stands") == LayerSpec("a.gpkg", "trees", "stands")
     assert parse_layer_spec("buildings=dir/a=b.shp").path == "dir/a=b.shp"
-    assert parse_layer_spec("x=a.gpkg").path == "x=a.gpkg"  # not a kind: part of the name
+    with pytest.raises(InputError, match="unknown obstruction kind 'x'; known kinds: building"):
+        parse_layer_spec("x=a.gpkg")  # no such file: an unknown kind, named as such
     with pytest.raises(InputError):
         parse_layer_spec("  ")
     with pytest.raises(InputError, match="tree allowance"):

@@ -130,3 +130,11 @@ def test_screening_result_reads_its_links_layer(tmp_path):
         warnings.simplefilter("error")
         table = read_pairs(path)
     assert len(table.rows) == 1 and table.rows[0].agl_b_m == 9.0
+
+
+def test_huge_row_selection_is_refused_before_any_allocation():
+    from profiler.io.pairs import parse_row_spec
+
+    with pytest.raises(InputError, match="more than 100,000 rows"):
+        parse_row_spec("1-999999999")
+    assert parse_row_spec("1-3,7") == [1, 2, 3, 7]

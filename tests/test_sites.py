@@ -43,7 +43,7 @@ def test_bad_rows_are_reported_with_line_numbers_and_skipped(tmp_path):
     assert "outside -90..90" in rows[4]
     assert "duplicate name (first on row 2)" in rows[5]
     assert "no name" in rows[6]
-    assert "negative" in rows[7]
+    assert "antenna height above ground (antenna_agl_m) must lie between 0 and 1000 m, got -2" in rows[7]
     assert "s.csv row 3" in bad[0].describe()
 
 
@@ -120,3 +120,86 @@ def test_read_pairs_many_rows_equals_a_row_by_row_reading(tmp_path):
     assert a.tolist() == ref_a and b.tolist() == ref_b
     assert [(r.row, r.reason) for r in bad] == ref_bad
     assert {r.reason.split()[0] for r in bad} == {"site", "pairs", "same"}
+
+
+def test_semicolon_file_with_decimal_commas_and_blank_optional_cells(tmp_path):
+    p = tmp_path / "semi.csv"
+    p.write_text("name;lat;lon;antenna_agl_m;gain_dbi;max_mast_m\n"
+                 "A;46,1;10,1;12,5;23;40\n"
+                 "B;46,2;10,2;15;;\n"        # blank gain and mast limit: not given, row kept
+                 "C;46,3;10,3;abc;20;30\n")  # garbage height: skipped with its reason
+    sites, bad = read_sites(p)
+    assert list(sites.names) == ["A", "B"]
+    assert sites.lat_deg.tolist() == [46.1, 46.2] and sites.antenna_agl_m.tolist() == [12.5, 15.0]
+    assert np.isnan(sites.gain_dbi[1]) and np.isnan(sites.max_mast_m[1])
+    assert [b.row for b in bad] == [4] and "'abc' is not a number" in bad[0].reason
+
+
+def test_tab_separated_txt_is_sniffed(tmp_path):
+    p = tmp_path / "tabs.txt"
+    p.write_text("name\tlat\tlon\nA\t46.1\t10.1\nB\t46.2\t10.2\n")
+    sites, bad = read_sites(p)
+    assert list(sites.names) == ["A", "B"] and not bad
+
+
+def test_truncated_column_is_reported_not_defaulted(tmp_path):
+    p = tmp_path / "cut.csv"
+    p.write_text("name,lat,lon,antenna_ag\nA,46.1,10.1,25\nB,46.2,10.2,30\n")
+    with pytest.raises(InputError, match="'antenna_ag' looks like one.*--agl-col antenna_ag"):
+        read_sites(p)
+    sites, _ = read_sites(p, agl_col="antenna_ag")
+    assert sites.antenna_agl_m.tolist() == [25.0, 30.0]
+
+
+def test_columns_say_where_each_role_came_from(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text("site,latitude,longitude\nA,46.1,10.1\nB,46.2,10.2\n")
+    sites, _ = read_sites(p)
+    text = sites.describe_columns()
+    assert "name from 'site'" in text and "latitude from 'latitude'" in text
+    assert "antenna height from default 10 m for every site (no height column)" in text
+    sites, _ = read_sites(p, default_agl_m=7.0)
+    assert "--agl-m 7 m for every site" in sites.describe_columns()
+    with pytest.raises(InputError, match="--agl-m"):
+        read_sites(p, default_agl_m=-5.0)
+
+
+def test_longitudes_in_0_360_are_folded_and_heights_bounded(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text("name,lat,lon,antenna_agl_m\nA,46.1,350.5,10\nB,46.2,10.2,5000\nC,46.3,361,10\n")
+    sites, bad = read_sites(p)
+    assert list(sites.names) == ["A"] and sites.lon_deg[0] == pytest.approx(-9.5)
+    reasons = {b.row: b.reason for b in bad}
+    assert "between 0 and 1000" in reasons[3] and "longitude 361" in reasons[4]
+
+
+def test_near_match_with_an_explicit_default_height_uses_the_default(tmp_path):
+    p = tmp_path / "cut.csv"
+    p.write_text("name,lat,lon,antenna_ag\nA,46.1,10.1,25\nB,46.2,10.2,30\n")
+    sites, _ = read_sites(p, default_agl_m=12.0)
+    assert sites.antenna_agl_m.tolist() == [12.0, 12.0]
+    assert "--agl-m 12 m for every site" in sites.describe_columns()
+
+
+def test_decimal_commas_in_a_comma_separated_file_get_a_hint(tmp_path):
+    p = tmp_path / "s.csv"
+    p.write_text("name,lat,lon\nA,46,1,10,1\nB,46.2,10.2\n")
+    with pytest.raises(InputError, match="line 2 has 5 cells but the header has 3; numbers with decimal commas"):
+        read_sites(p)
+
+
+def test_shapefile_cut_column_names_are_reported(tmp_path):
+    """A Shapefile keeps 10 characters of a field name: antenna_agl_m becomes antenna_ag."""
+    import warnings
+
+    gpd = pytest.importorskip("geopandas")
+    from shapely.geometry import Point
+
+    frame = gpd.GeoDataFrame({"name": ["A", "B"], "antenna_agl_m": [25.0, 30.0]},
+                             geometry=[Point(10.1, 46.1), Point(10.2, 46.2)], crs="EPSG:4326")
+    path = tmp_path / "sites.shp"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the writer warns that it cuts the name
+        frame.to_file(path)
+    with pytest.raises(InputError, match="'antenna_ag' looks like one"):
+        read_sites(path)

@@ -160,3 +160,40 @@ def test_other_gdal_format_ascii_grid(tmp_path):
         dst.write(arr, 1)
     z, _ = ElevationModel([path]).sample([10.025], [45.975])
     assert z[0] == pytest.approx(12.0)
+
+
+def test_unknown_band_unit_tag_is_refused_not_read_as_metres(raster_factory):
+    path = raster_factory("cm.tif", np.full((5, 5), 31000.0, dtype="float32"), unit="cm")
+    with pytest.raises(DataError, match=r"band unit 'cm' is not one terrahop knows \(known: m, metre"):
+        ElevationModel([path])
+    # Saying the unit explicitly overrides the tag.
+    z, _ = ElevationModel([path], vertical_unit="m").sample([10.002], [45.998])
+    assert z[0] == pytest.approx(31000.0)
+
+
+def test_different_stated_vertical_datums_are_refused(raster_factory):
+    a = raster_factory("egm96.tif", np.full((5, 5), 1.0, dtype="float32"), crs="EPSG:4326+5773")
+    b = raster_factory("egm08.tif", np.full((5, 5), 1.0, dtype="float32"), crs="EPSG:4326+3855")
+    c = raster_factory("plain.tif", np.full((5, 5), 1.0, dtype="float32"))
+    with pytest.raises(DataError, match="different vertical datums.*convert the rasters to one datum"):
+        ElevationModel([a, b])
+    assert len(ElevationModel([a, a]).sources) == 2  # the same datum twice is fine
+    assert len(ElevationModel([a, c]).sources) == 2  # a raster that states none is as before
+
+
+def test_longitudes_past_180_find_the_tile_across_the_dateline(raster_factory):
+    """A point at 180.07 (0..360 convention) lies on a tile stored as -180..-179.8."""
+    east = raster_factory("east.tif", np.arange(200 * 200, dtype="float32").reshape(200, 200),
+                          transform=from_origin(-180.0, 10.1, 0.001, 0.001))
+    model = ElevationModel([east])
+    z_wrapped, covered = model.sample([180.0705], [10.0505])
+    z_plain, _ = model.sample([-179.9295], [10.0505])
+    assert covered[0] and np.isfinite(z_wrapped[0])
+    assert z_wrapped[0] == pytest.approx(z_plain[0], abs=1e-6)
+    assert model.covers([180.07], [10.05])[0]
+    assert np.isfinite(model.cell_sizes_m([180.07], [10.05])[0])
+    # A tile stored in the 0..360 convention is found from -179.93 as well.
+    wide = raster_factory("wide.tif", np.full((200, 200), 7.0, dtype="float32"),
+                          transform=from_origin(180.0, 10.1, 0.001, 0.001))
+    z, covered = ElevationModel([wide]).sample([-179.93], [10.05])
+    assert covered[0] and z[0] == pytest.approx(7.0)

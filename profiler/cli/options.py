@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import contextlib
 import functools
-import math
 from dataclasses import dataclass
 from typing import Any, Callable, Iterator
 
@@ -61,13 +60,13 @@ def parse_lat_lon(text: str, what: str) -> tuple[float, float]:
         lat, lon = float(parts[0]), float(parts[1])
     except ValueError:
         raise click.BadParameter(f"{what} must be LAT,LON in decimal degrees, got {text!r}") from None
-    if not (math.isfinite(lat) and math.isfinite(lon)):
-        raise click.BadParameter(f"{what}: coordinates must be finite numbers, got {text!r}")
-    if not -90 <= lat <= 90:
-        raise click.BadParameter(f"{what}: latitude {lat} is outside -90..90 (give LAT first, then LON)")
-    if not -180 <= lon <= 360:
-        raise click.BadParameter(f"{what}: longitude {lon} is outside -180..180")
-    return lat, lon
+    from ..validation import normalise_positions, position_problem
+
+    problem = position_problem(lat, lon)
+    if problem is not None:
+        raise click.BadParameter(f"{what}: {problem}")
+    lat_n, lon_n = normalise_positions(lat, lon)
+    return float(lat_n), float(lon_n)
 
 
 def _site_callback(ctx: click.Context, param: click.Parameter, value: str | None):
@@ -251,7 +250,8 @@ link_input_options = _compose(
 
 
 def resolve_climate(
-    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False
+    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False,
+    source: str = "link file",
 ) -> Any:
     """ClimateSettings from flags over a link file's [climate] table; flags win.
 
@@ -261,7 +261,9 @@ def resolve_climate(
     from ..availability import ClimateSettings
     from ..losses.smooth_earth import resolve_polarisation
 
-    values = {name: _pick(opts.get(name), section, name) for name in CLIMATE_FLAGS}
+    values = {name: _checked(opts, section, name, flag=CLIMATE_FLAGS[name][0], table="climate", opt=name,
+                             source=source)
+              for name in CLIMATE_FLAGS}
     given = {k: v for k, v in values.items() if v is not None}
     names = set(given) | ({"polarisation"} if polarisation_given else set())
     if polarisation is not None:
@@ -296,45 +298,75 @@ def _pick(flag: Any, spec: dict, key: str, default: Any = None) -> Any:
     return spec.get(key, default)
 
 
-def resolve_radio(opts: dict[str, Any], section: dict[str, Any] | None = None) -> Any:
+def _checked(opts: dict[str, Any], section: dict[str, Any], key: str, *, flag: str, table: str,
+             name: str | None = None, default: Any = None, opt: str | None = None,
+             source: str = "link file") -> float | None:
+    """A flag over a link-file key, checked by the shared value rule; None when neither is given.
+
+    The message names the flag when the flag gave the value, else the link file and its table.
+    ``opt``: the option's key in ``opts`` when it is not the flag's name.
+    """
+    from ..validation import check_number
+
+    opt = opt or flag.lstrip("-").replace("-", "_")
+    if opts.get(opt) is not None:
+        tag = table.removeprefix("site_") if table.startswith("site_") else None
+        value, where = opts[opt], (f"site {tag} ({flag})" if tag else flag)
+    elif key in section:
+        value, where = section[key], f"{source or 'link file'} [{table}] {key}"
+    elif default is None:
+        return None
+    else:
+        return check_number(default, name or key)
+    return check_number(value, name or key, where)
+
+
+def resolve_radio(opts: dict[str, Any], section: dict[str, Any] | None = None, source: str = "link file") -> Any:
     """Radio settings from flags over a link file's [radio] table; flags win."""
     from ..budget import Radio
     from ..errors import InputError
 
     section = section or {}
-    radio_values = {k: _pick(opts.get(k), section, k) for k in RADIO_FLAGS}
+    radio_values = {k: _checked(opts, section, k, flag="--" + k.replace("_", "-"), table="radio", source=source)
+                    for k in RADIO_FLAGS}
     if radio_values["freq_ghz"] is None:
         raise InputError("frequency missing: give --freq-ghz or [radio] freq_ghz in the link file")
-    try:
-        return Radio(**{k: float(v) for k, v in radio_values.items() if v is not None}).validate()
-    except (TypeError, ValueError) as exc:
-        if isinstance(exc, InputError):
-            raise
-        raise InputError(f"radio settings must be numbers ({exc})") from None
+    return Radio(**{k: v for k, v in radio_values.items() if v is not None}).validate()
 
 
 def resolve_settings(
-    opts: dict[str, Any], an: dict[str, Any] | None = None, climate_section: dict[str, Any] | None = None
+    opts: dict[str, Any], an: dict[str, Any] | None = None, climate_section: dict[str, Any] | None = None,
+    source: str = "link file",
 ) -> Any:
     """Analysis settings (k, criterion, diffraction, climate) from flags over a link file's tables."""
     from ..errors import InputError
     from ..link import Criterion, Settings
+    from ..validation import check_k_pair
 
     an = an or {}
     defaults = Settings()
+    for key in ("diffraction_method", "polarisation", "ground"):
+        if key in an and not isinstance(an[key], str):
+            raise InputError(f"link file [analysis] {key} must be text, got {an[key]!r}")
     polarisation_given = opts.get("polarisation") is not None or "polarisation" in an
     polarisation = str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation))
-    climate = resolve_climate(climate_section or {}, opts, polarisation, polarisation_given)
+    climate = resolve_climate(climate_section or {}, opts, polarisation, polarisation_given, source)
+    k = parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k")
+    k_worst = parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst")
+    check_k_pair(k, k_worst)
+    spacing = _pick(opts.get("spacing_m"), an, "sample_spacing_m")
+    if isinstance(spacing, bool):
+        raise InputError(f"sample spacing must be a number of metres, got {spacing!r}")
     try:
         settings = Settings(
-            k=parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k"),
-            k_worst=parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst"),
-            spacing_m=_opt_float(_pick(opts.get("spacing_m"), an, "sample_spacing_m")),
+            k=k,
+            k_worst=k_worst,
+            spacing_m=_opt_float(spacing),
             criterion=Criterion(
-                min_f1_fraction=float(_pick(opts.get("min_f1_fraction"), an, "min_f1_fraction", 0.6)),
-                min_f1_fraction_worst=float(
-                    _pick(opts.get("min_f1_fraction_worst"), an, "min_f1_fraction_worst", 0.0)
-                ),
+                min_f1_fraction=_checked(opts, an, "min_f1_fraction", flag="--min-f1-fraction",
+                                         table="analysis", default=0.6, source=source),
+                min_f1_fraction_worst=_checked(opts, an, "min_f1_fraction_worst", flag="--min-f1-fraction-worst",
+                                               table="analysis", default=0.0, source=source),
             ),
             diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
             polarisation=polarisation,
@@ -353,6 +385,7 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
     from ..errors import InputError
     from ..io.linkfile import LinkSpec, read_link_file
     from ..link import Site
+    from ..validation import check_number
 
     spec = read_link_file(link_file) if link_file else LinkSpec(path="", title=None)
     rasters = tuple(opts.get("dem") or ()) or tuple(spec.terrain.get("rasters", ()))
@@ -366,24 +399,23 @@ def resolve_link(link_file: str | None, opts: dict[str, Any]) -> ResolvedLink:
         if lat is None or lon is None:
             raise InputError(f"site {tag}: position missing; give --site-{tag} LAT,LON or [site_{tag}] lat/lon")
         name = _pick(opts.get(f"name_{tag}"), s, "name", tag.upper())
-        agl = _pick(opts.get(f"agl_{tag}"), s, "antenna_agl_m", 10.0)
-        try:
-            return Site(str(name), float(lat), float(lon), float(agl)).validate(f"site {tag}")
-        except (TypeError, ValueError) as exc:
-            if isinstance(exc, InputError):
-                raise
-            raise InputError(f"site {tag}: lat, lon and antenna_agl_m must be numbers ({exc})") from None
+        agl = _checked(opts, s, "antenna_agl_m", flag=f"--agl-{tag}", table=f"site_{tag}", default=10.0,
+                       source=spec.path)
+        lat = check_number(lat, "latitude", f"site {tag}")
+        lon = check_number(lon, "longitude", f"site {tag}")
+        return Site(str(name), lat, lon, agl).validate(f"site {tag}")
 
     a, b = site("a"), site("b")
-    radio = resolve_radio(opts, spec.radio)
-    settings = resolve_settings(opts, spec.analysis, spec.climate)
+    radio = resolve_radio(opts, spec.radio, spec.path)
+    settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
     title = spec.title or f"{a.name} - {b.name}"
     urban = _resolve_urban(spec, opts)
     return ResolvedLink(
         title=title,
         rasters=rasters,
-        vertical_unit=_pick(opts.get("vertical_unit"), spec.terrain, "vertical_unit"),
-        nodata_fill_m=_opt_float(_pick(opts.get("nodata_fill_m"), spec.terrain, "nodata_fill_m")),
+        vertical_unit=_vertical_unit(opts, spec),
+        nodata_fill_m=_checked(opts, spec.terrain, "nodata_fill_m", flag="--nodata-fill-m", table="terrain",
+                               source=spec.path),
         site_a=a,
         site_b=b,
         radio=radio,
@@ -397,6 +429,7 @@ def _resolve_urban(spec: Any, opts: dict[str, Any]) -> dict[str, Any]:
     from ..errors import InputError
     from ..mounts import Mount
     from ..obstructions import LayerSpec, normalise_kind, parse_layer_spec
+    from ..validation import check_number
 
     ob = spec.obstructions
     height_field = _pick(opts.get("height_field"), ob, "height_field")
@@ -417,12 +450,8 @@ def _resolve_urban(spec: Any, opts: dict[str, Any]) -> dict[str, Any]:
         )
     surface = tuple(opts.get("surface") or ()) or tuple(spec.terrain.get("surface", ()))
     vertical_crs = _pick(opts.get("vertical_crs"), spec.terrain, "vertical_crs")
-    try:
-        allowance = float(_pick(opts.get("tree_allowance_m"), ob, "tree_allowance_m", 0.0))
-    except (TypeError, ValueError):
-        raise InputError(f"tree allowance must be a number of metres, got {ob.get('tree_allowance_m')!r}") from None
-    if not math.isfinite(allowance) or allowance < 0:
-        raise InputError(f"tree allowance must be 0 m or more, got {allowance!r}")
+    allowance = _checked(opts, ob, "tree_allowance_m", flag="--tree-allowance-m", table="obstructions",
+                         default=0.0, source=spec.path)
 
     def mount(tag: str) -> Any:
         section = getattr(spec, f"site_{tag}")
@@ -437,23 +466,16 @@ def _resolve_urban(spec: Any, opts: dict[str, Any]) -> dict[str, Any]:
                 keys = ", ".join(k for k in MOUNT_KEYS if k in section)
                 raise InputError(f"{spec.path}: [site_{tag}] gives several antenna heights ({keys}); keep one")
         ref, height = given[0] if given else ("ground", 10.0)
-        try:
-            height = float(height)
-        except (TypeError, ValueError):
-            raise InputError(f"site {tag}: antenna height must be a number of metres, got {height!r}") from None
+        key = {"ground": "antenna_agl_m", "roof": "antenna_above_roof_m", "elevation": "antenna_amsl_m",
+               "ellipsoid": "antenna_ellipsoidal_m"}[ref]
+        height = check_number(height, key, f"site {tag}")
         return Mount(ref, height, vertical_crs=vertical_crs).validate(f"site {tag}")
 
     def max_mast(tag: str) -> float | None:
         value = _pick(opts.get(f"max_mast_{tag}"), getattr(spec, f"site_{tag}"), "max_mast_m")
         if value is None:
             return None
-        try:
-            value = float(value)
-        except (TypeError, ValueError):
-            raise InputError(f"site {tag}: max_mast_m must be a number of metres, got {value!r}") from None
-        if not math.isfinite(value) or value < 0:
-            raise InputError(f"site {tag}: maximum mast height must be 0 m or more, got {value!r}")
-        return value
+        return check_number(value, "max_mast_m", f"site {tag}")
 
     return {
         "obstruction_layers": layers,
@@ -508,3 +530,20 @@ def analyse_resolved(resolved: ResolvedLink, model: Any, surroundings: Any, *, m
 
 def _opt_float(value: Any) -> float | None:
     return None if value is None else float(value)
+
+
+#: Vertical units accepted for --vertical-unit and [terrain] vertical_unit.
+VERTICAL_UNIT_CHOICES = ("m", "ft", "us-ft")
+
+
+def _vertical_unit(opts: dict[str, Any], spec: Any) -> str | None:
+    """--vertical-unit over [terrain] vertical_unit; InputError for anything but m, ft or us-ft."""
+    from ..errors import InputError
+
+    value = _pick(opts.get("vertical_unit"), spec.terrain, "vertical_unit")
+    if value is None:
+        return None
+    if not isinstance(value, str) or value.strip().lower() not in VERTICAL_UNIT_CHOICES:
+        raise InputError(f"{spec.path or 'link file'}: [terrain] vertical_unit must be one of "
+                         f"{', '.join(VERTICAL_UNIT_CHOICES)}, got {value!r}")
+    return value.strip().lower()

@@ -114,8 +114,8 @@ class _Progress:
 @click.option("--agl-col", default=None, help="Column of antenna heights above ground, m [default: antenna_agl_m].")
 @click.option("--gain-col", default=None, help="Column of antenna gains, dBi [default: gain_dbi if present].")
 @click.option("--max-mast-col", default=None, help="Column of the tallest mast allowed, m [default: max_mast_m if present].")
-@click.option("--agl-m", "default_agl_m", type=float, default=10.0, show_default=True,
-              help="Antenna height above ground where the file has no height column, m.")
+@click.option("--agl-m", "default_agl_m", type=float, default=None,
+              help="Antenna height above ground where the file has no height column, m [default: 10].")
 @click.option("--layer", default=None, help="Layer of a multi-layer sites file (GeoPackage).")
 @click.option("--min-margin-db", type=float, default=10.0, show_default=True,
               help="Fade margin a pair needs at the design k to count as viable, dB.")
@@ -150,8 +150,13 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         raise InputError("--resume and --restart contradict each other; give one")
     if pairs_file and hubs:
         raise InputError("--pairs and --hub choose pairs in different ways; give one")
-    if max_km is not None and max_km <= 0:
-        raise InputError(f"--max-km must be greater than 0, got {max_km}")
+    from ..validation import check_number
+
+    if max_km is not None:
+        check_number(max_km, "max_km", "--max-km")
+    check_number(min_margin_db, "min_margin_db", "--min-margin-db")
+    if opts.get("nodata_fill_m") is not None:
+        check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
     radio, settings = resolve_radio_settings(opts)
     sites, bad = read_sites(
         sites_file, name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
@@ -186,3 +191,4 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         click.echo(f"warning: {note}", err=True)
     if not quiet:
         click.echo(format_screen_summary(summary))
+        click.echo(f"columns: {sites.describe_columns()}")

@@ -36,6 +36,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     from ..io.pairs import parse_row_spec, read_pairs, select_pairs
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
+    from ..validation import same_place_problem
     from .options import resolve_link
 
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
@@ -52,10 +53,11 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
             try:
                 a = Site(r.name_a, r.lat_a, r.lon_a, _agl(opts.get("agl_a"), r.agl_a_m))
                 b = Site(r.name_b, r.lat_b, r.lon_b, _agl(opts.get("agl_b"), r.agl_b_m))
-                a.validate(f"row {r.row}: site a")
-                b.validate(f"row {r.row}: site b")
-                if (a.lat_deg, a.lon_deg) == (b.lat_deg, b.lon_deg):
-                    raise InputError(f"row {r.row}: site a and site b are at the same position")
+                a = a.validate(f"row {r.row}: site a")
+                b = b.validate(f"row {r.row}: site b")
+                gap = same_place_problem(a.lat_deg, a.lon_deg, b.lat_deg, b.lon_deg)
+                if gap is not None:
+                    raise InputError(f"row {r.row}: {gap}")
             except InputError as exc:
                 problem = str(exc)
         if problem is not None:

@@ -79,6 +79,16 @@ SECTION_KEYS: dict[str, set[str]] = {
 LAYER_KEYS = {"file", "layer", "kind", "height_field", "top_field"}
 TOP_KEYS = {"title", "notes"}
 
+#: Keys that hold text; any other type is refused with the file, table and key.
+TEXT_KEYS = {"name", "vertical_unit", "vertical_crs", "diffraction_method", "polarisation", "ground",
+             "height_field", "top_field"}
+#: Keys that hold a number (k and k_worst may also be a fraction written as text, e.g. "4/3").
+NUMBER_KEYS = {key for table in ("radio", "climate") for key in SECTION_KEYS[table]} | {
+    "nodata_fill_m", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
+    "antenna_ellipsoidal_m", "max_mast_m", "k", "k_worst", "sample_spacing_m", "min_f1_fraction",
+    "min_f1_fraction_worst", "tree_allowance_m",
+}
+
 
 @dataclass(frozen=True)
 class LinkSpec:
@@ -121,6 +131,7 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
                 f"{p}: unknown key or section {key!r}; allowed: "
                 f"{', '.join(sorted(TOP_KEYS | set(SECTION_KEYS)))}"
             )
+    _check_types(p, data)
     terrain = dict(data.get("terrain", {}))
     rasters = terrain.get("rasters", [])
     if isinstance(rasters, str):
@@ -147,6 +158,30 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         obstructions=obstructions,
         climate=dict(data.get("climate", {})),
     )
+
+
+def _check_types(p: Path, data: dict[str, Any]) -> None:
+    """InputError for a value of the wrong type: a boolean or text where a number is due, a number for text.
+
+    (``freq_ghz = true`` was read as 1 GHz.)  Ranges are checked later by
+    :mod:`profiler.validation`, where flags and file values meet.
+    """
+    if "title" in data and not isinstance(data["title"], str):
+        raise InputError(f"{p}: title must be text in quotes, got {data['title']!r}")
+    for table, section in data.items():
+        if table not in SECTION_KEYS:
+            continue
+        for key, value in section.items():
+            if key in NUMBER_KEYS:
+                text_ok = key in ("k", "k_worst")
+                if isinstance(value, bool) or not isinstance(value, (int, float, str) if text_ok else (int, float)):
+                    shown = str(value).lower() if isinstance(value, bool) else repr(value)
+                    raise InputError(
+                        f"{p}: [{table}] {key} must be a number, got {shown}"
+                        + (" (true/false are not numbers)" if isinstance(value, bool) else "")
+                    )
+            elif key in TEXT_KEYS and not isinstance(value, str):
+                raise InputError(f"{p}: [{table}] {key} must be text in quotes, got {value!r}")
 
 
 def _obstructions(p: Path, section: dict[str, Any]) -> dict[str, Any]:

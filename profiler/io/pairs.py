@@ -242,6 +242,10 @@ def _make_row(n: int, rec: dict, found: dict[str, str], geom: Any) -> PairRow:
     )
 
 
+#: Most rows one selection may name (each becomes a sheet page), so memory stays bounded.
+MAX_SELECTED_ROWS = 100_000
+
+
 def parse_row_spec(spec: str) -> list[int]:
     """'1,3,5-7' -> [1, 3, 5, 6, 7] (1-based data rows); InputError if garbled."""
     out: list[int] = []
@@ -255,6 +259,9 @@ def parse_row_spec(spec: str) -> list[int]:
         hi = int(m.group(2) or lo)
         if lo < 1 or hi < lo:
             raise InputError(f"row selection {part!r}: rows count from 1 and ranges go upwards")
+        if len(out) + hi - lo + 1 > MAX_SELECTED_ROWS:
+            raise InputError(f"row selection {spec!r} names more than {MAX_SELECTED_ROWS:,} rows; "
+                             "select fewer rows (one sheet page each)")
         out.extend(range(lo, hi + 1))
     if not out:
         raise InputError(f"row selection {spec!r} selects no rows")

@@ -4,20 +4,29 @@ Each row is one candidate site: a name, a position, an antenna height above
 ground and, optionally, an antenna gain and the tallest mast allowed there.
 Other columns are carried through to the outputs.  Rows that cannot be used
 (unparseable or out-of-range coordinates, missing or duplicate names,
-negative heights) are returned as :class:`BadRow` with their row number and
-skipped; reading goes on.
+heights outside the shared ranges of :mod:`profiler.validation`) are
+returned as :class:`BadRow` with their row number and skipped; reading goes on.
+
+CSV files may be separated by commas, semicolons or tabs (sniffed from the
+header); with semicolons or tabs a decimal comma (``45,5``) is read as a
+decimal point.  A blank optional cell (gain, mast limit) means "not given".
+Longitudes in 0..360 are folded into -180..180.
 """
 
 from __future__ import annotations
 
+import csv
+import difflib
 import os
-from dataclasses import dataclass
+import re
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Sequence
 
 import numpy as np
 
 from ..errors import DataFileError, InputError
+from ..validation import check_number, check_numbers, normalise_lon, position_problems
 
 __all__ = ["SiteTable", "BadRow", "read_sites", "read_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
 
@@ -32,6 +41,15 @@ DEFAULT_COLUMNS: dict[str, tuple[str, ...]] = {
     "gain": ("gain_dbi", "antenna_gain_dbi"),
     "max_mast": ("max_mast_m", "max_agl_m"),
 }
+
+#: Antenna height above ground used for every site when the file has no height column, m.
+DEFAULT_AGL_M = 10.0
+
+#: The option naming the column of each role (for messages).
+_ROLE_OPTIONS = {"name": "--name-col", "lat": "--lat-col", "lon": "--lon-col", "agl": "--agl-col",
+                 "gain": "--gain-col", "max_mast": "--max-mast-col"}
+_ROLE_WORDS = {"name": "name", "lat": "latitude", "lon": "longitude", "agl": "antenna height",
+               "gain": "antenna gain", "max_mast": "mast limit"}
 
 
 @dataclass(frozen=True)
@@ -67,6 +85,15 @@ class SiteTable:
     max_mast_m: np.ndarray | None
     rows: np.ndarray
     extra: Any
+    #: Role (name, lat, lon, agl, gain, max_mast) -> the column it came from, or a sentence
+    #: such as "--agl-m 10 m for every site (no height column)".
+    columns: dict[str, str] = field(default_factory=dict)
+
+    def describe_columns(self) -> str:
+        """One line saying which column each role came from and which default served every site."""
+        parts = [f"{_ROLE_WORDS[r]} from {c if c.startswith('--') or ' ' in c else repr(c)}"
+                 for r, c in self.columns.items()]
+        return f"{self.source}: " + "; ".join(parts)
 
     def __len__(self) -> int:
         return int(self.names.shape[0])
@@ -80,11 +107,12 @@ class SiteTable:
             source=self.source, names=self.names[keep], lat_deg=self.lat_deg[keep],
             lon_deg=self.lon_deg[keep], antenna_agl_m=self.antenna_agl_m[keep],
             gain_dbi=pick(self.gain_dbi), max_mast_m=pick(self.max_mast_m),
-            rows=self.rows[keep], extra=extra,
+            rows=self.rows[keep], extra=extra, columns=self.columns,
         )
 
 
-def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool) -> str | None:
+def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool,
+          default_given: bool = False) -> str | None:
     if given is not None:
         if given not in columns:
             raise InputError(
@@ -95,6 +123,15 @@ def _find(columns: Sequence[str], role: str, given: str | None, source: str, req
     for candidate in DEFAULT_COLUMNS[role]:
         if candidate in lower:
             return lower[candidate]
+    near = None if default_given else _near_match(columns, role)
+    if near is not None:
+        # e.g. a Shapefile cuts antenna_agl_m to antenna_ag; guessing would be silent, a default wrong.
+        raise InputError(
+            f"{source}: no column named {' or '.join(DEFAULT_COLUMNS[role][:2])} for the site "
+            f"{_ROLE_WORDS[role]}, but column {near!r} looks like one (Shapefiles cut names at 10 characters); "
+            f"name it with {_ROLE_OPTIONS[role]} {near}"
+            + (", or give --agl-m to use one height for every site" if role == "agl" else "")
+        )
     if required:
         raise InputError(
             f"{source}: cannot tell which column holds the site {role}; tried "
@@ -104,10 +141,49 @@ def _find(columns: Sequence[str], role: str, given: str | None, source: str, req
     return None
 
 
-def _numbers(values: Any) -> np.ndarray:
+def _norm(name: str) -> str:
+    return re.sub(r"[^a-z0-9]+", "_", str(name).strip().lower()).strip("_")
+
+
+def _near_match(columns: Sequence[str], role: str) -> str | None:
+    """A column that looks like a cut or misspelt default name of ``role``, or None."""
+    for c in columns:
+        n = _norm(c)
+        for candidate in DEFAULT_COLUMNS[role]:
+            if n == candidate:
+                continue
+            truncated = len(n) >= 6 and candidate.startswith(n)
+            if truncated or difflib.SequenceMatcher(None, n, candidate).ratio() >= 0.88:
+                return c
+    return None
+
+
+_DECIMAL_COMMA = re.compile(r"^\s*[+-]?\d*,\d+\s*$")
+
+
+def _numbers(values: Any, decimal_comma: bool = False) -> np.ndarray:
+    """Cells as floats, NaN where not a number; ``decimal_comma`` reads 45,5 as 45.5."""
     import pandas as pd
 
-    return pd.to_numeric(pd.Series(values).astype(str).str.strip(), errors="coerce").to_numpy(dtype=float)
+    text = pd.Series(values).astype(str).str.strip()
+    if decimal_comma:
+        text = text.where(~text.str.match(_DECIMAL_COMMA), text.str.replace(",", ".", regex=False))
+    return pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+
+
+def _sniff_separator(p: Path) -> str:
+    """Comma, semicolon or tab, from the header line (as the pair-table reader does)."""
+    if p.suffix.lower() == ".tsv":
+        return "\t"
+    try:
+        with open(p, encoding="utf-8-sig", errors="replace") as fh:
+            header = fh.readline()
+    except OSError:
+        return ","
+    try:
+        return csv.Sniffer().sniff(header, delimiters=",;\t").delimiter
+    except csv.Error:
+        return ","
 
 
 def read_sites(
@@ -119,7 +195,7 @@ def read_sites(
     agl_col: str | None = None,
     gain_col: str | None = None,
     max_mast_col: str | None = None,
-    default_agl_m: float = 10.0,
+    default_agl_m: float | None = None,
     layer: str | None = None,
 ) -> tuple[SiteTable, list[BadRow]]:
     """Read candidate sites from a CSV file or a point layer (GeoPackage, GeoJSON, Shapefile...).
@@ -127,21 +203,30 @@ def read_sites(
     CSV positions are WGS84 decimal degrees in the latitude and longitude
     columns; layer positions come from the point geometry in any CRS
     (reprojected to WGS84).  Antenna height comes from a column or
-    ``default_agl_m``.  Returns the usable sites and the skipped rows.
+    ``default_agl_m`` (None: :data:`DEFAULT_AGL_M`).  Returns the usable
+    sites and the skipped rows; ``SiteTable.columns`` says where each role came from.
     """
     import pandas as pd
 
+    if default_agl_m is not None:
+        check_number(default_agl_m, "antenna_agl_m", "--agl-m")
     p = Path(path)
     source = p.name
     if not p.exists():
         raise DataFileError(f"sites file not found: {p}")
     geometry = None
+    decimal_comma = False
     if p.suffix.lower() in CSV_SUFFIXES:
-        sep = "\t" if p.suffix.lower() == ".tsv" else ","
+        sep = _sniff_separator(p)
+        decimal_comma = sep != ","
+        _check_field_counts(p, sep)
         try:
-            frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True)
+            frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True,
+                                encoding="utf-8-sig", index_col=False)
         except (pd.errors.ParserError, UnicodeDecodeError) as exc:
-            raise InputError(f"{p}: not a readable CSV table ({exc})") from None
+            hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
+                    if sep == "," and isinstance(exc, pd.errors.ParserError) else "")
+            raise InputError(f"{p}: not a readable CSV table ({str(exc).strip()}){hint}") from None
         except pd.errors.EmptyDataError:
             raise InputError(f"{p}: the sites file is empty") from None
         rows = np.arange(len(frame)) + 2  # header on line 1
@@ -160,7 +245,7 @@ def read_sites(
     columns = [str(c) for c in frame.columns]
     frame.columns = columns
     name_c = _find(columns, "name", name_col, source, required=True)
-    agl_c = _find(columns, "agl", agl_col, source, required=False)
+    agl_c = _find(columns, "agl", agl_col, source, required=False, default_given=default_agl_m is not None)
     gain_c = _find(columns, "gain", gain_col, source, required=False)
     mast_c = _find(columns, "max_mast", max_mast_col, source, required=False)
     n = len(frame)
@@ -174,8 +259,8 @@ def read_sites(
     if geometry is None:
         lat_c = _find(columns, "lat", lat_col, source, required=True)
         lon_c = _find(columns, "lon", lon_col, source, required=True)
-        lat = _numbers(frame[lat_c])
-        lon = _numbers(frame[lon_c])
+        lat = _numbers(frame[lat_c], decimal_comma)
+        lon = _numbers(frame[lon_c], decimal_comma)
         raw_lat, raw_lon = frame[lat_c].to_numpy(), frame[lon_c].to_numpy()
         flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
         flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
@@ -191,30 +276,39 @@ def read_sites(
         lat[point] = geometry[point].y.to_numpy()
         lon[point] = geometry[point].x.to_numpy()
         used = {name_c}
-    flag(np.isfinite(lat) & ((lat < -90) | (lat > 90)), lambda k: f"latitude {lat[k]} is outside -90..90 degrees")
-    flag(np.isfinite(lon) & ((lon < -180) | (lon > 180)), lambda k: f"longitude {lon[k]} is outside -180..180 degrees")
+    where = {"name": name_c}
+    if geometry is None:
+        where.update(lat=lat_c, lon=lon_c)
+    else:
+        where.update(lat="the point geometry", lon="the point geometry")
+    # One position rule for every entry point (profiler.validation); 0..360 folded to -180..180.
+    position = position_problems(lat, lon)
+    flag(np.isfinite(lat) & np.isfinite(lon) & np.array([r is not None for r in position], dtype=bool),
+         lambda k: position[k])
+    lon = normalise_lon(lon)
     names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
     flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
     if agl_c is not None:
-        agl = _numbers(frame[agl_c])
+        agl = _numbers(frame[agl_c], decimal_comma)
         raw = frame[agl_c].to_numpy()
         flag(~np.isfinite(agl), lambda k: f"antenna height {raw[k]!r} is not a number")
-        flag(np.isfinite(agl) & (agl < 0), lambda k: f"antenna height {agl[k]} m is negative")
+        agl_range = check_numbers(np.where(np.isfinite(agl), agl, 0.0), "antenna_agl_m")
+        flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: agl_range[k])
         used.add(agl_c)
+        where["agl"] = agl_c
     else:
-        agl = np.full(n, float(default_agl_m))
-    gain = None
+        height = DEFAULT_AGL_M if default_agl_m is None else float(default_agl_m)
+        agl = np.full(n, height)
+        given = "--agl-m" if default_agl_m is not None else "default"
+        where["agl"] = f"{given} {height:g} m for every site (no height column)"
+    gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
     if gain_c is not None:
-        gain = _numbers(frame[gain_c])
-        raw_g = frame[gain_c].to_numpy()
-        flag(~np.isfinite(gain), lambda k: f"antenna gain {raw_g[k]!r} is not a number")
         used.add(gain_c)
-    mast = None
+        where["gain"] = gain_c
+    mast = _optional(frame, mast_c, "maximum mast height", "max_mast_m", decimal_comma, flag)
     if mast_c is not None:
-        mast = _numbers(frame[mast_c])
-        raw_m = frame[mast_c].to_numpy()
-        flag(~np.isfinite(mast), lambda k: f"maximum mast height {raw_m[k]!r} is not a number")
         used.add(mast_c)
+        where["max_mast"] = mast_c
     first_row: dict[str, int] = {}
     for k, nm in enumerate(names):
         if reasons[k] is not None:
@@ -238,8 +332,46 @@ def read_sites(
         max_mast_m=None if mast is None else mast[keep],
         rows=rows[keep],
         extra=extra,
+        columns=where,
     )
     return table, bad
+
+
+def _check_field_counts(p: Path, sep: str) -> None:
+    """InputError naming the first line with more cells than the header.
+
+    pandas would otherwise take the extra leading cells as an index and shift
+    every value of that row (a site named '1' at the wrong place).
+    """
+    try:
+        with open(p, encoding="utf-8-sig", newline="") as fh:
+            reader = csv.reader(fh, delimiter=sep)
+            header = next(reader, None)
+            if header is None:
+                return
+            for line, cells in enumerate(reader, start=2):
+                if len(cells) > len(header):
+                    hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
+                            if sep == "," else "")
+                    raise InputError(f"{p}: line {line} has {len(cells)} cells but the header has "
+                                     f"{len(header)}{hint}")
+    except UnicodeDecodeError:
+        return  # reported by the reader below
+    except csv.Error as exc:
+        raise InputError(f"{p}: not a readable CSV table ({exc})") from None
+
+
+def _optional(frame: Any, column: str | None, what: str, limit: str, decimal_comma: bool, flag) -> np.ndarray | None:
+    """An optional numeric column: blank cells are NaN ("not given"); garbage and out-of-range values flag the row."""
+    if column is None:
+        return None
+    values = _numbers(frame[column], decimal_comma)
+    raw = frame[column].astype(str).str.strip().to_numpy()
+    blank = raw == ""
+    flag(~np.isfinite(values) & ~blank, lambda k: f"{what} {raw[k]!r} is not a number")
+    ranges = check_numbers(np.where(np.isfinite(values), values, 0.0), limit)
+    flag(np.array([r is not None for r in ranges], dtype=bool), lambda k: f"{what}: {ranges[k]}")
+    return values
 
 
 def read_pairs(
@@ -258,7 +390,8 @@ def read_pairs(
     if not p.exists():
         raise DataFileError(f"pairs file not found: {p}")
     try:
-        frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True)
+        frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True, sep=_sniff_separator(p),
+                            encoding="utf-8-sig")
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
         raise InputError(f"{p}: not a readable CSV pairs file ({exc})") from None
     cols = [str(c) for c in frame.columns]

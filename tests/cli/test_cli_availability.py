@@ -53,7 +53,7 @@ def test_summary_shows_availability(cli):
 @pytest.mark.parametrize(
     "flags,words",
     [
-        (["--target-availability-pct", "99.9999"], "0.001-1 %"),
+        (["--target-availability-pct", "99.9999"], "between 99 and 99.999 %"),
         (["--rain-rate-mm-h", "-5"], "rain_rate_mm_h"),
         (["--terrain-roughness-m", "-1"], "terrain_roughness_m"),
         (["--pressure-hpa", "0"], "pressure_hpa"),

@@ -35,9 +35,9 @@ def base(*extra):
          ["--site-a", "LAT,LON"]),
         (["link", "--dem", str(DEMO_DEM), "--site-a", "-130.4,-20.9", "--site-b", BRACKWELL, "--freq-ghz", "5"],
          ["latitude"]),
-        (base()[:-2] + ["--freq-ghz", "0"], ["freq_ghz", "greater than 0"]),
+        (base()[:-2] + ["--freq-ghz", "0"], ["freq_ghz", "between 0.03 and 1000 GHz"]),
         (base()[:-2] + ["--freq-ghz", "-2.4"], ["freq_ghz"]),
-        (base("--k", "0"), ["k", "greater than 0"]),
+        (base("--k", "0"), ["k", "between 0.1 and 100"]),
         (base("--k-worst", "-1"), ["k_worst"]),
         (base("--agl-a", "-5"), ["antenna height", "site a"]),
         (["link", "--site-a", ORRIN, "--site-b", BRACKWELL, "--freq-ghz", "5"], ["no elevation raster"]),
@@ -82,7 +82,7 @@ def test_nodata_on_path_names_distance(cli, tmp_path):
         ("[site_a]\nname='x'\nlat=1\nlon=2\nheight=3\n", ["unknown key", "height"]),
         ("[sites]\n", ["unknown key or section", "sites"]),
         ("[radio]\nfreq_ghz='five'\n[site_a]\nlat=-30.42\nlon=-20.97\n[site_b]\nlat=-30.40\nlon=-20.91\n"
-         f"[terrain]\nrasters=['{DEMO_DEM}']\n", ["radio settings must be numbers"]),
+         f"[terrain]\nrasters=['{DEMO_DEM}']\n", ["[radio] freq_ghz", "must be a number"]),
     ],
 )
 def test_bad_link_files(cli, tmp_path, content, words):

@@ -125,7 +125,7 @@ def test_pairs_table_draws_the_best_links_as_svg(tmp_path):
     (["sheet", CLEAR, "--best", "2", "-o", "x.pdf"], "give the table with --pairs"),
     (["sheet", CLEAR, BLOCKED, "--pairs", CLEAR, "-o", "x.pdf"], "at most one link file"),
     (["sheet", "--pairs", "nope.csv", "--dem", "x.tif", "-o", "x.pdf"], "pair table not found: nope.csv"),
-    (["sheet", CLEAR, "--freq-ghz", "-3", "-o", "x.pdf"], "freq_ghz must be greater than 0"),
+    (["sheet", CLEAR, "--freq-ghz", "-3", "-o", "x.pdf"], "frequency (freq_ghz) must lie between 0.03 and 1000 GHz"),
     (["sheet", "--site-a", "1,2", "--site-b", "1,3", "-o", "x.pdf"], "no elevation raster"),
 ])
 def test_bad_inputs_give_one_line_errors(args, message, tmp_path, monkeypatch):
