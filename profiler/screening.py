@@ -665,8 +665,8 @@ def screen(
     is called after each committed chunk.  With ``resume`` an interrupted run
     of the same inputs continues; without it a leftover staging folder is an
     error unless ``restart`` discards it.  An existing result is replaced
-    only with ``overwrite``.  Outputs that would land on ``inputs`` (or on
-    the sites file or a raster) are refused; a second run on the same output
+    only with ``overwrite``.  Outputs that would land on ``inputs`` (the
+    sites and pairs files) or on a raster are refused; a second run on the same output
     while one is alive is refused (see :mod:`profiler.io.stage`).
     """
     t0 = time.perf_counter()
@@ -677,7 +677,8 @@ def screen(
     from .io.screen_output import check_output_path, check_outputs_spare_inputs
 
     check_output_path(out)
-    check_outputs_spare_inputs(out, [*inputs, sites.source, *(s.path for s in model.sources)])
+    # sites.source is only a file name, so the sites file's path comes in ``inputs``.
+    check_outputs_spare_inputs(out, [*inputs, *(s.path for s in model.sources)])
     bad = list(bad_rows)
     covered = model.covers(sites.lon_deg, sites.lat_deg)
     for k in np.flatnonzero(~covered):
@@ -728,7 +729,13 @@ class _Run:
         from .io.screen_output import output_paths
 
         stage = self.stage
-        renames = pending_renames(stage) if stage.exists() else None
+        renames = None
+        if stage.exists():
+            try:
+                renames = pending_renames(stage)
+            except InputError:
+                if not restart:  # --restart is the advice: it must get past a damaged marker
+                    raise
         if renames is not None:
             # The last run crashed between its renames: put its complete pair of files in place.
             from .io.stage import finish_renames

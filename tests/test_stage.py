@@ -236,6 +236,8 @@ def test_damaged_finish_marker_is_refused(tmp_path, sites, monkeypatch):
     (screening.staging_folder(out) / "finish.json").write_text('{"renames": 5}')
     with pytest.raises(StageDamaged, match="finish.json"):
         _run(sites, out, resume=True)
+    summary = _run(sites, out, restart=True)  # the advice given gets past it
+    assert summary.pairs > 0 and not screening.staging_folder(out).exists()
 
 
 def test_error_rows_carry_null_figures(tmp_path):
