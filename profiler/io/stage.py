@@ -245,7 +245,20 @@ class Stage:
         return self.folder / "columns" / f"{name}.bin"
 
     def exists(self) -> bool:
-        return self.folder.exists()
+        """True when a staging folder is there; InputError when that path is something else.
+
+        A file, or a folder with none of a stage's files, is not ours to
+        resume or to remove.
+        """
+        if not (self.folder.exists() or self.folder.is_symlink()):
+            return False
+        ours = self.folder.is_dir() and not self.folder.is_symlink() and any(
+            (self.folder / name).exists() for name in ("manifest.json", "progress.json", "columns"))
+        if not ours:
+            raise InputError(
+                f"{self.folder} exists and is not a terrahop staging folder; move it or choose another --out"
+            )
+        return True
 
     # -- life cycle
     def create(self, manifest: dict) -> None:
@@ -261,7 +274,7 @@ class Stage:
         self._commit(0, 0)
 
     def discard(self) -> None:
-        if self.folder.exists():
+        if self.folder.is_dir() and not self.folder.is_symlink():
             shutil.rmtree(self.folder)
 
     def _damaged(self, what: str) -> StageDamaged:

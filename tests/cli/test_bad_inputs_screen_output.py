@@ -229,3 +229,22 @@ def test_a_live_run_on_the_same_output(tmp_path, sites, live_lock, flags):
                          inputs=[sites, tmp_path / "r.csv.lock"])
     assert "--resume" not in out.stderr
     assert not (tmp_path / "r.csv.partial").exists()
+
+
+# --------------------------------------------------------------------------- a staging path that is not ours
+
+@pytest.mark.parametrize("flags", [[], ["--restart"], ["--resume"]])
+def test_a_file_where_the_staging_folder_goes_is_left_alone(tmp_path, sites, flags):
+    mine = tmp_path / "r.csv.partial"
+    mine.write_text("a planner's own notes\n")
+    assert_refused(_screen(sites, tmp_path / "r.csv", *flags), ["not a terrahop staging folder"],
+                   inputs=[sites, mine])
+
+
+def test_a_folder_of_other_files_where_the_staging_folder_goes_is_left_alone(tmp_path, sites):
+    mine = tmp_path / "r.csv.partial"
+    mine.mkdir()
+    (mine / "survey.txt").write_text("tower survey\n")
+    assert_refused(_screen(sites, tmp_path / "r.csv", "--restart"), ["not a terrahop staging folder"],
+                   inputs=[sites, mine])
+    assert (mine / "survey.txt").exists()
