@@ -678,7 +678,7 @@ def screen(
 
     check_output_path(out)
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
-    check_outputs_spare_inputs(out, [*inputs, *(s.path for s in model.sources)])
+    check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
     bad = list(bad_rows)
     covered = model.covers(sites.lon_deg, sites.lat_deg)
     for k in np.flatnonzero(~covered):
@@ -697,6 +697,22 @@ def screen(
             return run.compute(executor, inflight_max, progress)
         finally:
             executor.close(cancel=True)
+
+
+def _raster_files(model: ElevationModel) -> list[str]:
+    """Every file the rasters read, the sources of a VRT included."""
+    files = []
+    for s in model.sources:
+        files.append(s.path)
+        if str(s.path).lower().endswith(".vrt"):
+            import rasterio
+
+            try:
+                with rasterio.open(s.path) as ds:
+                    files += [f for f in ds.files if f != s.path]
+            except Exception:  # noqa: BLE001 - opened before; the model reports read errors itself
+                pass
+    return files
 
 
 def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:

@@ -248,3 +248,28 @@ def test_a_folder_of_other_files_where_the_staging_folder_goes_is_left_alone(tmp
     assert_refused(_screen(sites, tmp_path / "r.csv", "--restart"), ["not a terrahop staging folder"],
                    inputs=[sites, mine])
     assert (mine / "survey.txt").exists()
+
+
+def test_out_is_a_source_of_a_vrt(tmp_path, sites):
+    import rasterio
+    from xml.sax.saxutils import escape
+
+    tile = tmp_path / "tile.gpkg"  # a GeoTIFF under another name: GDAL opens it by its content
+    shutil.copy(DEMO_DEM, tile)
+    vrt = tmp_path / "dem.vrt"
+    with rasterio.open(tile) as ds:
+        gt = ", ".join(repr(v) for v in ds.transform.to_gdal())
+        kind = {"float32": "Float32", "float64": "Float64", "int16": "Int16", "int32": "Int32",
+                "uint16": "UInt16"}[ds.dtypes[0]]
+        nodata = "" if ds.nodata is None else f"<NoDataValue>{ds.nodata!r}</NoDataValue>"
+        vrt.write_text(
+            f'<VRTDataset rasterXSize="{ds.width}" rasterYSize="{ds.height}">'
+            f"<SRS>{escape(ds.crs.to_wkt())}</SRS><GeoTransform>{gt}</GeoTransform>"
+            f'<VRTRasterBand dataType="{kind}" band="1">{nodata}<SimpleSource>'
+            '<SourceFilename relativeToVRT="1">tile.gpkg</SourceFilename><SourceBand>1</SourceBand>'
+            "</SimpleSource></VRTRasterBand></VRTDataset>"
+        )
+    with rasterio.open(vrt) as ds:
+        assert any(f.endswith("tile.gpkg") for f in ds.files)
+    assert_refused(_screen(sites, tile, dem=vrt), ["would overwrite the input", "tile.gpkg"],
+                   inputs=[sites, tile, vrt])
