@@ -20,7 +20,7 @@ from profiler.link import Settings
 from profiler.screening import PairPlan, screen
 from profiler.terrain import ElevationModel
 
-from tests._screening_data import DEMO_DEM, random_sites_csv
+from tests._screening_data import DEMO_DEM, REPO, random_sites_csv
 
 RADIO = Radio(5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
 
@@ -55,7 +55,7 @@ def test_a_lock_held_by_a_dead_process_is_free(tmp_path):
     path = tmp_path / "r.csv.lock"
     code = ("import sys, os; from profiler.io.stage import RunLock; RunLock(sys.argv[1], 'r').acquire(); "
             "os._exit(0)")  # ends without releasing: the OS drops the lock
-    env = dict(os.environ, PYTHONPATH=str(__import__("tests._screening_data").__file__).rsplit("/tests/", 1)[0])
+    env = dict(os.environ, PYTHONPATH=str(REPO))
     subprocess.run([sys.executable, "-c", code, str(path)], check=True, env=env)
     assert path.exists()
     with RunLock(path, "r.csv"):

@@ -126,7 +126,7 @@ class _Progress:
               help="Run the chunks on a Dask cluster at this address (tcp://host:8786); workers must reach the rasters by the same paths.")
 @click.option("--chunk-pairs", type=int, default=2000, show_default=True,
               help="Pairs per chunk (unit of work, of progress and of resumption).")
-@click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command.")
+@click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command (refused while a run on RESULT is alive).")
 @click.option("--restart", is_flag=True, help="Discard an interrupted run's partial results and start again.")
 @click.option("--overwrite", is_flag=True,
               help="Replace an existing result (and its -sites file); the old files stay until the new "
