@@ -155,7 +155,8 @@ def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, wo
         if method:
             settings = Settings(spacing_m=SPACING_M, diffraction_method=method)
         return screen(sites, model, Radio(5.8, gain_a_dbi=30, gain_b_dbi=30), settings,
-                      out, plan=PairPlan(max_km=max_km, explicit=explicit), workers=workers, restart=True)
+                      out, plan=PairPlan(max_km=max_km, explicit=explicit), workers=workers, restart=True,
+                      overwrite=True)
 
 
 def baseline(dem: Path, pairs: tuple[np.ndarray, ...], n: int) -> tuple[float, int]:
@@ -275,7 +276,7 @@ def main() -> None:
 
         cmd = [sys.executable, "-m", "profiler", "screen", str(mem_sites), "--dem", str(dem),
                "--freq-ghz", "5.8", "--gain-a-dbi", "30", "--gain-b-dbi", "30", "--spacing-m", str(SPACING_M),
-               "--max-km", "40", "--out", str(folder / "memory.gpkg"), "--restart", "--workers", str(args.workers)]
+               "--max-km", "40", "--out", str(folder / "memory.gpkg"), "--restart", "--overwrite", "--workers", str(args.workers)]
         if args.diffraction:
             cmd += ["--diffraction", args.diffraction]
         env = dict(os.environ, PYTHONPATH=str(Path(__file__).resolve().parents[1]))

@@ -17,7 +17,6 @@ import dataclasses
 import hashlib
 import json
 import os
-import shutil
 import sys
 import threading
 import time
@@ -32,6 +31,7 @@ from .budget import Radio
 from .errors import InputError
 from .geodesy import WGS84
 from .io.sites import BadRow, SiteTable
+from .io.stage import RunLock, Stage, lock_path, pending_renames, staging_folder
 from .link import LinkBatch, Settings, SiteColumns, analyse_links
 from .terrain import ElevationModel
 from .units import EARTH_RADIUS_M
@@ -371,7 +371,28 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     )
     for name, values in _availability_columns(av, n).items():
         out[name][:] = values
+    _blank_error_rows(out)
     return out, problems
+
+
+#: Columns an error row keeps: they come from the two positions alone, not from the terrain.
+KEPT_IN_ERROR_ROWS = frozenset({"pair", "a", "b", "status", "distance_km", "azimuth_a_to_b_deg",
+                                "azimuth_b_to_a_deg", "samples", "spacing_m"})
+
+
+def _blank_error_rows(out: dict[str, np.ndarray]) -> None:
+    """NaN in every figure of a pair that could not be profiled (the engine's numbers are meaningless there).
+
+    Flag columns (u1) cannot hold NaN: the writer shows them empty for error rows.
+    """
+    bad = out["status"] != 0
+    if not bad.any():
+        return
+    for name, dt in COLUMNS.items():
+        if dt == "f8" and name not in KEPT_IN_ERROR_ROWS:
+            out[name][bad] = np.nan
+        elif dt == "u1":
+            out[name][bad] = 0
 
 
 def _radio_freq(radio: Radio, n: int) -> np.ndarray:
@@ -575,113 +596,8 @@ class _DaskPool:
 
 # --------------------------------------------------------------------------- staging
 
-class Stage:
-    """Append-only column files beside the output, committed chunk by chunk.
-
-    ``progress.json`` (written atomically) says how many rows are final; rows
-    written after it by an interrupted run are cut away on resume.
-    """
-
-    def __init__(self, folder: Path) -> None:
-        self.folder = folder
-        self.files: dict[str, Any] = {}
-
-    @property
-    def progress_path(self) -> Path:
-        return self.folder / "progress.json"
-
-    def read_progress(self) -> dict:
-        with open(self.progress_path) as fh:
-            return json.load(fh)
-
-    def create(self, manifest: dict) -> None:
-        if self.folder.exists():
-            shutil.rmtree(self.folder)
-        (self.folder / "columns").mkdir(parents=True)
-        _write_json(self.folder / "manifest.json", manifest)
-        self._commit(0, 0)
-
-    def reopen(self, rows: int) -> None:
-        """Cut every column (and the problem list) back to ``rows`` committed rows."""
-        for name, dt in COLUMNS.items():
-            path = self._column_path(name)
-            with open(path, "ab") as fh:
-                fh.truncate(rows * np.dtype(dt).itemsize)
-        kept = [p for p in self.problems() if p[0] < rows]
-        with open(self.folder / "problems.jsonl", "w") as fh:
-            for p in kept:
-                fh.write(json.dumps(p) + "\n")
-
-    def _column_path(self, name: str) -> Path:
-        return self.folder / "columns" / f"{name}.bin"
-
-    def open(self) -> None:
-        for name in COLUMNS:
-            self.files[name] = open(self._column_path(name), "ab")
-        self.files["__problems"] = open(self.folder / "problems.jsonl", "a")
-
-    def append(self, cols: dict[str, np.ndarray], problems: list[tuple[int, str]], chunks: int, rows: int) -> None:
-        for name, dt in COLUMNS.items():
-            self.files[name].write(np.ascontiguousarray(cols[name], dtype=dt).tobytes())
-        for p in problems:
-            self.files["__problems"].write(json.dumps(list(p)) + "\n")
-        for fh in self.files.values():
-            fh.flush()
-        self._commit(chunks, rows)
-
-    def _commit(self, chunks: int, rows: int) -> None:
-        _write_json(self.progress_path, {"chunks": chunks, "rows": rows})
-
-    def close(self) -> None:
-        for fh in self.files.values():
-            fh.close()
-        self.files.clear()
-
-    def columns(self, rows: int, names: Sequence[str] = tuple(COLUMNS)) -> dict[str, np.ndarray]:
-        """The first ``rows`` rows of some columns, in pair order."""
-        out = {}
-        for name in names:
-            dt = COLUMNS[name]
-            out[name] = np.fromfile(self._column_path(name), dtype=dt, count=rows) if rows else np.zeros(0, dt)
-        return out
-
-    def rank(self, order: np.ndarray) -> Callable[[int, int], dict[str, np.ndarray]]:
-        """Rewrite every column in ``order`` (one column in memory at a time); return a batch reader."""
-        folder = self.folder / "ranked"
-        folder.mkdir(exist_ok=True)
-        for name in COLUMNS:
-            self.columns(order.size, (name,))[name][order].tofile(folder / f"{name}.bin")
-
-        def read(start: int, stop: int) -> dict[str, np.ndarray]:
-            out = {}
-            for name, dt in COLUMNS.items():
-                size = np.dtype(dt).itemsize
-                out[name] = np.fromfile(folder / f"{name}.bin", dtype=dt, count=stop - start, offset=start * size)
-            return out
-
-        return read
-
-    def problems(self) -> list[list]:
-        path = self.folder / "problems.jsonl"
-        if not path.exists():
-            return []
-        with open(path) as fh:
-            return [json.loads(line) for line in fh if line.strip()]
-
-
-def _write_json(path: Path, data: dict) -> None:
-    tmp = path.with_name(path.name + ".tmp")
-    with open(tmp, "w") as fh:
-        json.dump(data, fh)
-        fh.flush()
-        os.fsync(fh.fileno())
-    os.replace(tmp, path)
-
-
-def staging_folder(out: str | os.PathLike) -> Path:
-    """Folder holding the staged results of a run writing ``out``."""
-    p = Path(out)
-    return p.with_name(p.name + ".partial")
+def _stage(out: str | os.PathLike) -> Stage:
+    return Stage(staging_folder(out), COLUMNS)
 
 
 def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings: Settings,
@@ -753,9 +669,11 @@ def screen(
     scheduler: Any = None,
     resume: bool = False,
     restart: bool = False,
+    overwrite: bool = False,
     chunk_pairs: int = 2000,
     min_margin_db: float = 10.0,
     progress: Callable[[int, int], None] | None = None,
+    inputs: Sequence[str | os.PathLike] = (),
 ) -> ScreenSummary:
     """Screen the planned pairs of ``sites`` and write ranked results to ``out``.
 
@@ -763,16 +681,21 @@ def screen(
     Dask ``scheduler`` (address, cluster or Client).  ``progress(done, total)``
     is called after each committed chunk.  With ``resume`` an interrupted run
     of the same inputs continues; without it a leftover staging folder is an
-    error unless ``restart`` discards it.
+    error unless ``restart`` discards it.  An existing result is replaced
+    only with ``overwrite``.  Outputs that would land on ``inputs`` (the
+    sites and pairs files) or on a raster are refused; a second run on the same output
+    while one is alive is refused (see :mod:`profiler.io.stage`).
     """
     t0 = time.perf_counter()
     radio.validate()
     settings.validate()
     if chunk_pairs < 1:
         raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
-    from .io.screen_output import check_output_path
+    from .io.screen_output import check_output_path, check_outputs_spare_inputs
 
     check_output_path(out)
+    # sites.source is only a file name, so the sites file's path comes in ``inputs``.
+    check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
     bad = list(bad_rows)
     covered = model.covers(sites.lon_deg, sites.lat_deg)
     for k in np.flatnonzero(~covered):
@@ -786,13 +709,33 @@ def screen(
     if not covered.all():
         sites, plan = _drop_sites(sites, plan, covered)
     bad.sort(key=lambda r: (r.source != sites.source, r.row))
-    executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
-    try:
-        summary = _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max,
-                          resume, restart, chunk_pairs, min_margin_db, progress, t0)
-        return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
-    finally:
-        executor.close(cancel=True)
+    with RunLock(lock_path(out), str(out)):
+        run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0)
+        done = run.prepare(resume, restart, overwrite)
+        if done is not None:
+            return done
+        executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
+        try:
+            summary = run.compute(executor, inflight_max, progress)
+            return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
+        finally:
+            executor.close(cancel=True)
+
+
+def _raster_files(model: ElevationModel) -> list[str]:
+    """Every file the rasters read, the sources of a VRT included."""
+    files = []
+    for s in model.sources:
+        files.append(s.path)
+        if str(s.path).lower().endswith(".vrt"):
+            import rasterio
+
+            try:
+                with rasterio.open(s.path) as ds:
+                    files += [f for f in ds.files if f != s.path]
+            except Exception:  # noqa: BLE001 - opened before; the model reports read errors itself
+                pass
+    return files
 
 
 def _spacing_warnings(model: ElevationModel, sites: SiteTable, settings: Settings) -> tuple[str, ...]:
@@ -818,77 +761,134 @@ def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:
     return n * (n - 1) // 2
 
 
-def _screen(sites, model, radio, settings, out, plan, bad, executor, inflight_max, resume, restart,
-            chunk_pairs, min_margin_db, progress, t0) -> "ScreenSummary":
-    from .io.screen_output import rank_order, write_outputs
+class _Run:
+    """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
-    stage = Stage(staging_folder(out))
-    fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
-    total = count_pairs(sites, plan)
-    done_rows = done_chunks = 0
-    if stage.progress_path.exists():
-        if resume:
-            manifest = json.loads((stage.folder / "manifest.json").read_text())
-            if manifest.get("fingerprint") != fingerprint:
+    def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0) -> None:
+        self.sites, self.model, self.radio, self.settings = sites, model, radio, settings
+        self.out, self.plan, self.bad = out, plan, bad
+        self.chunk_pairs, self.min_margin_db, self.t0 = chunk_pairs, min_margin_db, t0
+        self.stage = _stage(out)
+        self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
+        self.total = count_pairs(sites, plan)
+        self.done_rows = self.done_chunks = self.resumed = 0
+
+    def prepare(self, resume: bool, restart: bool, overwrite: bool) -> "ScreenSummary | None":
+        """Finish a crashed final write, apply the overwrite rule, open or create the stage.
+
+        Returns the summary when a resumed run only had its renames left to do.
+        """
+        from .io.screen_output import output_paths
+
+        stage = self.stage
+        renames = None
+        if stage.exists():
+            try:
+                renames = pending_renames(stage)
+            except InputError:
+                if not restart:  # --restart is the advice: it must get past a damaged marker
+                    raise
+        if renames is not None:
+            # The last run crashed between its renames: put its complete pair of files in place.
+            from .io.stage import finish_renames
+
+            finish_renames(stage, renames)
+            if resume and self._same_run():
+                rows, _ = stage.validate(self.total)
+                summary = self._summary(rows, rows, list(map(str, output_paths(self.out))))
+                stage.discard()
+                return summary
+            stage.discard()
+        if not overwrite:
+            for path in output_paths(self.out):
+                if path.exists():
+                    raise InputError(
+                        f"{path} exists; add --overwrite to replace it (it is kept until the new result "
+                        "is complete) or choose another --out"
+                    )
+        if stage.exists():
+            if resume:
+                if not self._same_run():
+                    raise InputError(
+                        f"{stage.folder} holds an interrupted run with different inputs or settings; "
+                        "run the same command as before with --resume, or add --restart to start again"
+                    )
+                self.done_rows, self.done_chunks = stage.validate(self.total)
+                stage.reopen(self.done_rows)
+                self.resumed = self.done_rows
+                return None
+            if not restart:
                 raise InputError(
-                    f"{stage.folder} holds an interrupted run with different inputs or settings; "
-                    "run the same command as before with --resume, or add --restart to start again"
+                    f"an interrupted run left {stage.folder}; add --resume to finish it "
+                    "or --restart to discard it and start again"
                 )
-            state = stage.read_progress()
-            done_rows, done_chunks = int(state["rows"]), int(state["chunks"])
-            stage.reopen(done_rows)
-        elif not restart:
-            raise InputError(
-                f"an interrupted run left {stage.folder}; add --resume to finish it "
-                "or --restart to discard it and start again"
-            )
-    if not stage.progress_path.exists() or not resume:
-        stage.create({"fingerprint": fingerprint, "chunk_pairs": chunk_pairs, "total_pairs": total})
-        done_rows = done_chunks = 0
-    resumed = done_rows
-    stage.open()
-    try:
-        remaining = total - done_rows
-        if progress:
-            progress(done_rows, total)
-        if remaining > 0:
-            pending: deque = deque()
-            chunks = _chunks(sites, plan, chunk_pairs, skip_pairs=done_rows)
-            exhausted = False
-            while True:
-                while not exhausted and len(pending) < inflight_max:
-                    nxt = next(chunks, None)
-                    if nxt is None:
-                        exhausted = True
+        stage.create({"fingerprint": self.fingerprint, "chunk_pairs": self.chunk_pairs,
+                      "total_pairs": self.total})
+        return None
+
+    def _same_run(self) -> bool:
+        return self.stage.manifest()["fingerprint"] == self.fingerprint
+
+    def compute(self, executor, inflight_max: int, progress) -> "ScreenSummary":
+        """Evaluate the remaining chunks, then rank and write the result."""
+        from .io.screen_output import rank_order, write_outputs
+
+        stage, total = self.stage, self.total
+        sites, radio, settings = self.sites, self.radio, self.settings
+        done_rows, done_chunks = self.done_rows, self.done_chunks
+        stage.open()
+        try:
+            if progress:
+                progress(done_rows, total)
+            if total - done_rows > 0:
+                pending: deque = deque()
+                chunks = _chunks(sites, self.plan, self.chunk_pairs, skip_pairs=done_rows)
+                exhausted = False
+                while True:
+                    while not exhausted and len(pending) < inflight_max:
+                        nxt = next(chunks, None)
+                        if nxt is None:
+                            exhausted = True
+                            break
+                        first, a, b = nxt
+                        pending.append(executor.submit(_make_task(sites, first, a, b, radio, settings)))
+                    if not pending:
                         break
-                    first, a, b = nxt
-                    pending.append(executor.submit(_make_task(sites, first, a, b, radio, settings)))
-                if not pending:
-                    break
-                cols, problems = pending.popleft().result()
-                done_chunks += 1
-                done_rows += cols["pair"].size
-                stage.append(cols, problems, done_chunks, done_rows)
-                if progress:
-                    progress(done_rows, total)
-    finally:
-        stage.close()
-    executor.close()  # free the workers' memory before writing
-    keys = stage.columns(done_rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
-    samples = int(stage.columns(done_rows, ("samples",))["samples"].astype(np.int64).sum())
-    problems = {int(p): str(m) for p, m in stage.problems()}
-    codes = verdicts(keys, min_margin_db)
-    ranked = stage.rank(rank_order(keys))
-    outputs = write_outputs(out, stage.folder, sites, keys, codes, ranked, problems, settings)
-    shutil.rmtree(stage.folder, ignore_errors=True)
-    counts = np.bincount(codes, minlength=4)
-    return ScreenSummary(
-        outputs=tuple(outputs), sites=len(sites), pairs=int(done_rows),
-        viable=int(counts[0]), marginal=int(counts[1]), blocked=int(counts[2]), errors=int(counts[3]),
-        bad_rows=tuple(bad), samples=samples,
-        seconds=time.perf_counter() - t0, resumed_pairs=resumed, min_margin_db=min_margin_db,
-        problems=tuple(problems[p] for p in sorted(problems)),
-    )
+                    cols, problems = pending.popleft().result()
+                    done_chunks += 1
+                    done_rows += cols["pair"].size
+                    stage.append(cols, problems, done_chunks, done_rows)
+                    if progress:
+                        progress(done_rows, total)
+        finally:
+            stage.close()
+        executor.close()  # free the workers' memory before writing
+        keys = stage.columns(done_rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
+        codes = verdicts(keys, self.min_margin_db)
+        problems = {int(p): str(m) for p, m in stage.problems()}
+        ranked = stage.rank(rank_order(keys))
+        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings)
+        summary = self._summary(done_rows, self.resumed, outputs)
+        stage.discard()
+        from .io.stage import crash_point
+
+        crash_point("staging removed")
+        return summary
+
+    def _summary(self, rows: int, resumed: int, outputs: list[str]) -> "ScreenSummary":
+        stage = self.stage
+        keys = stage.columns(rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
+        samples = int(stage.columns(rows, ("samples",))["samples"].astype(np.int64).sum())
+        problems = {int(p): str(m) for p, m in stage.problems()}
+        codes = verdicts(keys, self.min_margin_db)
+        counts = np.bincount(codes, minlength=4)
+        return ScreenSummary(
+            outputs=tuple(outputs), sites=len(self.sites), pairs=int(rows),
+            viable=int(counts[0]), marginal=int(counts[1]), blocked=int(counts[2]), errors=int(counts[3]),
+            bad_rows=tuple(self.bad), samples=samples,
+            seconds=time.perf_counter() - self.t0, resumed_pairs=resumed, min_margin_db=self.min_margin_db,
+            problems=tuple(problems[p] for p in sorted(problems)),
+        )
 
 
 def _drop_sites(sites: SiteTable, plan: PairPlan, keep: np.ndarray) -> tuple[SiteTable, PairPlan]:

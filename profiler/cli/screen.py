@@ -102,7 +102,9 @@ class _Progress:
 @analysis_options
 @climate_options
 @click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
-              help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it).")
+              help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it, "
+                   "as RESULT-sites). An existing result is kept unless --overwrite is given; "
+                   "a path that is one of the inputs is refused.")
 @click.option("--max-km", type=float, default=None, help="Only pairs at most this far apart, km [default: no limit].")
 @click.option("--pairs", "pairs_file", type=click.Path(dir_okay=False), default=None,
               help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs.")
@@ -124,13 +126,16 @@ class _Progress:
               help="Run the chunks on a Dask cluster at this address (tcp://host:8786); workers must reach the rasters by the same paths.")
 @click.option("--chunk-pairs", type=int, default=2000, show_default=True,
               help="Pairs per chunk (unit of work, of progress and of resumption).")
-@click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command.")
+@click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command (refused while a run on RESULT is alive).")
 @click.option("--restart", is_flag=True, help="Discard an interrupted run's partial results and start again.")
+@click.option("--overwrite", is_flag=True,
+              help="Replace an existing result (and its -sites file); the old files stay until the new "
+                   "ones are complete.")
 @click.option("--quiet", "-q", is_flag=True, help="No progress bar and no summary.")
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
-           restart, quiet, **opts) -> None:
+           restart, overwrite, quiet, **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -157,6 +162,11 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     check_number(min_margin_db, "min_margin_db", "--min-margin-db")
     if opts.get("nodata_fill_m") is not None:
         check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
+    from ..io.screen_output import check_output_path, check_outputs_spare_inputs
+
+    check_output_path(out)
+    inputs = [sites_file, pairs_file, *opts["dem"]]
+    check_outputs_spare_inputs(out, inputs)
     radio, settings = resolve_radio_settings(opts)
     sites, bad = read_sites(
         sites_file, name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
@@ -177,7 +187,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         with _Progress(show) as bar:
             summary = run_screen(
                 sites, model, radio, settings, out, plan=plan, bad_rows=bad, workers=workers,
-                scheduler=scheduler, resume=resume, restart=restart, chunk_pairs=chunk_pairs,
+                scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
+                chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
                 min_margin_db=min_margin_db, progress=bar.update,
             )
     except KeyboardInterrupt:

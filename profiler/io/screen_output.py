@@ -5,7 +5,9 @@ GeoPackage (.gpkg: layers ``links`` and ``sites`` in one file), GeoJSON
 GeoJSON and CSV the sites go to ``<stem>-sites<ext>`` beside it.  Rows are
 ranked by fade margin (best first, pairs that could not be profiled last)
 and written in batches, so memory stays bounded.  Each file is written under
-a temporary name in the staging folder and renamed into place when complete.
+a temporary name in the staging folder; when both are complete the renames
+are recorded and done (:func:`profiler.io.stage.finish_renames`), so the
+result and its ``-sites`` file are replaced together or not at all.
 """
 
 from __future__ import annotations
@@ -17,8 +19,9 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
+from .stage import crash_point, finish_renames, lock_path, staging_folder
 
-__all__ = ["write_outputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
+__all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
 
 OUTPUT_SUFFIXES = {".gpkg": "GPKG", ".geojson": "GeoJSON", ".json": "GeoJSON", ".csv": "CSV"}
 
@@ -84,10 +87,11 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
     a, b = cols["a"], cols["b"]
     n = a.size
     data: dict[str, Any] = {}
+    failed = cols["status"] != 0  # error rows: flags are unknown (NULL), not False
     for name in LINK_COLUMNS:
         if name in cols:
             v = cols[name]
-            data[name] = v.astype(bool) if name in _BOOL else v
+            data[name] = _flags(v, failed) if name in _BOOL else v
     data.update(
         site_a=sites.names[a], site_b=sites.names[b],
         verdict=np.asarray(verdict_names, dtype=object)[codes],
@@ -103,16 +107,25 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
         frame["gain_b_dbi"] = sites.gain_dbi[b]
     if sites.max_mast_m is not None:
         raise_m = frame["mast_raise_m"].to_numpy()
-        frame["fixable_with_masts"] = (
-            np.isfinite(raise_m)
-            & (sites.antenna_agl_m[a] + raise_m <= sites.max_mast_m[a])
-            & (sites.antenna_agl_m[b] + raise_m <= sites.max_mast_m[b])
-        )
+        with np.errstate(invalid="ignore"):
+            fixable = (
+                np.isfinite(raise_m)
+                & (sites.antenna_agl_m[a] + raise_m <= sites.max_mast_m[a])
+                & (sites.antenna_agl_m[b] + raise_m <= sites.max_mast_m[b])
+            )
+        frame["fixable_with_masts"] = _flags(fixable, failed)
     for col in sites.extra.columns:
         values = sites.extra[col].to_numpy()
         frame[f"a_{col}"] = values[a]
         frame[f"b_{col}"] = values[b]
     return frame
+
+
+def _flags(values: np.ndarray, failed: np.ndarray):
+    """A yes/no column with NULL in the rows that could not be profiled."""
+    import pandas as pd
+
+    return pd.array(np.where(failed, None, values.astype(bool)), dtype="boolean")
 
 
 def _lines(frame) -> Any:
@@ -126,7 +139,7 @@ def _lines(frame) -> Any:
 
 
 def write_outputs(
-    out: str | os.PathLike, staging: Path, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
+    out: str | os.PathLike, stage, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
     settings,
 ) -> list[str]:
     """Write the ranked links and the sites; return the paths written.
@@ -134,7 +147,9 @@ def write_outputs(
     ``keys`` holds the columns pair, a, b and fade_margin_db of every row in
     pair order, ``codes`` their verdict codes; ``ranked(start, stop)`` returns
     all columns of rows ``start:stop`` in rank order (:func:`rank_order`), so
-    only one batch of rows is in memory at a time.
+    only one batch of rows is in memory at a time.  ``stage`` is the run's
+    :class:`profiler.io.stage.Stage`: the files are written in its folder,
+    then renamed into place together.
     """
     import pyogrio
 
@@ -146,7 +161,7 @@ def write_outputs(
     saved = {k: pyogrio.get_gdal_config_option(k) for k in _FAST_SQLITE}
     pyogrio.set_gdal_config_options(_FAST_SQLITE)
     try:
-        return _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, settings)
+        return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings)
     finally:
         pyogrio.set_gdal_config_options(saved)
 
@@ -160,6 +175,45 @@ def check_output_path(out: str | os.PathLike) -> None:
         raise InputError(f"output {out}: the folder {out.parent} does not exist")
 
 
+def output_paths(out: str | os.PathLike) -> list[Path]:
+    """The files a run writing ``out`` leaves: the result and, for CSV and GeoJSON, its sites file."""
+    out = Path(out)
+    if OUTPUT_SUFFIXES.get(out.suffix.lower()) == "GPKG":
+        return [out]
+    return [out, out.with_name(f"{out.stem}-sites{out.suffix}")]
+
+
+def check_outputs_spare_inputs(out: str | os.PathLike, inputs) -> None:
+    """Raise InputError if any path a run writing ``out`` uses is one of ``inputs``.
+
+    The paths written are the result, its sites file, the lock file and the
+    staging folder (an input inside that folder counts too: it is removed at
+    the end).  Paths are compared after resolving links, and by identity for
+    files that exist (hard links, case-insensitive file systems).
+    """
+    written = [(p, "the result" if k == 0 else "the result's sites file") for k, p in enumerate(output_paths(out))]
+    written += [(lock_path(out), "the lock file"), (staging_folder(out), "the staging folder")]
+    for given in inputs:
+        if given is None or str(given) == "":
+            continue
+        src = Path(given)
+        real_src = Path(os.path.realpath(src))
+        for path, role in written:
+            real = Path(os.path.realpath(path))
+            same = real == real_src
+            if not same and src.exists() and path.exists():
+                try:
+                    same = os.path.samefile(src, path)
+                except OSError:
+                    same = False
+            inside = role == "the staging folder" and real in real_src.parents
+            if same or inside:
+                raise InputError(
+                    f"--out {out} would overwrite the input {given} (as {role}, {path.name}); "
+                    "choose another --out"
+                )
+
+
 _FAST_SQLITE = {"OGR_SQLITE_SYNCHRONOUS": "OFF", "OGR_SQLITE_JOURNAL": "OFF"}
 
 try:  # pyarrow lets GDAL write whole batches at once (about twice as fast)
@@ -170,7 +224,7 @@ except ImportError:  # pragma: no cover - pyarrow is a dependency; tolerate its 
     _HAVE_ARROW = False
 
 
-def _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, settings) -> list[str]:
+def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings) -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
@@ -182,6 +236,7 @@ def _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, s
     ranked_codes = codes[order]
     n_rows = order.size
     del order
+    staging = stage.folder
     tmp_links = staging / f"links.tmp{suffix}"
     sites_out = out if driver == "GPKG" else out.with_name(f"{out.stem}-sites{out.suffix}")
     tmp_sites = tmp_links if driver == "GPKG" else staging / f"sites.tmp{suffix}"
@@ -222,9 +277,17 @@ def _write(out, suffix, driver, staging, sites, keys, codes, ranked, problems, s
         gdf = gpd.GeoDataFrame(site_frame, geometry=shapely.points(sites.lon_deg, sites.lat_deg), crs="EPSG:4326")
         pyogrio.write_dataframe(gdf, tmp_sites, layer="sites", driver=driver, append=driver == "GPKG",
                                 use_arrow=_HAVE_ARROW)
-    os.replace(tmp_links, out)
-    written = [str(out)]
+    _fsync(tmp_links)
+    crash_point("links written")
+    renames = [(tmp_links, out)]
     if driver != "GPKG":
-        os.replace(tmp_sites, sites_out)
-        written.append(str(sites_out))
-    return written
+        _fsync(tmp_sites)
+        crash_point("sites written")
+        renames.append((tmp_sites, sites_out))
+    finish_renames(stage, renames)
+    return [str(dst) for _, dst in renames]
+
+
+def _fsync(path: Path) -> None:
+    with open(path, "rb") as fh:
+        os.fsync(fh.fileno())

@@ -58,7 +58,9 @@ def test_screen_hub_mode_and_pairs_file_with_bad_rows(tmp_path):
 
     assert len(gpd.read_file(out2)) == 2
     assert (tmp_path / "pairs-sites.geojson").exists()
-    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs)
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, check=False)
+    assert proc.returncode == 1 and "--overwrite" in proc.stderr  # an existing result is kept
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, "--overwrite")
     assert "skipped pairs.csv row 3" in proc.stdout and "'Atlantis'" in proc.stdout
 
 
