@@ -12,9 +12,15 @@ __all__ = ["link", "run_link"]
 
 
 def run_link(resolved) -> dict:
-    """Analyse a resolved link and return its JSON record."""
+    """Analyse a resolved link and return its JSON record (vertical datum named as known)."""
+    from ..vertical import apply_datum_name
+
     with opened_link_data(resolved) as (model, surroundings):
-        return analyse_resolved(resolved, model, surroundings).record(0)
+        record = analyse_resolved(resolved, model, surroundings).record(0)
+    if "error" not in record:
+        vertical_crs = getattr(resolved.mount_a, "vertical_crs", None) if resolved.mount_a is not None else None
+        apply_datum_name(record, vertical_crs)
+    return record
 
 
 def default_gain_warning(link_file: str | None, opts: dict) -> str | None:

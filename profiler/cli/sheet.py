@@ -26,7 +26,8 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
         resolved = resolve_link(f, opts)
         with opened_link_data(resolved) as (model, surroundings):
             batch = analyse_resolved(resolved, model, surroundings)
-            contents += sheet_contents(batch, model, title=title, checksums=checksums)
+            contents += sheet_contents(batch, model, title=title, checksums=checksums,
+                                       vertical_crs=_vertical_crs(resolved))
     return contents
 
 
@@ -86,7 +87,12 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
                 click.echo(f"skipped: {problem}", err=True)
         if not good:
             raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
-        return sheet_contents(batch, model, title=title, indices=good)
+        return sheet_contents(batch, model, title=title, indices=good, vertical_crs=_vertical_crs(resolved))
+
+
+def _vertical_crs(resolved: Any) -> str | None:
+    """The vertical CRS the planner named (--vertical-crs or [terrain] vertical_crs), if any."""
+    return getattr(resolved.mount_a, "vertical_crs", None) if resolved.mount_a is not None else None
 
 
 def _agl(flag: float | None, column: float | None) -> float:

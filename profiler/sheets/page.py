@@ -16,7 +16,7 @@ from typing import Any, Sequence
 
 from .content import SheetContent
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
-from .table import Row, format_k, parameter_rows, vertical_datum_text
+from .table import Row, above_datum_label, format_k, parameter_rows, vertical_datum_text
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "write_sheets", "sheet_paths"]
 
@@ -111,7 +111,8 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
     datum = vertical_datum_text(r)
-    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else datum
+    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else \
+        datum.split(" (stated by the planner")[0]
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
     from .table import height_text
 
@@ -123,7 +124,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
         _fit(name, fig.bbox.width * 84 / _A4[0], renderer, lay.fs(6))
         fig.text(*lay.xy(x_mm, 178.3),
                  f"antenna {height_text(s['antenna_agl_m'], units)} above ground, "
-                 f"{height_text(s['antenna_amsl_m'], units)} above datum",
+                 f"{height_text(s['antenna_amsl_m'], units)} {above_datum_label(r)}",
                  ha=ha, va="baseline", fontsize=lay.fs(6.5), color=COLOURS["ink"])
     fig.legend(handles=art.legend, loc="upper center", bbox_to_anchor=lay.xy(108, 101.5), ncol=4,
                fontsize=lay.fs(6.4), frameon=False, handlelength=2.6, columnspacing=1.4, handletextpad=0.6,

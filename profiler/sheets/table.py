@@ -19,6 +19,7 @@ __all__ = [
     "format_k",
     "height_text",
     "vertical_datum_text",
+    "above_datum_label",
     "criterion_text",
     "availability_rows",
     "parameter_rows",
@@ -79,10 +80,19 @@ def height_text(value_m: float, units: str = "m", signed: bool = False) -> str:
 
 def vertical_datum_text(record: dict) -> str:
     """Name of the vertical datum of the heights, or a plain statement that the raster gives none."""
-    datum = (record.get("inputs", {}).get("vertical_datum") or "").strip()
-    if not datum or datum.startswith("as the raster"):
+    from ..vertical import datum_of_record
+
+    datum = datum_of_record(record)
+    if datum.source == "unknown":
         return "of the elevation raster (not stated in the file)"
-    return datum
+    return datum.record()
+
+
+def above_datum_label(record: dict) -> str:
+    """'above sea level' for a sea-level datum (EGM96, NAVD88...), else 'above the datum'."""
+    from ..vertical import datum_of_record
+
+    return datum_of_record(record).short()
 
 
 def criterion_text(record: dict) -> str:
@@ -125,7 +135,7 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
         Row("Ground elevation", height_text(a["ground_m"], units), height_text(b["ground_m"], units)),
         Row("Antenna above ground", height_text(a["antenna_agl_m"], units),
             height_text(b["antenna_agl_m"], units)),
-        Row("Antenna above datum", height_text(a["antenna_amsl_m"], units),
+        Row(f"Antenna {above_datum_label(record)}", height_text(a["antenna_amsl_m"], units),
             height_text(b["antenna_amsl_m"], units)),
     ]
     if "antenna_above_roof_m" in a or "antenna_above_roof_m" in b:
