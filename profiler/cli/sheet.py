@@ -181,7 +181,10 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     )
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
-    pages = f"{len(contents)} page{'s' if len(contents) != 1 else ''}"
+    from ..sheets.page import continuation_pages
+
+    n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
+    pages = f"{n_pages} page{'s' if n_pages != 1 else ''}"
     if fmt == "pdf":
         click.echo(f"wrote {paths[0]} ({pages})")
     else:

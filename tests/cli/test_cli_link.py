@@ -47,7 +47,7 @@ def test_flags_override_the_link_file(cli):
 
 def test_text_summary_lists_everything(cli):
     out = cli("link", str(EXAMPLES / "demo-3-blocked.toml")).output
-    for words in ("Wexby Grange", "Highfold Tower", "azimuth", "AMSL", "worst point", "line of sight",
+    for words in ("Wexby Grange", "Highfold Tower", "azimuth", "above the datum", "worst point", "line of sight",
                   "free space", "diffraction", "received level", "noise floor", "SNR", "fade margin",
                   "worst case k", "FAILS"):
         assert words in out
