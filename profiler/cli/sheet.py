@@ -42,7 +42,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
         raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
     table = read_pairs(pairs, layer=layer)
-    chosen = select_pairs(table, rows=parse_row_spec(rows) if rows else None, best=best)
+    numbers = [r.row for r in table.rows]
+    chosen = select_pairs(table, rows=parse_row_spec(rows, max(numbers, default=0)) if rows else None, best=best)
     if best is not None and not table.ranked:
         click.echo(f"note: {pairs} has no fade-margin column; --best takes the first {best} row(s) in file order",
                    err=True)

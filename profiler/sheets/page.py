@@ -70,24 +70,62 @@ def _wrap(text: str, width_mm: float, size_pt: float, lay: _Layout) -> str:
 
 
 def _fit(artist: Any, max_width_px: float, renderer: Any, min_size: float) -> None:
-    """Shrink a text artist's font until it fits ``max_width_px``; then cut with an ellipsis."""
+    """Shrink a text artist's font until it fits ``max_width_px``; then cut with an ellipsis.
+
+    A few measurements whatever the length of the text: the font size is
+    scaled in one step, the text is first cut to what could ever fit (no
+    glyph is narrower than about a quarter em in DejaVu Sans), and the cut
+    is found by bisection on the length.
+    """
     size = artist.get_fontsize()
-    while artist.get_window_extent(renderer).width > max_width_px and size > min_size:
-        size -= 0.25
-        artist.set_fontsize(size)
     text = artist.get_text()
-    while artist.get_window_extent(renderer).width > max_width_px and len(text) > 4:
-        text = text[:-2]
-        artist.set_text(text.rstrip() + "…")
+    min_px = min_size * renderer.points_to_pixels(1.0)
+    cap = max(8, int(max_width_px / (0.2 * min_px)) + 2)
+    if len(text) > cap:
+        artist.set_text(text[:cap])
+    width = artist.get_window_extent(renderer).width
+    for _ in range(4):  # width is about proportional to the size; a few steps settle rounding
+        if width <= max_width_px or size <= min_size:
+            break
+        size = max(min_size, min(size - 0.25, size * max_width_px / width))
+        artist.set_fontsize(size)
+        width = artist.get_window_extent(renderer).width
+    if width <= max_width_px and len(text) <= cap:
+        return
+    full = text[:cap]
+    artist.set_text(full)
+    if artist.get_window_extent(renderer).width <= max_width_px and len(text) <= cap:
+        return
+
+    def fits(n: int) -> bool:
+        artist.set_text(full[:n].rstrip() + "…")
+        return artist.get_window_extent(renderer).width <= max_width_px
+
+    lo, hi = min(4, len(full)), len(full)  # lo: always kept; hi: longest prefix tried
+    if len(text) <= cap:
+        hi = len(full) - 1
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if fits(mid):
+            lo = mid
+        else:
+            hi = mid - 1
+    artist.set_text(full[:lo].rstrip() + "…")
+
+
+def _clip(text: str, n: int) -> str:
+    """``text`` cut to ``n`` characters with an ellipsis (long names in running text)."""
+    text = str(text)
+    return text if len(text) <= n else text[: n - 1].rstrip() + "…"
 
 
 def _header(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
     r = c.record
-    a, b = r["sites"]["a"]["name"], r["sites"]["b"]["name"]
+    a, b = (_clip(r["sites"][t]["name"], 48) for t in ("a", "b"))
     radio = r["inputs"]["radio"]
     title = fig.text(*lay.xy(8, 199.5), c.name or f"{a} - {b}", fontsize=lay.fs(13), fontweight="bold",
                      color=COLOURS["ink"], va="baseline")
-    fig.text(*lay.xy(8, 193.5),
+    subtitle = fig.text(*lay.xy(8, 193.5),
              f"Path profile sheet   ·   a: {a}  →  b: {b}   ·   {distance_text(r['distance_km'], units, True)}   ·   "
              f"{radio['freq_ghz']:g} GHz   ·   design k = {format_k(r['k'])}",
              fontsize=lay.fs(7.5), color=COLOURS["muted"], va="baseline")
@@ -100,6 +138,7 @@ def _header(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
     fig.add_artist(_hline(fig, lay, 8, 289, 189.0, lw=0.9))
     renderer = fig.canvas.get_renderer()
     _fit(title, fig.bbox.width * (196 - 8) / _A4[0], renderer, lay.fs(9))
+    _fit(subtitle, fig.bbox.width * (240 - 8) / _A4[0], renderer, lay.fs(7.5))
 
 
 def _hline(fig: Any, lay: _Layout, x0: float, x1: float, y: float, lw: float = 0.5, color: str | None = None):
