@@ -211,8 +211,6 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     if len(sites) < 2:
         raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen")
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
-    if gain_warning:
-        click.echo(f"warning: {gain_warning}", err=True)
     explicit = None
     if pairs_file:
         a, b, bad_pairs = read_pairs(pairs_file, sites.names)
@@ -236,5 +234,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
+    if gain_warning:  # after the run, so a refused run still prints one line only
+        click.echo(f"warning: {gain_warning}", err=True)
     if not quiet:
         click.echo(format_screen_summary(summary))
