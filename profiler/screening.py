@@ -740,7 +740,6 @@ class ScreenSummary:
     resumed_pairs: int
     min_margin_db: float
     problems: tuple[str, ...] = field(default=())
-    warnings: tuple[str, ...] = field(default=())
 
     def count(self, verdict: "Verdict | str") -> int:
         """Pairs with this verdict."""

@@ -81,8 +81,10 @@ def _fit(artist: Any, max_width_px: float, renderer: Any, min_size: float) -> No
     text = artist.get_text()
     min_px = min_size * renderer.points_to_pixels(1.0)
     cap = max(8, int(max_width_px / (0.2 * min_px)) + 2)
-    if len(text) > cap:
-        artist.set_text(text[:cap])
+    lines = text.split("\n")
+    if any(len(line) > cap for line in lines):  # each line of a block is cut on its own
+        text = "\n".join(line[:cap] + ("…" if len(line) > cap else "") for line in lines)
+        artist.set_text(text)
     width = artist.get_window_extent(renderer).width
     for _ in range(4):  # width is about proportional to the size; a few steps settle rounding
         if width <= max_width_px or size <= min_size:
@@ -90,27 +92,21 @@ def _fit(artist: Any, max_width_px: float, renderer: Any, min_size: float) -> No
         size = max(min_size, min(size - 0.25, size * max_width_px / width))
         artist.set_fontsize(size)
         width = artist.get_window_extent(renderer).width
-    if width <= max_width_px and len(text) <= cap:
-        return
-    full = text[:cap]
-    artist.set_text(full)
-    if artist.get_window_extent(renderer).width <= max_width_px and len(text) <= cap:
+    if width <= max_width_px:
         return
 
     def fits(n: int) -> bool:
-        artist.set_text(full[:n].rstrip() + "…")
+        artist.set_text(text[:n].rstrip() + "…")
         return artist.get_window_extent(renderer).width <= max_width_px
 
-    lo, hi = min(4, len(full)), len(full)  # lo: always kept; hi: longest prefix tried
-    if len(text) <= cap:
-        hi = len(full) - 1
+    lo, hi = min(4, len(text)), len(text) - 1  # the longest prefix that fits lies in lo..hi
     while lo < hi:
         mid = (lo + hi + 1) // 2
         if fits(mid):
             lo = mid
         else:
             hi = mid - 1
-    artist.set_text(full[:lo].rstrip() + "…")
+    artist.set_text(text[:lo].rstrip() + "…")
 
 
 def _clip(text: str, n: int) -> str:
