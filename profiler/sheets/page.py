@@ -428,7 +428,6 @@ def render_continuation(content: SheetContent, page: str | PageSize = "a4", unit
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    from .table import height_text  # noqa: F401 - used by _feature_height
 
     size = page if isinstance(page, PageSize) else page_size(page)
     crossed = (content.record.get("clutter") or {}).get("crossed") or []
