@@ -14,6 +14,7 @@ ranked by fade margin and written out (see :mod:`profiler.io.screen_output`).
 from __future__ import annotations
 
 import dataclasses
+import enum
 import hashlib
 import json
 import os
@@ -44,12 +45,49 @@ __all__ = [
     "evaluate_chunk",
     "screen",
     "VERDICTS",
+    "Verdict",
     "COLUMNS",
     "mast_raise_m",
 ]
 
-#: Verdict codes of a pair (stored as int8).
-VERDICTS = {0: "viable", 1: "marginal", 2: "blocked", 3: "error"}
+class Verdict(str, enum.Enum):
+    """What stands between a screened pair and a working link (definitions in the README).
+
+    Checked in this order, the first that applies wins: ``error`` (could not
+    be profiled), ``obstructed`` (no line of sight at the design k: terrain,
+    buildings or trees cut the ray), ``clearance-short`` (line of sight, but
+    the clearance criterion fails at the design or worst-case k),
+    ``budget-short`` (the path meets the criterion but the fade margin is
+    below 0 dB at the design k: the link does not close), ``marginal``
+    (closes, margin below the minimum asked) and ``viable`` (criterion met,
+    margin at least the minimum).  Path verdicts come before budget ones
+    because a mast fixes the first and gains or power the second.
+    """
+
+    VIABLE = "viable"
+    MARGINAL = "marginal"
+    BUDGET_SHORT = "budget-short"
+    CLEARANCE_SHORT = "clearance-short"
+    OBSTRUCTED = "obstructed"
+    ERROR = "error"
+
+    def __str__(self) -> str:
+        return self.value
+
+    @property
+    def code(self) -> int:
+        """The int8 code a verdict is stored as (its position in the enum)."""
+        return _VERDICT_ORDER.index(self)
+
+    @property
+    def column(self) -> str:
+        """Name of the per-site count column of this verdict (``budget_short_links``...)."""
+        return self.value.replace("-", "_") + "_links"
+
+
+_VERDICT_ORDER = tuple(Verdict)
+#: Verdict of each int8 code.
+VERDICTS = {k: v for k, v in enumerate(_VERDICT_ORDER)}
 
 #: Staged result columns and their dtypes, in output order.
 COLUMNS: dict[str, str] = {
@@ -621,15 +659,12 @@ def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings
 
 @dataclass(frozen=True)
 class ScreenSummary:
-    """What a screening run did; counts by verdict (see :data:`VERDICTS`)."""
+    """What a screening run did; ``counts`` pairs by verdict (see :class:`Verdict`)."""
 
     outputs: tuple[str, ...]
     sites: int
     pairs: int
-    viable: int
-    marginal: int
-    blocked: int
-    errors: int
+    counts: dict
     bad_rows: tuple[BadRow, ...]
     samples: int
     seconds: float
@@ -639,21 +674,44 @@ class ScreenSummary:
     #: Run-wide warnings (e.g. a given spacing coarser than the rasters), for stderr.
     warnings: tuple[str, ...] = field(default=())
 
+    def count(self, verdict: "Verdict | str") -> int:
+        """Pairs with this verdict."""
+        return int(self.counts.get(Verdict(verdict), 0))
+
+    @property
+    def viable(self) -> int:
+        return self.count(Verdict.VIABLE)
+
+    @property
+    def marginal(self) -> int:
+        return self.count(Verdict.MARGINAL)
+
+    @property
+    def errors(self) -> int:
+        return self.count(Verdict.ERROR)
+
 
 def verdicts(cols: dict[str, np.ndarray], min_margin_db: float) -> np.ndarray:
-    """Verdict codes: viable, marginal, blocked or error (definitions in the README).
+    """Int8 verdict codes (:attr:`Verdict.code`) of each row, from its staged columns.
 
-    viable: meets the clearance criterion and fade margin >= ``min_margin_db``
-    at the design k; blocked: fade margin below 0 dB at the design k (the link
-    does not close); marginal: closes but lacks the clearance or the margin.
+    Needs ``status``, ``line_of_sight``, ``meets_criterion`` and
+    ``fade_margin_db`` (design k).  Order of the checks: see :class:`Verdict`.
     """
     fade = cols["fade_margin_db"]
-    code = np.full(fade.shape, 1, dtype=np.int8)
+    code = np.full(fade.shape, Verdict.VIABLE.code, dtype=np.int8)
     with np.errstate(invalid="ignore"):
-        code[(cols["meets_criterion"] == 1) & (fade >= min_margin_db)] = 0
-        code[fade < 0.0] = 2
-    code[(cols["status"] != 0) | ~np.isfinite(fade)] = 3
+        code[fade < min_margin_db] = Verdict.MARGINAL.code
+        code[fade < 0.0] = Verdict.BUDGET_SHORT.code
+    code[cols["meets_criterion"] != 1] = Verdict.CLEARANCE_SHORT.code
+    code[cols["line_of_sight"] != 1] = Verdict.OBSTRUCTED.code
+    code[(cols["status"] != 0) | ~np.isfinite(fade)] = Verdict.ERROR.code
     return code
+
+
+def verdict_counts(codes: np.ndarray) -> dict:
+    """Pairs per verdict, every verdict present (0 when none)."""
+    counts = np.bincount(codes.astype(np.int64), minlength=len(_VERDICT_ORDER))
+    return {v: int(counts[v.code]) for v in _VERDICT_ORDER}
 
 
 def screen(
@@ -761,6 +819,10 @@ def _pairs_bound(sites: SiteTable, plan: PairPlan) -> int:
     return n * (n - 1) // 2
 
 
+#: Staged columns the verdicts and the ranking read.
+_VERDICT_KEYS = ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion", "line_of_sight")
+
+
 class _Run:
     """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
@@ -863,7 +925,7 @@ class _Run:
         finally:
             stage.close()
         executor.close()  # free the workers' memory before writing
-        keys = stage.columns(done_rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
+        keys = stage.columns(done_rows, _VERDICT_KEYS)
         codes = verdicts(keys, self.min_margin_db)
         problems = {int(p): str(m) for p, m in stage.problems()}
         ranked = stage.rank(rank_order(keys))
@@ -877,14 +939,12 @@ class _Run:
 
     def _summary(self, rows: int, resumed: int, outputs: list[str]) -> "ScreenSummary":
         stage = self.stage
-        keys = stage.columns(rows, ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"))
+        keys = stage.columns(rows, _VERDICT_KEYS)
         samples = int(stage.columns(rows, ("samples",))["samples"].astype(np.int64).sum())
         problems = {int(p): str(m) for p, m in stage.problems()}
         codes = verdicts(keys, self.min_margin_db)
-        counts = np.bincount(codes, minlength=4)
         return ScreenSummary(
-            outputs=tuple(outputs), sites=len(self.sites), pairs=int(rows),
-            viable=int(counts[0]), marginal=int(counts[1]), blocked=int(counts[2]), errors=int(counts[3]),
+            outputs=tuple(outputs), sites=len(self.sites), pairs=int(rows), counts=verdict_counts(codes),
             bad_rows=tuple(self.bad), samples=samples,
             seconds=time.perf_counter() - self.t0, resumed_pairs=resumed, min_margin_db=self.min_margin_db,
             problems=tuple(problems[p] for p in sorted(problems)),

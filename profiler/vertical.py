@@ -18,7 +18,13 @@ import numpy as np
 from .errors import DataError, InputError
 from .terrain import ElevationModel
 
-__all__ = ["GeoidConversion", "raster_vertical_crs", "ellipsoidal_to_raster_datum", "SYSTEM_GRID_DIRS"]
+__all__ = [
+    "GeoidConversion", "raster_vertical_crs", "ellipsoidal_to_raster_datum", "SYSTEM_GRID_DIRS",
+    "DatumName", "name_datum", "apply_datum_name", "datum_of_record", "UNSTATED",
+]
+
+#: How terrain.py describes a raster that does not state its vertical datum.
+UNSTATED = "as the raster (not stated in the file)"
 
 #: Folders where operating-system packages put PROJ grids (Debian's proj-data
 #: installs egm96_15.gtx in /usr/share/proj); searched after pyproj's own.
@@ -132,3 +138,124 @@ def ellipsoidal_to_raster_datum(lon_deg: float, lat_deg: float, ellipsoidal_m: f
         vertical_crs=vertical_crs.name,
         operation=t.description,
     )
+
+
+@dataclass(frozen=True)
+class DatumName:
+    """The vertical datum heights are given in: its name, who stated it, and whether it is a sea level.
+
+    ``source`` is "raster" (the files say), "planner" (``--vertical-crs`` or
+    ``[terrain] vertical_crs``) or "unknown" (``name`` is then "").
+    """
+
+    name: str
+    source: str
+    sea_level: bool
+
+    def phrase(self) -> str:
+        """'above the datum EGM96 height (stated by the planner...)', for the end of a height."""
+        if self.source == "unknown":
+            return "above the datum of the elevation rasters (not stated in the files)"
+        return f"above the datum {self.name}{self._origin()}"
+
+    def short(self) -> str:
+        """The words after a height: 'above sea level' (a sea-level datum), else 'above the datum'."""
+        return "above sea level" if self.sea_level else "above the datum"
+
+    def _origin(self) -> str:
+        return " (stated by the planner; the rasters do not say)" if self.source == "planner" else ""
+
+    def record(self) -> str:
+        """The text of the JSON key inputs.vertical_datum."""
+        if self.source == "unknown":
+            return UNSTATED
+        return f"{self.name}{self._origin()}"
+
+
+def _is_sea_level(crs) -> bool:
+    """True for a vertical CRS of gravity-related heights pointing up (orthometric or normal
+    heights: EGM96, EGM2008, NAVD88, MSL...), whose zero is a model of mean sea level.
+
+    The EPSG dataset names this axis "Gravity-related height" for such CRSs; ellipsoidal
+    heights and depths are not (EPSG Guidance Note 7-1, axis names; common practice to read
+    a geoid-based height as "above sea level").
+    """
+    try:
+        axes = crs.axis_info
+    except Exception:  # pragma: no cover - pyproj quirks
+        return False
+    return bool(crs.is_vertical and axes and axes[0].name.lower() == "gravity-related height"
+                and axes[0].direction.lower() == "up")
+
+
+def _vertical_crs(text: str):
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    try:
+        crs = CRS.from_user_input(text)
+    except CRSError:
+        return None
+    return crs if crs.is_vertical else None
+
+
+def name_datum(stated: str | None, given: str | None = None) -> DatumName:
+    """Which vertical datum the heights use: the rasters' (``stated``, as in the provenance) or ``given``.
+
+    ``stated`` is the provenance's vertical_datum text (names joined by "; ",
+    or :data:`UNSTATED`).  Raises InputError for a ``given`` that is not a
+    vertical CRS, or one that contradicts the rasters.
+    """
+    names = [n.strip() for n in (stated or "").split(";") if n.strip() and n.strip() != UNSTATED]
+    given_crs = None
+    if given:
+        given_crs = _vertical_crs(str(given))
+        if given_crs is None:
+            raise InputError(f"--vertical-crs {given!r} is not a vertical CRS known to PROJ; "
+                             "give e.g. EPSG:5773 (EGM96 height) or EPSG:3855 (EGM2008 height)")
+    if names:
+        name = names[0] if len(names) == 1 else "; ".join(names)
+        if given_crs is not None and given_crs.name not in names:
+            raise InputError(
+                f"the elevation rasters state their heights are {name}, but --vertical-crs {given!r} "
+                f"({given_crs.name}) was given; drop the option or fix the raster"
+            )
+        crs = given_crs if given_crs is not None else _vertical_crs(names[0])
+        sea = len(names) == 1 and crs is not None and _is_sea_level(crs)
+        return DatumName(name, "raster", sea)
+    if given_crs is not None:
+        return DatumName(given_crs.name, "planner", _is_sea_level(given_crs))
+    return DatumName("", "unknown", False)
+
+
+def apply_datum_name(record: dict, given: str | None) -> DatumName:
+    """Name the datum of a link's JSON record from its rasters or ``given``; set inputs.vertical_datum
+    and inputs.vertical_datum_sea_level.  Returns the name."""
+    inputs = record.setdefault("inputs", {})
+    stated = (record.get("provenance") or {}).get("vertical_datum", inputs.get("vertical_datum"))
+    datum = name_datum(stated, given)
+    if datum.source == "unknown":
+        # a geoid conversion may already have named it (profiler.link)
+        current = str(inputs.get("vertical_datum") or "")
+        if current and current != UNSTATED and "stated by the planner" in current:
+            name = current.split(" (stated by the planner")[0]
+            crs = _vertical_crs(name)
+            datum = DatumName(name, "planner", crs is not None and _is_sea_level(crs))
+    inputs["vertical_datum"] = datum.record()
+    inputs["vertical_datum_sea_level"] = datum.sea_level
+    return datum
+
+
+def datum_of_record(record: dict) -> DatumName:
+    """The DatumName a record states (after :func:`apply_datum_name`, or from its plain text)."""
+    inputs = record.get("inputs", {})
+    text = str(inputs.get("vertical_datum") or "").strip()
+    if not text or text == UNSTATED or text.startswith("as the raster"):
+        return DatumName("", "unknown", False)
+    planner = "stated by the planner" in text
+    name = text.split(" (stated by the planner")[0]
+    sea = inputs.get("vertical_datum_sea_level")
+    if sea is None:
+        crs = _vertical_crs(name)
+        sea = crs is not None and _is_sea_level(crs)
+    return DatumName(name, "planner" if planner else "raster", bool(sea))

@@ -45,7 +45,7 @@ def test_demo_ridge_deygout_no_longer_doubles_the_summit(cli, tmp_path):
     shutil.copy(REPO / "data" / "demo" / "terrain.tif", tmp_path / "terrain.tif")
     path = tmp_path / "link.toml"
     path.write_text(text.replace("../data/demo/terrain.tif", "terrain.tif"), encoding="utf-8")
-    r = json.loads(cli("link", str(path), "--json").output)
+    r = json.loads(cli("link", str(path), "--json").stdout)
     m = r["loss_db"]["diffraction_by_method"]
     for name in ("deygout", "epstein-peterson"):
         assert m["knife-edge"] - 1e-9 <= m[name] <= m["bullington"] + ALLOWANCE_DB, (name, m)

@@ -135,6 +135,6 @@ def test_screening_result_reads_its_links_layer(tmp_path):
 def test_huge_row_selection_is_refused_before_any_allocation():
     from profiler.io.pairs import parse_row_spec
 
-    with pytest.raises(InputError, match="more than 100,000 rows"):
+    with pytest.raises(InputError, match="at most 100,000"):
         parse_row_spec("1-999999999")
     assert parse_row_spec("1-3,7") == [1, 2, 3, 7]

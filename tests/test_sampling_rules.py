@@ -127,10 +127,10 @@ def test_a_surface_model_finer_than_the_terrain_sets_the_warning(cli):
     args = ["link", "--dem", str(DEMO_DEM), "--surface", str(REPO / "data" / "demo" / "town-surface.tif"),
             "--site-a", "-30.535178,-20.845193", "--site-b", "-30.534618,-20.830600",
             "--agl-a", "23", "--agl-b", "23", "--freq-ghz", "5.8", "--json"]
-    r = json.loads(cli(*args, "--spacing-m", "10").output)
+    r = json.loads(cli(*args, "--spacing-m", "10").stdout)
     assert r["inputs"]["finest_cell_m"] == pytest.approx(2.0, rel=0.01)
     assert r["inputs"]["spacing_coarser_than_raster"] is True
     assert any("recommended spacing 1 m" in w for w in r["warnings"])
-    r = json.loads(cli(*args).output)  # default: half the surface model's cell, no warning
+    r = json.loads(cli(*args).stdout)  # default: half the surface model's cell, no warning
     assert r["inputs"]["sample_spacing_m"] == pytest.approx(1.0, rel=0.01)
     assert r["inputs"]["spacing_coarser_than_raster"] is False

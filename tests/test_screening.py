@@ -13,6 +13,7 @@ from profiler.errors import InputError
 from profiler.geodesy import WGS84
 from profiler.io.sites import read_sites
 from profiler.link import Settings, Site, analyse_link
+from profiler.screening import VERDICTS as VERDICTS_BY_CODE
 from profiler.screening import PairPlan, count_pairs, iter_pair_blocks, screen
 from profiler.terrain import ElevationModel
 
@@ -101,7 +102,7 @@ def test_a_screened_pair_gives_exactly_the_numbers_of_terrahop_link(tmp_path):
     assert summary.pairs == 66
     links = _rows(tmp_path / "r.gpkg")
     picks = links.iloc[[0, 10, 30, 50, 65]]
-    assert set(links["verdict"]) >= {"viable", "blocked"}
+    assert set(links["verdict"]) >= {"viable", "obstructed"}
     index = {n: k for k, n in enumerate(sites.names)}
     with ElevationModel([DEMO_DEM]) as model:
         for _, row in picks.iterrows():
@@ -146,7 +147,7 @@ def test_output_layers_ranked_with_crs_and_columns(tmp_path):
     fade = links["fade_margin_db"].to_numpy()
     assert np.all(np.diff(fade) <= 0)
     assert list(links["rank"]) == list(range(1, len(links) + 1))
-    assert len(links) == summary.pairs == summary.viable + summary.marginal + summary.blocked + summary.errors
+    assert len(links) == summary.pairs == sum(summary.counts.values())
     # The site layer counts each link at both ends.
     assert points["pairs"].sum() == 2 * len(links)
     assert points["viable_links"].sum() == 2 * (links["verdict"] == "viable").sum()
@@ -154,7 +155,13 @@ def test_output_layers_ranked_with_crs_and_columns(tmp_path):
     # Verdicts follow their definitions.
     viable = links[links["verdict"] == "viable"]
     assert (viable["fade_margin_db"] >= 10).all() and viable["meets_criterion"].all()
-    assert (links[links["verdict"] == "blocked"]["fade_margin_db"] < 0).all()
+    for verdict, n in summary.counts.items():
+        assert (links["verdict"] == verdict.value).sum() == n
+        assert points[verdict.column].sum() == 2 * n
+    obstructed = links[links["verdict"] == "obstructed"]
+    assert len(obstructed) and not obstructed["line_of_sight"].any()
+    short = links[links["verdict"] == "budget-short"]
+    assert (short["fade_margin_db"] < 0).all() and short["meets_criterion"].all()
     # Where the needed equal rise fits under both masts, fixable is set.
     assert (links["mast_raise_m"] >= 0).all()
 
@@ -283,3 +290,37 @@ def test_the_command_line_imports_no_heavy_package_until_it_screens():
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, check=True)
     assert out.stdout.strip() == "[]"
+
+
+def test_verdicts_name_the_path_before_the_budget():
+    """A clear path with a negative margin is budget-short, never obstructed; no line of sight wins."""
+    from profiler.screening import Verdict, verdict_counts, verdicts
+
+    cols = {
+        "status": np.array([0, 0, 0, 0, 0, 0, 1]),
+        "line_of_sight": np.array([1, 1, 1, 1, 0, 0, 1]),
+        "meets_criterion": np.array([1, 1, 1, 0, 0, 0, 1]),
+        "fade_margin_db": np.array([12.0, 5.0, -3.0, 20.0, 30.0, -40.0, 12.0]),
+    }
+    codes = verdicts(cols, 10.0)
+    got = [Verdict(VERDICTS_BY_CODE[c]) for c in codes]
+    assert got == [Verdict.VIABLE, Verdict.MARGINAL, Verdict.BUDGET_SHORT, Verdict.CLEARANCE_SHORT,
+                   Verdict.OBSTRUCTED, Verdict.OBSTRUCTED, Verdict.ERROR]
+    counts = verdict_counts(codes)
+    assert counts[Verdict.OBSTRUCTED] == 2 and sum(counts.values()) == 7
+    assert Verdict.BUDGET_SHORT.column == "budget_short_links" and str(Verdict.BUDGET_SHORT) == "budget-short"
+
+
+def test_clear_path_with_gains_left_at_0_dbi_is_budget_short_not_obstructed(tmp_path):
+    """The demo's clear pairs with isotropic antennas: line of sight and the criterion met, margin < 0."""
+    import geopandas as gpd
+
+    sites, _ = read_sites(DEMO_SITES)
+    bare = Radio(5.8, tx_power_dbm=20)
+    with ElevationModel([DEMO_DEM]) as model:
+        summary = screen(sites, model, bare, Settings(), tmp_path / "r.gpkg", workers=1)
+    links = gpd.read_file(tmp_path / "r.gpkg", layer="links")
+    short = links[links["verdict"] == "budget-short"]
+    assert summary.count("budget-short") == len(short) > 0
+    assert short["line_of_sight"].all() and short["meets_criterion"].all()
+    assert (short["fade_margin_db"] < 0).all()

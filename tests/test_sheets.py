@@ -334,3 +334,94 @@ def test_availability_rows_when_the_record_has_them(batch):
     rows = {r.label: r for r in parameter_rows(rec)}
     assert rows["Availability, estimated"].left == "above 99.9999 % (target 99.99 %)"
     assert rows["Outage per year"].left == "rain 0 + multipath < 0.01 = < 0.01 min"
+
+
+# --- long names, distances in miles, mast labels -----------------------------
+
+def test_fit_cuts_a_very_long_name_with_few_measurements():
+    """Bounded time: a 20,000-character name is fitted with a handful of measurements, not one per character."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from profiler.sheets.page import _fit
+
+    fig = Figure(figsize=(11.7, 8.3), dpi=100)
+    FigureCanvasAgg(fig)
+    renderer = fig.canvas.get_renderer()
+    text = fig.text(0.1, 0.5, "Wide Name " * 2000, fontsize=8.5)
+    calls = 0
+    measure = text.get_window_extent
+
+    def counted(*args, **kw):
+        nonlocal calls
+        calls += 1
+        return measure(*args, **kw)
+
+    text.get_window_extent = counted
+    _fit(text, 300.0, renderer, 6.0)
+    assert calls <= 25
+    assert measure(renderer).width <= 300.0
+    assert text.get_text().endswith("…") and text.get_text().startswith("Wide Name")
+    assert text.get_fontsize() == 6.0
+
+
+def test_fit_leaves_a_short_name_whole():
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from profiler.sheets.page import _fit
+
+    fig = Figure(figsize=(11.7, 8.3), dpi=100)
+    FigureCanvasAgg(fig)
+    text = fig.text(0.1, 0.5, "Orrin Water Tank", fontsize=8.5)
+    _fit(text, 300.0, fig.canvas.get_renderer(), 6.0)
+    assert text.get_text() == "Orrin Water Tank" and text.get_fontsize() == 8.5
+
+
+def test_distances_in_miles_with_feet():
+    from profiler.sheets.table import MILE_M, distance_text
+
+    # International mile = 5280 ft x 0.3048 m = 1609.344 m (exact, 1959 agreement).
+    assert MILE_M == pytest.approx(1609.344, abs=1e-9)
+    assert distance_text(1.609344, "ft") == "1.000 mi"
+    assert distance_text(8.562, "ft", with_km=True) == "5.320 mi (8.562 km)"
+    assert distance_text(8.562, "m", with_km=True) == "8.562 km"
+
+
+def test_sheet_in_feet_gives_distances_in_miles(batch):
+    out, model = batch
+    rows = {r.label: r for r in parameter_rows(out.record(1), "ft")}
+    assert rows["Path length"].left.endswith("km)") and " mi " in rows["Path length"].left
+    assert rows["Worst point from a"].left.endswith(" mi")
+
+
+def _label_box_data(ax, label):
+    renderer = ax.figure.canvas.get_renderer()
+    box = label.get_window_extent(renderer)
+    (x0, y0), (x1, y1) = ax.transData.inverted().transform([(box.x0, box.y0), (box.x1, box.y1)])
+    return x0, x1, y0, y1
+
+
+@pytest.mark.parametrize("units", ["m", "ft"])
+def test_mast_labels_stay_off_the_ray_the_fresnel_zone_and_the_criterion_line(batch, units):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from profiler.sheets.drawing import draw_profile
+
+    out, model = batch
+    for i in range(2):
+        fig = Figure(figsize=(8, 3), dpi=100)
+        FigureCanvasAgg(fig)
+        ax = fig.add_axes([0.1, 0.15, 0.85, 0.8])
+        art = draw_profile(ax, profile_drawing(out, i), out.record(i), units=units)
+        assert "AGL" not in " ".join(lb.get_text() for lb in art.mast_labels)
+        assert any(lb.get_visible() for lb in art.mast_labels)
+        for label in art.mast_labels:
+            if not label.get_visible():
+                continue
+            x0, x1, y0, y1 = _label_box_data(ax, label)
+            for key in ("line", "f1_upper", "f1_lower", "criterion"):
+                xs, ys = art.lines[key].get_data()
+                inside = (xs >= x0) & (xs <= x1) & (ys >= y0) & (ys <= y1)
+                assert not inside.any(), (i, key, label.get_text())

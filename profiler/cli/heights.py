@@ -22,9 +22,15 @@ def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_
     with opened_link_data(resolved) as (model, surroundings):
         batch = analyse_resolved(resolved, model, surroundings)
         solution = solve_heights(batch, solve=solve, max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
+        from ..vertical import apply_datum_name
+
+        vertical_crs = getattr(resolved.mount_a, "vertical_crs", None)
+        given = batch.record(0)
+        if "error" not in given:
+            apply_datum_name(given, vertical_crs)
         out = {"name": resolved.title, **solution.record(),
-               "vertical_datum": batch.record(0)["inputs"].get("vertical_datum", ""),
-               "given": batch.record(0)}
+               "vertical_datum": given.get("inputs", {}).get("vertical_datum", ""),
+               "given": given}
         if solution.chosen is not None:
             again = analyse_resolved(
                 resolved, model, surroundings,
@@ -32,6 +38,8 @@ def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_
                 mount_b=Mount(solution.reference_b, solution.chosen.antenna_b_m),
             )
             out["link"] = again.record(0)
+            if "error" not in out["link"]:
+                apply_datum_name(out["link"], vertical_crs)
     return out
 
 

@@ -12,9 +12,25 @@ __all__ = ["link", "run_link"]
 
 
 def run_link(resolved) -> dict:
-    """Analyse a resolved link and return its JSON record."""
+    """Analyse a resolved link and return its JSON record (vertical datum named as known)."""
+    from ..vertical import apply_datum_name
+
     with opened_link_data(resolved) as (model, surroundings):
-        return analyse_resolved(resolved, model, surroundings).record(0)
+        record = analyse_resolved(resolved, model, surroundings).record(0)
+    if "error" not in record:
+        vertical_crs = getattr(resolved.mount_a, "vertical_crs", None) if resolved.mount_a is not None else None
+        apply_datum_name(record, vertical_crs)
+    return record
+
+
+def default_gain_warning(link_file: str | None, opts: dict) -> str | None:
+    """Warning for antenna gains given neither as flags nor in the link file (0 dBi default), else None."""
+    from ..io.linkfile import read_link_file
+    from .screen import gain_warning_text
+
+    section = read_link_file(link_file).radio if link_file else {}
+    missing = [t for t in ("a", "b") if opts.get(f"gain_{t}_dbi") is None and f"gain_{t}_dbi" not in section]
+    return gain_warning_text(missing, "--gain-a-dbi/--gain-b-dbi or [radio] gain_a_dbi/gain_b_dbi") if missing else None
 
 
 @click.command()
@@ -30,7 +46,13 @@ def link(link_file: str | None, as_json: bool, **opts) -> None:
     from ..io.report import format_link_summary
     from .options import resolve_link
 
-    record = run_link(resolve_link(link_file, opts))
+    resolved = resolve_link(link_file, opts)
+    record = run_link(resolved)
+    warning = default_gain_warning(link_file, opts)
+    if warning and "error" not in record:
+        click.echo(f"warning: {warning}", err=True)
+        if as_json:
+            record.setdefault("warnings", []).append(warning)
     if as_json:
         click.echo(json.dumps(record, indent=2))
     else:

@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from .options import analysis_options, climate_options, friendly_errors, radio_options, terrain_options
+from .options import RADIO_FLAGS, analysis_options, climate_options, friendly_errors, terrain_options
 
 __all__ = ["screen", "resolve_radio_settings", "format_screen_summary"]
 
@@ -19,6 +19,38 @@ def resolve_radio_settings(opts: dict):
     from .options import resolve_radio, resolve_settings
 
     return resolve_radio(opts), resolve_settings(opts)
+
+
+def verdict_lines(min_margin_db: float) -> list:
+    """(verdict, what it means) for the summary, in the order the checks are made, best first."""
+    from ..screening import Verdict
+
+    return [
+        (Verdict.VIABLE, f"meet the clearance criterion with >= {min_margin_db:g} dB fade margin"),
+        (Verdict.MARGINAL, f"meet the criterion and close, with less than {min_margin_db:g} dB fade margin"),
+        (Verdict.BUDGET_SHORT, "meet the criterion but do not close: fade margin below 0 dB "
+                               "(more gain or power, not a taller mast)"),
+        (Verdict.CLEARANCE_SHORT, "line of sight, but the Fresnel-zone clearance criterion fails"),
+        (Verdict.OBSTRUCTED, "no line of sight at the design k (terrain, buildings or trees)"),
+        (Verdict.ERROR, "could not be profiled (path leaves the rasters, nodata, same place)"),
+    ]
+
+
+def default_gain_warning(gain_col_used: bool, opts: dict) -> str | None:
+    """The warning for antenna gains left at the 0 dBi default, or None when gains were given."""
+    if gain_col_used:
+        return None
+    missing = [t for t in ("a", "b") if opts.get(f"gain_{t}_dbi") is None]
+    if not missing:
+        return None
+    return gain_warning_text(missing, "--gain-a-dbi/--gain-b-dbi or a gain_dbi column")
+
+
+def gain_warning_text(ends, how: str) -> str:
+    """One sentence: which ends' antenna gains are the 0 dBi default, and how to give them."""
+    which = " and ".join(f"site {t}" for t in ends)
+    return (f"antenna gain at {which} left at the default 0 dBi (an isotropic antenna): fade margins "
+            f"are low by the real gains; give {how}")
 
 
 def format_screen_summary(summary) -> str:
@@ -38,11 +70,9 @@ def format_screen_summary(summary) -> str:
     lines += [
         f"{summary.pairs} pairs of {summary.sites} sites screened{resumed} in {summary.seconds:.1f} s "
         f"({rate:,.0f} pairs/s, {summary.samples:,} terrain samples)",
-        f"  viable   {summary.viable:8d}  meet the clearance criterion with >= {summary.min_margin_db:g} dB fade margin",
-        f"  marginal {summary.marginal:8d}  close (fade margin >= 0 dB) but lack the clearance or the margin",
-        f"  blocked  {summary.blocked:8d}  do not close: fade margin below 0 dB at the design k",
-        f"  errors   {summary.errors:8d}  could not be profiled (path leaves the rasters, nodata, same place)",
-        f"  skipped  {len(bad):8d}  input rows (bad coordinates, outside the rasters, duplicate names...)",
+        *[f"  {v.value:<16}{summary.count(v):8d}  {text}"
+          for v, text in verdict_lines(summary.min_margin_db)],
+        f"  {'skipped':<16}{len(bad):8d}  input rows (bad coordinates, outside the rasters, duplicate names...)",
         "written: " + ", ".join(summary.outputs),
     ]
     return "\n".join(lines)
@@ -95,13 +125,24 @@ class _Progress:
             self.bar.__exit__(*exc)
 
 
+#: Radio flags as ``link`` has them, but screen takes no link file: the frequency is required here.
+_SCREEN_RADIO_HELP = {**RADIO_FLAGS, "freq_ghz": "Frequency, GHz (required)."}
+
+
+def _screen_radio_options(func):
+    for name in reversed(list(_SCREEN_RADIO_HELP)):
+        func = click.option(f"--{name.replace('_', '-')}", name, type=float, default=None,
+                            help=_SCREEN_RADIO_HELP[name])(func)
+    return func
+
+
 @click.command()
 @click.argument("sites_file", metavar="SITES", type=click.Path(dir_okay=False))
 @terrain_options
-@radio_options
+@_screen_radio_options
 @analysis_options
 @climate_options
-@click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
+@click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
               help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it, "
                    "as RESULT-sites). An existing result is kept unless --overwrite is given; "
                    "a path that is one of the inputs is refused.")
@@ -110,12 +151,20 @@ class _Progress:
               help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs.")
 @click.option("--hub", "hubs", multiple=True, metavar="NAME",
               help="Screen this site to every other site (repeatable) instead of all pairs.")
-@click.option("--name-col", default=None, help="Column of site names [default: name].")
-@click.option("--lat-col", default=None, help="Column of latitudes, CSV only [default: lat or latitude].")
-@click.option("--lon-col", default=None, help="Column of longitudes, CSV only [default: lon or longitude].")
-@click.option("--agl-col", default=None, help="Column of antenna heights above ground, m [default: antenna_agl_m].")
-@click.option("--gain-col", default=None, help="Column of antenna gains, dBi [default: gain_dbi if present].")
-@click.option("--max-mast-col", default=None, help="Column of the tallest mast allowed, m [default: max_mast_m if present].")
+@click.option("--name-col", default=None,
+              help="Column of site names [default: the first of name, site, site_name, id].")
+@click.option("--lat-col", default=None,
+              help="Column of latitudes, CSV only [default: the first of lat, latitude, lat_deg].")
+@click.option("--lon-col", default=None,
+              help="Column of longitudes, CSV only [default: the first of lon, lng, long, longitude, lon_deg].")
+@click.option("--agl-col", default=None,
+              help="Column of antenna heights above ground, m [default: the first of antenna_agl_m, agl_m, "
+                   "antenna_height_m, height_agl_m].")
+@click.option("--gain-col", default=None,
+              help="Column of antenna gains, dBi, overriding --gain-a-dbi/--gain-b-dbi [default: the first of "
+                   "gain_dbi, antenna_gain_dbi, if present].")
+@click.option("--max-mast-col", default=None,
+              help="Column of the tallest mast allowed, m [default: the first of max_mast_m, max_agl_m, if present].")
 @click.option("--agl-m", "default_agl_m", type=float, default=None,
               help="Antenna height above ground where the file has no height column, m [default: 10].")
 @click.option("--layer", default=None, help="Layer of a multi-layer sites file (GeoPackage).")
@@ -151,6 +200,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
 
     if not opts.get("dem"):
         raise InputError("no elevation raster: give --dem FILE (repeatable)")
+    if opts.get("freq_ghz") is None:
+        raise InputError("frequency missing: give --freq-ghz")
     if resume and restart:
         raise InputError("--resume and --restart contradict each other; give one")
     if pairs_file and hubs:
@@ -174,6 +225,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     )
     if len(sites) < 2:
         raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen")
+    gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     explicit = None
     if pairs_file:
         a, b, bad_pairs = read_pairs(pairs_file, sites.names)
@@ -200,6 +252,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         model.close()
     for note in summary.warnings:  # shown even with -q
         click.echo(f"warning: {note}", err=True)
+    if gain_warning:  # after the run, so a refused run still prints one line only
+        click.echo(f"warning: {gain_warning}", err=True)
     if not quiet:
         click.echo(format_screen_summary(summary))
         click.echo(f"columns: {sites.describe_columns()}")

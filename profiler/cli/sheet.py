@@ -26,7 +26,8 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
         resolved = resolve_link(f, opts)
         with opened_link_data(resolved) as (model, surroundings):
             batch = analyse_resolved(resolved, model, surroundings)
-            contents += sheet_contents(batch, model, title=title, checksums=checksums)
+            contents += sheet_contents(batch, model, title=title, checksums=checksums,
+                                       vertical_crs=_vertical_crs(resolved))
     return contents
 
 
@@ -42,7 +43,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
         raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
     table = read_pairs(pairs, layer=layer)
-    chosen = select_pairs(table, rows=parse_row_spec(rows) if rows else None, best=best)
+    numbers = [r.row for r in table.rows]
+    chosen = select_pairs(table, rows=parse_row_spec(rows, max(numbers, default=0)) if rows else None, best=best)
     if best is not None and not table.ranked:
         click.echo(f"note: {pairs} has no fade-margin column; --best takes the first {best} row(s) in file order",
                    err=True)
@@ -88,7 +90,12 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
                 click.echo(f"skipped: {problem}", err=True)
         if not good:
             raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
-        return sheet_contents(batch, model, title=title, indices=good)
+        return sheet_contents(batch, model, title=title, indices=good, vertical_crs=_vertical_crs(resolved))
+
+
+def _vertical_crs(resolved: Any) -> str | None:
+    """The vertical CRS the planner named (--vertical-crs or [terrain] vertical_crs), if any."""
+    return getattr(resolved.mount_a, "vertical_crs", None) if resolved.mount_a is not None else None
 
 
 def _agl(flag: float | None, column: float | None) -> float:
@@ -177,7 +184,10 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     )
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
-    pages = f"{len(contents)} page{'s' if len(contents) != 1 else ''}"
+    from ..sheets.page import continuation_pages
+
+    n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
+    pages = f"{n_pages} page{'s' if n_pages != 1 else ''}"
     if fmt == "pdf":
         click.echo(f"wrote {paths[0]} ({pages})")
     else:

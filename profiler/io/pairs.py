@@ -242,30 +242,41 @@ def _make_row(n: int, rec: dict, found: dict[str, str], geom: Any) -> PairRow:
     )
 
 
-#: Most rows one selection may name (each becomes a sheet page), so memory stays bounded.
-MAX_SELECTED_ROWS = 100_000
+def parse_row_spec(spec: str, n_rows: int | None = None) -> list[int]:
+    """'1,3,5-7' -> [1, 3, 5, 6, 7] (1-based data rows); InputError if garbled.
 
-
-def parse_row_spec(spec: str) -> list[int]:
-    """'1,3,5-7' -> [1, 3, 5, 6, 7] (1-based data rows); InputError if garbled."""
-    out: list[int] = []
+    With ``n_rows`` (the table's row count) a row past the end is refused
+    before any range is expanded, so '1-999999999' costs nothing.
+    """
+    ranges: list[tuple[int, int]] = []
     for part in str(spec).replace(" ", "").split(","):
         if not part:
             continue
-        m = re.fullmatch(r"(\d+)(?:-(\d+))?", part)
+        m = re.fullmatch(r"(\d{1,18})(?:-(\d{1,18}))?", part)
         if not m:
             raise InputError(f"row selection must look like 1,3,5-7, got {spec!r}")
         lo = int(m.group(1))
         hi = int(m.group(2) or lo)
         if lo < 1 or hi < lo:
             raise InputError(f"row selection {part!r}: rows count from 1 and ranges go upwards")
-        if len(out) + hi - lo + 1 > MAX_SELECTED_ROWS:
-            raise InputError(f"row selection {spec!r} names more than {MAX_SELECTED_ROWS:,} rows; "
-                             "select fewer rows (one sheet page each)")
-        out.extend(range(lo, hi + 1))
-    if not out:
+        if n_rows is not None and hi > n_rows:
+            beyond = f"{max(lo, n_rows + 1)}" + (f"-{hi}" if hi > max(lo, n_rows + 1) else "")
+            raise InputError(f"row selection {part!r}: no row {beyond}; the table has rows 1 to {n_rows}")
+        ranges.append((lo, hi))
+    if not ranges:
         raise InputError(f"row selection {spec!r} selects no rows")
+    total = sum(hi - lo + 1 for lo, hi in ranges)
+    if total > MAX_ROWS_SELECTED:
+        raise InputError(f"row selection {spec!r} picks {total:,} rows; at most {MAX_ROWS_SELECTED:,} "
+                         "sheets are drawn in one run")
+    out: list[int] = []
+    for lo, hi in ranges:
+        out.extend(range(lo, hi + 1))
     return list(dict.fromkeys(out))
+
+
+#: Most rows ``--rows`` may pick (each becomes a page).
+MAX_ROWS_SELECTED = 100_000
 
 
 def select_pairs(table: PairTable, *, rows: Sequence[int] | None = None, best: int | None = None) -> list[PairRow]:
@@ -280,9 +291,8 @@ def select_pairs(table: PairTable, *, rows: Sequence[int] | None = None, best: i
         by_number = {r.row: r for r in table.rows}
         absent = [n for n in rows if n not in by_number]
         if absent:
-            raise InputError(
-                f"{table.path}: no row {', '.join(map(str, absent))}; the table has rows 1 to {len(table.rows)}"
-            )
+            shown = ", ".join(map(str, absent[:10])) + (f" and {len(absent) - 10} more" if len(absent) > 10 else "")
+            raise InputError(f"{table.path}: no row {shown}; the table has rows 1 to {len(table.rows)}")
         chosen = [by_number[n] for n in rows]
     if best is not None:
         if best < 1:

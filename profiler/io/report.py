@@ -39,7 +39,7 @@ def _mount_lines(s: dict) -> list[str]:
     elif b:
         out.append(f"                   stands in building {b['feature']} (roof {s['roof_m']:.1f} m)")
     if s.get("antenna_reference") == "elevation":
-        out.append(f"                   antenna given as elevation {s['antenna_given_m']:g} m")
+        out.append(f"                   antenna given as {s['antenna_given_m']:g} m above the datum")
     if s.get("antenna_reference") == "ellipsoid":
         out.append(f"                   antenna given {s['antenna_ellipsoidal_m']:g} m above the WGS84 ellipsoid; "
                    f"geoid undulation {s['geoid_undulation_m']:.2f} m ({s['geoid_vertical_crs']})")
@@ -97,9 +97,11 @@ def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
         return f"{r['name']}: cannot analyse: {r['error']}"
+    from ..vertical import datum_of_record
+
     a, b = r["sites"]["a"], r["sites"]["b"]
     radio = r["inputs"]["radio"]
-    datum = r["inputs"].get("vertical_datum") or "that of the elevation raster"
+    datum = datum_of_record(r)
     lines = [
         f"== {r['name']} ==",
         f"path               {r['distance_km']:.3f} km   azimuth a->b {r['azimuth_a_to_b_deg']:.2f} deg, "
@@ -108,11 +110,13 @@ def format_link_summary(r: dict) -> str:
     for tag, s in (("a", a), ("b", b)):
         lines.append(
             f"site {tag}             {s['name']}  ({s['lat']:.6f}, {s['lon']:.6f})  ground "
-            f"{s['ground_m']:.1f} m, antenna {s['antenna_agl_m']:.1f} m AGL = {s['antenna_amsl_m']:.1f} m AMSL"
+            f"{s['ground_m']:.1f} m {datum.short()}; antenna {s['antenna_agl_m']:.1f} m above ground, "
+            f"{s['antenna_amsl_m']:.1f} m {datum.short()}"
         )
         lines += _mount_lines(s)
     lines += [
-        f"heights            metres; vertical datum: {datum}",
+        f"heights            metres {datum.phrase()}"
+        + ("" if datum.source != "unknown" else "; name it with --vertical-crs"),
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
         f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
         f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "

@@ -41,10 +41,12 @@ LINK_COLUMNS = (
     "availability_pct", "outage_min_per_year", "meets_availability",
     "method", "k", "k_worst", "samples", "spacing_m", "mast_raise_m", "problem",
 )
-#: Columns of the point layer, in order (extra site columns follow).
+#: Columns of the point layer, in order (extra site columns follow): pairs per
+#: verdict (profiler.screening.Verdict, value with "_" for "-", then "_links").
 SITE_COLUMNS = (
     "name", "lat", "lon", "antenna_agl_m", "pairs", "viable_links", "marginal_links",
-    "blocked_links", "error_links", "best_fade_margin_db", "best_partner",
+    "budget_short_links", "clearance_short_links", "obstructed_links", "error_links",
+    "best_fade_margin_db", "best_partner",
 )
 _BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion", "meets_availability"}
 
@@ -57,12 +59,14 @@ def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:
 
 
 def _site_stats(n_sites: int, cols: dict, codes: np.ndarray, names: np.ndarray) -> dict[str, np.ndarray]:
+    from ..screening import Verdict
+
     a, b = cols["a"], cols["b"]
     stats: dict[str, np.ndarray] = {"pairs": np.bincount(a, minlength=n_sites) + np.bincount(b, minlength=n_sites)}
-    for code, label in ((0, "viable_links"), (1, "marginal_links"), (2, "blocked_links"), (3, "error_links")):
-        m = codes == code
-        stats[label] = np.bincount(a[m], minlength=n_sites) + np.bincount(b[m], minlength=n_sites)
-    fade = np.where(codes == 3, -np.inf, cols["fade_margin_db"])
+    for verdict in Verdict:
+        m = codes == verdict.code
+        stats[verdict.column] = np.bincount(a[m], minlength=n_sites) + np.bincount(b[m], minlength=n_sites)
+    fade = np.where(codes == Verdict.ERROR.code, -np.inf, cols["fade_margin_db"])
     fade = np.where(np.isnan(fade), -np.inf, fade)
     best = np.full(n_sites, -np.inf)
     partner = np.full(n_sites, -1, dtype=np.int64)
@@ -231,7 +235,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
 
     from ..screening import VERDICTS
 
-    verdict_names = [VERDICTS[k] for k in sorted(VERDICTS)]
+    verdict_names = [VERDICTS[k].value for k in sorted(VERDICTS)]
     order = rank_order(keys)
     ranked_codes = codes[order]
     n_rows = order.size

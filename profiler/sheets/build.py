@@ -26,13 +26,17 @@ def sheet_contents(
     indices: Sequence[int] | None = None,
     checksums: dict[str, str] | None = None,
     draw_map: bool = True,
+    vertical_crs: str | None = None,
 ) -> list[SheetContent]:
     """One :class:`SheetContent` per link of ``batch`` (a LinkBatch analysed on ``model``).
 
     ``indices`` picks links (default: every link without a problem);
     ``checksums`` caches SHA-256 sums by raster path across calls.
-    Sheet numbers are filled in by the caller once all links are known.
+    ``vertical_crs`` names the rasters' vertical datum when they do not
+    (``--vertical-crs``).  Sheet numbers are filled in by the caller once all
+    links are known.
     """
+    from ..vertical import apply_datum_name
     from .minimap import read_map_grid
 
     checksums = {} if checksums is None else checksums
@@ -55,6 +59,7 @@ def sheet_contents(
         lon = np.asarray(batch.profiles.lon_deg[i, :n], dtype=float)
         grid = read_map_grid(model.sources, lat, lon, aspect=MAP_ASPECT) if draw_map else None
         record = batch.record(i)
+        apply_datum_name(record, vertical_crs)
         out.append(
             SheetContent(
                 record=record,

@@ -15,7 +15,7 @@ import numpy as np
 
 from .content import CLUTTER_KINDS, ProfileDrawing
 from .style import COLOURS
-from .table import HEIGHT_UNITS, format_k, height_text
+from .table import DISTANCE_UNITS, HEIGHT_UNITS, distance_text, format_k, height_text
 
 __all__ = ["ProfileArtists", "draw_profile", "wall_samples", "curvature_note", "vertical_exaggeration", "profile_limits_m"]
 
@@ -37,6 +37,7 @@ class ProfileArtists:
     clutter: dict
     y_limits: tuple[float, float]
     lines: dict
+    mast_labels: list = None
 
 
 def wall_samples(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -85,7 +86,7 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
                  type_scale: float = 1.0, datum_label: str = "") -> ProfileArtists:
     """Draw terrain, clutter, ray, Fresnel zone, masts and the worst point on ``ax``.
 
-    Heights are shown in ``units`` ("m" or "ft"); distances in km from site a.
+    Heights are shown in ``units`` ("m" or "ft"); distances from site a in km (or miles with "ft").
     """
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
@@ -93,7 +94,8 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     fs = 7.0 * type_scale
     ts = type_scale
     u = 1.0 / HEIGHT_UNITS[units]
-    x = d.distance_m / 1000.0
+    dist_name, dist_per_m = DISTANCE_UNITS[units]
+    x = d.distance_m / dist_per_m
     bottom_m, top_m, _ = profile_limits_m(d)
     base = (bottom_m + d.bulge_m) * u
     ground = (d.ground_m + d.bulge_m) * u
@@ -107,7 +109,7 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     if np.isfinite(d.freq_ghz):
         from ..geometry import fresnel_radius_m
 
-        f1_s = fresnel_radius_m(xs * 1000.0, np.maximum(d.length_m - xs * 1000.0, 0.0), d.freq_ghz) * u
+        f1_s = fresnel_radius_m(xs * dist_per_m, np.maximum(d.length_m - xs * dist_per_m, 0.0), d.freq_ghz) * u
     else:
         f1_s = np.interp(xs, x, f1)
     kd, kw = format_k(d.k), format_k(d.k_worst)
@@ -177,7 +179,7 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
             g = float(rec["roof_m"]) * u
             label = f"{height_text(rec['antenna_above_roof_m'], units)} above roof"
         else:
-            label = f"{height_text(rec['antenna_agl_m'], units)} AGL"
+            label = f"{height_text(rec['antenna_agl_m'], units)} above ground"
         ax.plot([xi, xi], [g, top], color=COLOURS["mast"], lw=2.4 * ts, solid_capstyle="butt", zorder=7)
         ax.plot([xi], [top], marker="D", ms=4.5 * ts, color=COLOURS["mast"], zorder=8, clip_on=False)
         mast_labels.append(ax.annotate(
@@ -200,13 +202,13 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
                          mfc=COLOURS["worst_point"], mec="white", label="worst point and its clearance"))
     head = "OBSTRUCTED" if blocked else "worst point"
     text = (
-        f"{head} at k = {kd}: {c['worst_distance_km']:.3f} km from a\n"
+        f"{head} at k = {kd}: {distance_text(c['worst_distance_km'], units)} from a\n"
         f"clearance {height_text(c['worst_clearance_m'], units, signed=True)} = {c['worst_f1_fraction']:+.2f} F1"
     )
     if blocked:
         text += " (surface above the line)"
-    length_km = x[-1]
-    xa = min(max(x[j] / length_km, 0.28), 0.72) if length_km > 0 else 0.5
+    length = x[-1]
+    xa = min(max(x[j] / length, 0.28), 0.72) if length > 0 else 0.5
     worst_label = ax.annotate(
         text, xy=(x[j], max(surface[j], line[j])), xytext=(xa, 0.955), textcoords="axes fraction",
         ha="center", va="top", fontsize=fs, color=COLOURS["ink"], zorder=10,
@@ -214,10 +216,12 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
         arrowprops=dict(arrowstyle="-|>", color=COLOURS["worst_point"], lw=0.8 * ts, shrinkA=0, shrinkB=4),
     )
 
-    ax.set_xlim(0.0, length_km)
+    ax.set_xlim(0.0, length)
     ax.set_ylim(bottom_m * u, top_m * u)
-    _move_off_worst_point(ax, mast_labels, mast_tops, (x[j], min(surface[j], line[j]), max(surface[j], line[j])))
-    ax.set_xlabel("Distance from site a, km", fontsize=fs * 1.05, labelpad=2)
+    keep_out = _KeepOut(xs, line_s, f1_s, x, np.maximum(surface, surface_w), worst_label,
+                        (x[j], min(surface[j], line[j]), max(surface[j], line[j])))
+    _place_mast_labels(ax, mast_labels, mast_tops, keep_out)
+    ax.set_xlabel(f"Distance from site a, {dist_name}", fontsize=fs * 1.05, labelpad=2)
     ylabel = f"Elevation, {units}"
     if datum_label:
         ylabel += f" ({datum_label})"
@@ -229,7 +233,74 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     ax.set_axisbelow(True)
     for spine in ax.spines.values():
         spine.set_linewidth(0.7)
-    return ProfileArtists(legend, marker, worst_label, clutter_artists, (bottom_m * u, top_m * u), lines)
+    return ProfileArtists(legend, marker, worst_label, clutter_artists, (bottom_m * u, top_m * u), lines,
+                          mast_labels)
+
+
+@dataclass
+class _KeepOut:
+    """What a mast label must not cover: the Fresnel zone (with the ray and the criterion line inside
+    it), the surface lines, the worst point and its label.  Drawing units (km or mi, height unit)."""
+
+    xs: np.ndarray
+    line: np.ndarray
+    f1: np.ndarray
+    x: np.ndarray
+    surface: np.ndarray
+    worst_label: Any
+    worst: tuple[float, float, float]
+
+    def hits(self, ax: Any, box: Any, others: list) -> bool:
+        """True if the pixel box ``box`` covers any of it, leaves the axes, or covers ``others``."""
+        renderer = ax.figure.canvas.get_renderer()
+        frame = ax.get_window_extent(renderer)
+        if box.x0 < frame.x0 or box.x1 > frame.x1 or box.y0 < frame.y0 or box.y1 > frame.y1:
+            return True
+        (x0, y0), (x1, y1) = ax.transData.inverted().transform([(box.x0, box.y0), (box.x1, box.y1)])
+        pad_px = 2.0
+        (_, dy0), (_, dy1) = ax.transData.inverted().transform([(0, 0), (0, pad_px)])
+        pad = abs(dy1 - dy0)
+        y0, y1 = y0 - pad, y1 + pad
+        inside = (self.xs >= x0) & (self.xs <= x1)
+        lo, hi = self.line - self.f1, self.line + self.f1
+        band = np.r_[np.interp([x0, x1], self.xs, lo), lo[inside]], np.r_[np.interp([x0, x1], self.xs, hi), hi[inside]]
+        if np.any((band[0] < y1) & (band[1] > y0)):
+            return True
+        inside = (self.x >= x0) & (self.x <= x1)
+        surf = np.r_[np.interp([x0, x1], self.x, self.surface), self.surface[inside]]
+        if np.any((surf > y0) & (surf < y1)):  # a surface line crosses the box
+            return True
+        xw, w_lo, w_hi = self.worst
+        if x0 <= xw <= x1 and w_lo < y1 and w_hi > y0:
+            return True
+        for other in [self.worst_label, *others]:
+            if other is not None and other.get_visible() and box.overlaps(other.get_window_extent(renderer)):
+                return True
+        return False
+
+
+def _place_mast_labels(ax: Any, labels: list, masts: list, keep_out: _KeepOut) -> None:
+    """Put each mast label where it covers neither the Fresnel zone, the ray, the criterion line,
+    the surface nor the worst point: beside the mast, then above the zone, then near the foot.
+    A label with no free place is hidden; the heading above the drawing states the same heights."""
+    renderer = ax.figure.canvas.get_renderer()
+    placed: list = []
+    for label, (xi, foot, top, dx) in zip(labels, masts):
+        mid = (xi, (foot + top) / 2)
+        candidates = [(mid, (dx, 0), "center")]
+        candidates += [((xi, top), (dx, 4 + 5 * n), "bottom") for n in range(12)]
+        candidates += [((xi, foot), (dx, 3), "bottom"), ((xi, foot), (dx, -3), "top")]
+        candidates += [((xi, top), (dx, -4 - 5 * n), "top") for n in range(12)]
+        for xy, offset, va in candidates:
+            label.xy = xy
+            label.set_position(offset)
+            label.set_verticalalignment(va)
+            label.set_rotation(0)
+            if not keep_out.hits(ax, label.get_window_extent(renderer), placed):
+                placed.append(label)
+                break
+        else:
+            label.set_visible(False)
 
 
 def _move_off_worst_point(ax: Any, labels: list, masts: list, worst: tuple[float, float, float]) -> None:
@@ -269,6 +340,6 @@ def vertical_exaggeration(ax: Any, units: str = "m") -> float:
     bbox = ax.get_window_extent().transformed(ax.figure.dpi_scale_trans.inverted())
     x0, x1 = ax.get_xlim()
     y0, y1 = ax.get_ylim()
-    horiz = (x1 - x0) * 1000.0 / bbox.width
+    horiz = (x1 - x0) * DISTANCE_UNITS[units][1] / bbox.width
     vert = (y1 - y0) * HEIGHT_UNITS[units] / bbox.height
     return horiz / vert if vert > 0 else float("nan")

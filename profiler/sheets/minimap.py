@@ -140,7 +140,8 @@ def nice_scale_length_m(span_m: float) -> float:
     return power  # pragma: no cover - the loop always returns
 
 
-def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index: int | None = None) -> None:
+def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index: int | None = None,
+                 miles: bool = False) -> None:
     """Hillshade, the path, both sites, a north arrow and a scale bar on ``ax``.
 
     ``worst_index`` (a profile sample) marks the worst point on the path.
@@ -185,7 +186,17 @@ def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index
             fontweight="bold", color=COLOURS["ink"],
             bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none", alpha=0.8))
     # Scale bar.
-    bar = nice_scale_length_m(span_x)
+    if miles:  # a round number of miles, or of feet below half a mile
+        mile_m, foot_m = 1609.344, 0.3048
+        if span_x / 4.0 >= 0.5 * mile_m:
+            bar_units = nice_scale_length_m(span_x / mile_m)
+            bar, label = bar_units * mile_m, f"{bar_units:g} mi"
+        else:
+            bar_units = nice_scale_length_m(span_x / foot_m)
+            bar, label = bar_units * foot_m, f"{bar_units:g} ft"
+    else:
+        bar = nice_scale_length_m(span_x)
+        label = f"{bar / 1000:g} km" if bar >= 1000 else f"{bar:g} m"
     x0 = left + (bar_at[0] - 0.125) * span_x
     y0 = bottom + (bar_at[1] - 0.03) * span_y
     h = 0.018 * span_y
@@ -194,7 +205,6 @@ def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index
                        fc="white", ec="none", alpha=0.85))
     ax.add_patch(_rect(x0, y0, half, h, fc=COLOURS["ink"], ec=COLOURS["ink"], lw=0.6 * type_scale))
     ax.add_patch(_rect(x0 + half, y0, half, h, fc="white", ec=COLOURS["ink"], lw=0.6 * type_scale))
-    label = f"{bar / 1000:g} km" if bar >= 1000 else f"{bar:g} m"
     ax.text(x0 + bar / 2, y0 + h + 0.012 * span_y, label, ha="center", va="bottom", fontsize=fs, color=COLOURS["ink"],
             zorder=7)
     ax.set_xlim(left, right)

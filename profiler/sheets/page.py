@@ -16,9 +16,10 @@ from typing import Any, Sequence
 
 from .content import SheetContent
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
-from .table import Row, format_k, parameter_rows, vertical_datum_text
+from .table import Row, above_datum_label, distance_text, format_k, parameter_rows, vertical_datum_text
 
-__all__ = ["FORMATS", "CAUTION", "render_page", "write_sheets", "sheet_paths"]
+__all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
+           "sheet_paths"]
 
 #: Output formats: PDF holds every link as one page; PNG and SVG write one file per link.
 FORMATS = ("pdf", "png", "svg")
@@ -34,8 +35,11 @@ CAUTION = (
 _A4 = (297.0, 210.0)
 #: Rasters listed in full in the provenance block; more are named in one line.
 _MAX_SOURCES_LISTED = 3
-#: Obstructions named one by one in the drawing notes.
+#: Obstructions named one by one in the drawing notes; all of them go on continuation pages when more.
 _MAX_CROSSED_LISTED = 3
+#: Obstructions listed per column, and columns per continuation page.
+_CONT_ROWS = 38
+_CONT_COLUMNS = 2
 
 
 class _Layout:
@@ -66,25 +70,59 @@ def _wrap(text: str, width_mm: float, size_pt: float, lay: _Layout) -> str:
 
 
 def _fit(artist: Any, max_width_px: float, renderer: Any, min_size: float) -> None:
-    """Shrink a text artist's font until it fits ``max_width_px``; then cut with an ellipsis."""
+    """Shrink a text artist's font until it fits ``max_width_px``; then cut with an ellipsis.
+
+    A few measurements whatever the length of the text: the font size is
+    scaled in one step, the text is first cut to what could ever fit (no
+    glyph is narrower than about a quarter em in DejaVu Sans), and the cut
+    is found by bisection on the length.
+    """
     size = artist.get_fontsize()
-    while artist.get_window_extent(renderer).width > max_width_px and size > min_size:
-        size -= 0.25
-        artist.set_fontsize(size)
     text = artist.get_text()
-    while artist.get_window_extent(renderer).width > max_width_px and len(text) > 4:
-        text = text[:-2]
-        artist.set_text(text.rstrip() + "…")
+    min_px = min_size * renderer.points_to_pixels(1.0)
+    cap = max(8, int(max_width_px / (0.2 * min_px)) + 2)
+    lines = text.split("\n")
+    if any(len(line) > cap for line in lines):  # each line of a block is cut on its own
+        text = "\n".join(line[:cap] + ("…" if len(line) > cap else "") for line in lines)
+        artist.set_text(text)
+    width = artist.get_window_extent(renderer).width
+    for _ in range(4):  # width is about proportional to the size; a few steps settle rounding
+        if width <= max_width_px or size <= min_size:
+            break
+        size = max(min_size, min(size - 0.25, size * max_width_px / width))
+        artist.set_fontsize(size)
+        width = artist.get_window_extent(renderer).width
+    if width <= max_width_px:
+        return
+
+    def fits(n: int) -> bool:
+        artist.set_text(text[:n].rstrip() + "…")
+        return artist.get_window_extent(renderer).width <= max_width_px
+
+    lo, hi = min(4, len(text)), len(text) - 1  # the longest prefix that fits lies in lo..hi
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if fits(mid):
+            lo = mid
+        else:
+            hi = mid - 1
+    artist.set_text(text[:lo].rstrip() + "…")
 
 
-def _header(fig: Any, c: SheetContent, lay: _Layout) -> None:
+def _clip(text: str, n: int) -> str:
+    """``text`` cut to ``n`` characters with an ellipsis (long names in running text)."""
+    text = str(text)
+    return text if len(text) <= n else text[: n - 1].rstrip() + "…"
+
+
+def _header(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
     r = c.record
-    a, b = r["sites"]["a"]["name"], r["sites"]["b"]["name"]
+    a, b = (_clip(r["sites"][t]["name"], 48) for t in ("a", "b"))
     radio = r["inputs"]["radio"]
     title = fig.text(*lay.xy(8, 199.5), c.name or f"{a} - {b}", fontsize=lay.fs(13), fontweight="bold",
                      color=COLOURS["ink"], va="baseline")
-    fig.text(*lay.xy(8, 193.5),
-             f"Path profile sheet   ·   a: {a}  →  b: {b}   ·   {r['distance_km']:.3f} km   ·   "
+    subtitle = fig.text(*lay.xy(8, 193.5),
+             f"Path profile sheet   ·   a: {a}  →  b: {b}   ·   {distance_text(r['distance_km'], units, True)}   ·   "
              f"{radio['freq_ghz']:g} GHz   ·   design k = {format_k(r['k'])}",
              fontsize=lay.fs(7.5), color=COLOURS["muted"], va="baseline")
     ok = bool(r["meets_criterion"])
@@ -96,6 +134,7 @@ def _header(fig: Any, c: SheetContent, lay: _Layout) -> None:
     fig.add_artist(_hline(fig, lay, 8, 289, 189.0, lw=0.9))
     renderer = fig.canvas.get_renderer()
     _fit(title, fig.bbox.width * (196 - 8) / _A4[0], renderer, lay.fs(9))
+    _fit(subtitle, fig.bbox.width * (240 - 8) / _A4[0], renderer, lay.fs(7.5))
 
 
 def _hline(fig: Any, lay: _Layout, x0: float, x1: float, y: float, lw: float = 0.5, color: str | None = None):
@@ -111,7 +150,8 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
     datum = vertical_datum_text(r)
-    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else datum
+    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else \
+        datum.split(" (stated by the planner")[0]
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
     from .table import height_text
 
@@ -121,10 +161,13 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
         name = fig.text(*lay.xy(x_mm, 182.0), f"{tag}  {s['name']}", ha=ha, va="baseline", fontsize=lay.fs(8.5),
                         fontweight="bold", color=COLOURS["site_a" if tag == "a" else "site_b"])
         _fit(name, fig.bbox.width * 84 / _A4[0], renderer, lay.fs(6))
-        fig.text(*lay.xy(x_mm, 178.3),
-                 f"antenna {height_text(s['antenna_agl_m'], units)} above ground, "
-                 f"{height_text(s['antenna_amsl_m'], units)} above datum",
-                 ha=ha, va="baseline", fontsize=lay.fs(6.5), color=COLOURS["ink"])
+        roof = (f"{height_text(s['antenna_above_roof_m'], units)} above the roof, "
+                if s.get("roof_m") is not None and s.get("antenna_above_roof_m") is not None else "")
+        heights = fig.text(*lay.xy(x_mm, 178.3),
+                           f"antenna {roof}{height_text(s['antenna_agl_m'], units)} above ground, "
+                           f"{height_text(s['antenna_amsl_m'], units)} {above_datum_label(r)}",
+                           ha=ha, va="baseline", fontsize=lay.fs(6.5), color=COLOURS["ink"])
+        _fit(heights, fig.bbox.width * 84 / _A4[0], renderer, lay.fs(4.8))
     fig.legend(handles=art.legend, loc="upper center", bbox_to_anchor=lay.xy(108, 101.5), ncol=4,
                fontsize=lay.fs(6.4), frameon=False, handlelength=2.6, columnspacing=1.4, handletextpad=0.6,
                borderaxespad=0.0, labelspacing=0.35)
@@ -182,7 +225,7 @@ def _table(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     ax.add_patch(Rectangle((0, 0), 1, 1, fill=False, ec=COLOURS["ink"], lw=0.7 * lay.s))
 
 
-def _minimap(fig: Any, c: SheetContent, lay: _Layout) -> None:
+def _minimap(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
     from .minimap import draw_minimap
 
     x0, y0, w, h = 8.0, 15.0, 68.0, 60.0
@@ -196,7 +239,7 @@ def _minimap(fig: Any, c: SheetContent, lay: _Layout) -> None:
         ax.text(0.5, 0.5, "map not drawn", ha="center", va="center", transform=ax.transAxes,
                 fontsize=lay.fs(7), color=COLOURS["muted"])
         return
-    draw_minimap(ax, g, type_scale=lay.s, worst_index=c.drawing.worst_index)
+    draw_minimap(ax, g, type_scale=lay.s, worst_index=c.drawing.worst_index, miles=units == "ft")
     import numpy as np
 
     blank = " White: no elevation data." if np.isnan(g.elevation_m).any() else ""
@@ -291,6 +334,15 @@ def _feature_height(f: dict, units: str) -> str:
     return "height not given"
 
 
+def _span_text(f: dict, units: str) -> str:
+    """'0.176-0.394 km' (or mi): where along the path a feature is crossed."""
+    from .table import DISTANCE_UNITS
+
+    name, per_m = DISTANCE_UNITS[units]
+    k = 1000.0 / per_m
+    return f"{f.get('from_km', math.nan) * k:.3f}-{f.get('to_km', math.nan) * k:.3f} {name}"
+
+
 def _obstruction_note(c: SheetContent, units: str = "m") -> str:
     from .content import CLUTTER_KINDS
     from .table import height_text
@@ -300,9 +352,11 @@ def _obstruction_note(c: SheetContent, units: str = "m") -> str:
         parts = []
         for f in crossed[:_MAX_CROSSED_LISTED]:
             what = " ".join(str(v) for v in (f.get("kind", ""), f.get("feature", "")) if v not in ("", None))
-            span = f"{f.get('from_km', math.nan):.3f}-{f.get('to_km', math.nan):.3f} km"
+            span = _span_text(f, units)
             parts.append(f"{what or 'obstruction'} at {span}, {_feature_height(f, units)}")
-        more = f"; and {len(crossed) - _MAX_CROSSED_LISTED} more" if len(crossed) > _MAX_CROSSED_LISTED else ""
+        more = (f"; and {len(crossed) - _MAX_CROSSED_LISTED} more: all {len(crossed)} are listed on the "
+                f"continuation page{'s' if continuation_pages(c) > 1 else ''} of this sheet"
+                if len(crossed) > _MAX_CROSSED_LISTED else "")
         return f"Obstructions crossed, from site a: {'; '.join(parts)}{more}. They count in the clearance."
     d = c.drawing
     present = d.clutter_m > 0
@@ -360,6 +414,67 @@ def _title_block(fig: Any, c: SheetContent, lay: _Layout) -> None:
             _fit(tv, fig.bbox.width * (cell_w - 3.6) / _A4[0], renderer, lay.fs(5.0))
 
 
+def continuation_pages(content: SheetContent) -> int:
+    """Continuation pages a sheet needs to list every obstruction crossed (0 when the notes hold them)."""
+    crossed = (content.record.get("clutter") or {}).get("crossed") or []
+    if len(crossed) <= _MAX_CROSSED_LISTED:
+        return 0
+    per_page = _CONT_ROWS * _CONT_COLUMNS
+    return -(-len(crossed) // per_page)
+
+
+def render_continuation(content: SheetContent, page: str | PageSize = "a4", units: str = "m") -> list:
+    """Figures listing every obstruction the path crosses, for a sheet whose notes name only the first few."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+
+    size = page if isinstance(page, PageSize) else page_size(page)
+    crossed = (content.record.get("clutter") or {}).get("crossed") or []
+    n_pages = continuation_pages(content)
+    per_page = _CONT_ROWS * _CONT_COLUMNS
+    figs = []
+    for k in range(n_pages):
+        fig = Figure(figsize=size.size_in, dpi=100)
+        FigureCanvasAgg(fig)
+        fig.patch.set_facecolor("white")
+        lay = _Layout(size)
+        renderer = fig.canvas.get_renderer()
+        title = fig.text(*lay.xy(8, 199.5), content.name, fontsize=lay.fs(13), fontweight="bold",
+                         color=COLOURS["ink"], va="baseline")
+        _fit(title, fig.bbox.width * (230 - 8) / _A4[0], renderer, lay.fs(9))
+        fig.text(*lay.xy(8, 193.5),
+                 f"Obstructions crossed by the path, from site a (continuation {k + 1} of {n_pages} of sheet "
+                 f"{content.sheet_number} of {content.sheet_count}); they count in the clearance.",
+                 fontsize=lay.fs(7.5), color=COLOURS["muted"], va="baseline")
+        fig.add_artist(_hline(fig, lay, 8, 289, 189.0, lw=0.9))
+        chunk = crossed[k * per_page:(k + 1) * per_page]
+        col_w = (289.0 - 8.0) / _CONT_COLUMNS
+        for c in range(_CONT_COLUMNS):
+            rows = chunk[c * _CONT_ROWS:(c + 1) * _CONT_ROWS]
+            if not rows:
+                break
+            x0 = 8.0 + c * col_w
+            for j, head in enumerate(("#", "kind", "feature", "along the path", "height")):
+                fig.text(*lay.xy(x0 + (0, 7, 24, 76, 104)[j], 184.0), head, fontsize=lay.fs(6.5),
+                         fontweight="bold", color=COLOURS["ink"], va="baseline")
+            for i, f in enumerate(rows):
+                y = 179.5 - i * 4.2
+                number = k * per_page + c * _CONT_ROWS + i + 1
+                cells = (str(number), str(f.get("kind", "")), str(f.get("feature", "")), _span_text(f, units),
+                         _feature_height(f, units))
+                widths = (6, 16, 50, 27, 36)
+                for j, text in enumerate(cells):
+                    t = fig.text(*lay.xy(x0 + (0, 7, 24, 76, 104)[j], y), text, fontsize=lay.fs(6.5),
+                                 color=COLOURS["ink"], va="baseline")
+                    if j in (2, 4):
+                        _fit(t, fig.bbox.width * widths[j] / _A4[0], renderer, lay.fs(5.0))
+        fig.text(*lay.xy(289, 8), f"{content.title.software}  ·  path profile sheet, continued", ha="right", fontsize=lay.fs(6),
+                 color=COLOURS["muted"], va="baseline")
+        figs.append(fig)
+    return figs
+
+
 def render_page(content: SheetContent, page: str | PageSize = "a4", units: str = "m") -> Any:
     """A matplotlib Figure holding the sheet of one link (call within ``matplotlib.rc_context(RC_PARAMS)``)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -370,10 +485,10 @@ def render_page(content: SheetContent, page: str | PageSize = "a4", units: str =
     FigureCanvasAgg(fig)
     fig.patch.set_facecolor("white")
     lay = _Layout(size)
-    _header(fig, content, lay)
+    _header(fig, content, lay, units)
     _profile(fig, content, lay, units)
     _table(fig, content, lay, units)
-    _minimap(fig, content, lay)
+    _minimap(fig, content, lay, units)
     _notes(fig, content, lay, units)
     _title_block(fig, content, lay)
     return fig
@@ -429,8 +544,17 @@ def write_sheets(
                 for c in contents:
                     fig = render_page(c, size, units)
                     pdf.savefig(fig)
+                    for cont in render_continuation(c, size, units):
+                        pdf.savefig(cont)
         else:
+            written = []
             for c, path in zip(contents, paths):
                 fig = render_page(c, size, units)
                 fig.savefig(path, format=fmt, dpi=dpi, facecolor="white")
+                written.append(path)
+                for k, cont in enumerate(render_continuation(c, size, units)):
+                    extra = path.with_name(f"{path.stem}-obstructions-{k + 1}{path.suffix}")
+                    cont.savefig(extra, format=fmt, dpi=dpi, facecolor="white")
+                    written.append(extra)
+            paths = written
     return paths

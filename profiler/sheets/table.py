@@ -18,7 +18,10 @@ __all__ = [
     "format_dms",
     "format_k",
     "height_text",
+    "distance_text",
+    "DISTANCE_UNITS",
     "vertical_datum_text",
+    "above_datum_label",
     "criterion_text",
     "availability_rows",
     "parameter_rows",
@@ -26,6 +29,27 @@ __all__ = [
 
 #: Height units a sheet can show, and metres per unit.
 HEIGHT_UNITS = {"m": 1.0, "ft": FEET_TO_M}
+
+#: International mile, m: 5280 ft of 0.3048 m (exact by the 1959 international yard and pound agreement).
+MILE_M = 5280.0 * FEET_TO_M
+
+#: Distance unit that goes with each height unit, and metres per unit: a sheet in feet gives
+#: distances in miles (the usual pairing where heights are in feet; common practice).
+DISTANCE_UNITS = {"m": ("km", 1000.0), "ft": ("mi", MILE_M)}
+
+
+def distance_text(distance_km: float, units: str = "m", with_km: bool = False) -> str:
+    """A distance along the path in the sheet's distance unit (km, or mi with ``units`` "ft"), 3 decimals.
+
+    ``with_km`` adds the kilometres in brackets when the unit is miles.
+    """
+    if distance_km is None or not math.isfinite(distance_km):
+        return "-"
+    name, per_m = DISTANCE_UNITS[units]
+    text = f"{distance_km * 1000.0 / per_m:.3f} {name}"
+    if with_km and name != "km":
+        text += f" ({distance_km:.3f} km)"
+    return text
 
 
 @dataclass(frozen=True)
@@ -79,10 +103,19 @@ def height_text(value_m: float, units: str = "m", signed: bool = False) -> str:
 
 def vertical_datum_text(record: dict) -> str:
     """Name of the vertical datum of the heights, or a plain statement that the raster gives none."""
-    datum = (record.get("inputs", {}).get("vertical_datum") or "").strip()
-    if not datum or datum.startswith("as the raster"):
+    from ..vertical import datum_of_record
+
+    datum = datum_of_record(record)
+    if datum.source == "unknown":
         return "of the elevation raster (not stated in the file)"
-    return datum
+    return datum.record()
+
+
+def above_datum_label(record: dict) -> str:
+    """'above sea level' for a sea-level datum (EGM96, NAVD88...), else 'above the datum'."""
+    from ..vertical import datum_of_record
+
+    return datum_of_record(record).short()
 
 
 def criterion_text(record: dict) -> str:
@@ -125,7 +158,7 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
         Row("Ground elevation", height_text(a["ground_m"], units), height_text(b["ground_m"], units)),
         Row("Antenna above ground", height_text(a["antenna_agl_m"], units),
             height_text(b["antenna_agl_m"], units)),
-        Row("Antenna above datum", height_text(a["antenna_amsl_m"], units),
+        Row(f"Antenna {above_datum_label(record)}", height_text(a["antenna_amsl_m"], units),
             height_text(b["antenna_amsl_m"], units)),
     ]
     if "antenna_above_roof_m" in a or "antenna_above_roof_m" in b:
@@ -137,7 +170,7 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
         Row("Antenna gain", f"{radio['gain_a_dbi']:.1f} dBi", f"{radio['gain_b_dbi']:.1f} dBi"),
         Row("Feeder loss", f"{radio['loss_a_db']:.1f} dB", f"{radio['loss_b_db']:.1f} dB"),
         Row("Path", "", None, kind="section"),
-        Row("Path length", f"{record['distance_km']:.3f} km"),
+        Row("Path length", distance_text(record["distance_km"], units, with_km=True)),
         Row("Frequency", f"{radio['freq_ghz']:g} GHz"),
         Row("Receiver", f"{radio['bandwidth_mhz']:g} MHz bandwidth, noise figure {radio['noise_figure_db']:g} dB"),
         Row("Diffraction method", str(record["inputs"].get("diffraction_method", "-"))),
@@ -146,7 +179,8 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
     ]
     cd, cw = record["clearance"], wc["clearance"]
     rows += [
-        Row("Worst point from a", f"{cd['worst_distance_km']:.3f} km", f"{cw['worst_distance_km']:.3f} km"),
+        Row("Worst point from a", distance_text(cd["worst_distance_km"], units),
+            distance_text(cw["worst_distance_km"], units)),
         Row("Clearance at worst point", height_text(cd["worst_clearance_m"], units, signed=True),
             height_text(cw["worst_clearance_m"], units, signed=True)),
         Row("As fraction of F1", f"{cd['worst_f1_fraction']:+.2f} F1", f"{cw['worst_f1_fraction']:+.2f} F1"),

@@ -10,7 +10,7 @@ DEMO_18 = EXAMPLES / "demo-6-availability-18ghz.toml"
 
 
 def test_demo_link_file_has_availability(cli):
-    r = json.loads(cli("link", str(DEMO_18), "--json").output)
+    r = json.loads(cli("link", str(DEMO_18), "--json").stdout)
     av = r["availability"]
     assert r["inputs"]["radio"]["freq_ghz"] == 18.0
     assert av["estimated"] is True
@@ -21,10 +21,10 @@ def test_demo_link_file_has_availability(cli):
 
 
 def test_climate_flags_override_the_file(cli):
-    base = json.loads(cli("link", str(DEMO_18), "--json").output)["availability"]
+    base = json.loads(cli("link", str(DEMO_18), "--json").stdout)["availability"]
     wet = json.loads(cli("link", str(DEMO_18), "--rain-rate-mm-h", "95", "--dn1", "-400",
                          "--terrain-roughness-m", "10", "--target-availability-pct", "99.9",
-                         "--polarisation", "horizontal", "--json").output)
+                         "--polarisation", "horizontal", "--json").stdout)
     av = wet["availability"]
     assert av["rain"]["rain_rate_mm_h"] == 95.0 and av["rain"]["polarisation"] == "horizontal"
     assert av["multipath"]["dn1_n_per_km"] == -400.0
@@ -37,9 +37,9 @@ def test_climate_flags_override_the_file(cli):
 def test_atmosphere_flags_change_gases(cli):
     args = ["link", "--dem", str(DEMO_DEM), "--site-a", "-30.543381,-20.947872", "--site-b", "-30.407957,-20.860490",
             "--freq-ghz", "23", "--json"]
-    normal = json.loads(cli(*args).output)["loss_db"]["gases"]
+    normal = json.loads(cli(*args).stdout)["loss_db"]["gases"]
     humid = json.loads(cli(*args, "--water-vapour-g-m3", "20", "--temperature-c", "30",
-                           "--pressure-hpa", "1000").output)["loss_db"]["gases"]
+                           "--pressure-hpa", "1000").stdout)["loss_db"]["gases"]
     assert humid > 2 * normal
 
 

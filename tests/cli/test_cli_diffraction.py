@@ -17,7 +17,7 @@ def test_cli_names_match_the_module():
 
 
 def test_default_is_delta_bullington_with_every_method_listed(cli):
-    r = json.loads(cli("link", BLOCKED, "--json").output)
+    r = json.loads(cli("link", BLOCKED, "--json").stdout)
     assert r["inputs"]["diffraction_method"] == DEFAULT_DIFFRACTION_METHOD == "delta-bullington"
     for part in (r, r["worst_case"]):
         by = part["loss_db"]["diffraction_by_method"]
@@ -30,7 +30,7 @@ def test_default_is_delta_bullington_with_every_method_listed(cli):
 
 @pytest.mark.parametrize("method", DIFFRACTION_METHODS)
 def test_chosen_method_drives_the_total(cli, method):
-    r = json.loads(cli("link", BLOCKED, "--diffraction", method, "--json").output)
+    r = json.loads(cli("link", BLOCKED, "--diffraction", method, "--json").stdout)
     assert r["inputs"]["diffraction_method"] == method
     for part in (r, r["worst_case"]):
         loss = part["loss_db"]
@@ -44,11 +44,11 @@ def test_link_file_key_and_flag_precedence(cli, tmp_path):
     shutil.copy(EXAMPLES.parent / "data" / "demo" / "terrain.tif", tmp_path / "terrain.tif")
     path = tmp_path / "link.toml"
     path.write_text(text.replace("../data/demo/terrain.tif", "terrain.tif"), encoding="utf-8")
-    r = json.loads(cli("link", str(path), "--json").output)
+    r = json.loads(cli("link", str(path), "--json").stdout)
     assert r["inputs"]["diffraction_method"] == "deygout"
     assert (r["inputs"]["polarisation"], r["inputs"]["ground"]) == ("vertical", "sea")
     assert r["inputs"]["ground_relative_permittivity"] == 80.0
-    flag = json.loads(cli("link", str(path), "--diffraction", "bullington", "--json").output)
+    flag = json.loads(cli("link", str(path), "--diffraction", "bullington", "--json").stdout)
     assert flag["inputs"]["diffraction_method"] == "bullington"
     # One rounded ridge: Deygout keeps a single edge, Bullington adds its correction.
     assert flag["loss_db"]["diffraction"] > r["loss_db"]["diffraction"]
@@ -74,10 +74,10 @@ def test_unknown_method_in_link_file(tmp_path):
 
 
 def test_out_of_range_frequency_warns_in_json_and_summary(cli):
-    r = json.loads(cli("link", BLOCKED, "--freq-ghz", "70", "--json").output)
+    r = json.loads(cli("link", BLOCKED, "--freq-ghz", "70", "--json").stdout)
     assert any("70 GHz" in w and "delta-bullington" in w for w in r["warnings"])
     text = cli("link", BLOCKED, "--freq-ghz", "70").output
     assert "warning: delta-bullington diffraction: frequency 70 GHz" in text
     assert "diffraction by" in text and "deygout" in text
-    quiet = json.loads(cli("link", BLOCKED, "--freq-ghz", "70", "--diffraction", "knife-edge", "--json").output)
+    quiet = json.loads(cli("link", BLOCKED, "--freq-ghz", "70", "--diffraction", "knife-edge", "--json").stdout)
     assert quiet["warnings"] == []

@@ -26,28 +26,28 @@ def test_link_flags_json_subprocess():
 
 
 def test_link_file_equals_flags(cli):
-    from_file = json.loads(cli("link", str(EXAMPLES / "demo-1-clear.toml"), "--json").output)
+    from_file = json.loads(cli("link", str(EXAMPLES / "demo-1-clear.toml"), "--json").stdout)
     from_flags = json.loads(cli("link", "--dem", str(DEMO_DEM), "--site-a", ORRIN, "--site-b", BRACKWELL,
-                                "--agl-a", "20", "--agl-b", "15", *RADIO_FLAGS, "--json").output)
+                                "--agl-a", "20", "--agl-b", "15", *RADIO_FLAGS, "--json").stdout)
     for key in ("distance_km", "clearance", "loss_db", "budget", "worst_case"):
         assert from_file[key] == from_flags[key]
 
 
 def test_flags_override_the_link_file(cli):
-    base = json.loads(cli("link", str(EXAMPLES / "demo-3-blocked.toml"), "--json").output)
+    base = json.loads(cli("link", str(EXAMPLES / "demo-3-blocked.toml"), "--json").stdout)
     higher = json.loads(cli("link", str(EXAMPLES / "demo-3-blocked.toml"), "--agl-a", "200",
-                            "--agl-b", "200", "--k", "1.0", "--json").output)
+                            "--agl-b", "200", "--k", "1.0", "--json").stdout)
     assert base["clearance"]["line_of_sight"] is False
     assert higher["clearance"]["line_of_sight"] is True
     assert higher["sites"]["a"]["antenna_agl_m"] == 200
     assert higher["k"] == 1.0
-    fraction = json.loads(cli("link", str(EXAMPLES / "demo-3-blocked.toml"), "--k-worst", "1/2", "--json").output)
+    fraction = json.loads(cli("link", str(EXAMPLES / "demo-3-blocked.toml"), "--k-worst", "1/2", "--json").stdout)
     assert fraction["worst_case"]["k"] == 0.5
 
 
 def test_text_summary_lists_everything(cli):
     out = cli("link", str(EXAMPLES / "demo-3-blocked.toml")).output
-    for words in ("Wexby Grange", "Highfold Tower", "azimuth", "AMSL", "worst point", "line of sight",
+    for words in ("Wexby Grange", "Highfold Tower", "azimuth", "above the datum", "worst point", "line of sight",
                   "free space", "diffraction", "received level", "noise floor", "SNR", "fade margin",
                   "worst case k", "FAILS"):
         assert words in out

@@ -25,7 +25,7 @@ def _run(*args):
 def _record(link_file):
     result = _run("link", link_file, "--json")
     assert result.exit_code == 0, result.output
-    return json.loads(result.output)
+    return json.loads(result.stdout)
 
 
 def _squash(text: str) -> str:

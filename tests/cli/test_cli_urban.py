@@ -27,9 +27,9 @@ def run(*args: str) -> tuple[int, str]:
 
 
 def run_json(*args: str) -> dict:
-    code, out = run(*args, "--json")
-    assert code == 0, out
-    return json.loads(out)
+    result = CliRunner().invoke(cli, [*args, "--json"], catch_exceptions=False)
+    assert result.exit_code == 0, result.output
+    return json.loads(result.stdout)
 
 
 def test_rooftop_demo_is_blocked_by_the_tower_at_3_m():

@@ -31,7 +31,7 @@ def test_screen_demo_sites_to_geopackage(tmp_path):
     out = tmp_path / "result.gpkg"
     proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out, "--workers", "1")
     assert "66 pairs of 12 sites screened" in proc.stdout
-    for word in ("viable", "marginal", "blocked", "errors", "skipped"):
+    for word in ("viable", "marginal", "budget-short", "clearance-short", "obstructed", "error", "skipped"):
         assert word in proc.stdout
     assert "\x1b[" not in proc.stderr  # no progress bar in a pipe
     links = gpd.read_file(out, layer="links")
