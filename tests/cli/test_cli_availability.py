@@ -29,8 +29,8 @@ def test_climate_flags_override_the_file(cli):
     assert av["rain"]["rain_rate_mm_h"] == 95.0 and av["rain"]["polarisation"] == "horizontal"
     assert av["multipath"]["dn1_n_per_km"] == -400.0
     assert av["target_availability_pct"] == 99.9
-    assert av["outage"]["rain_pct"] > base["outage"]["rain_pct"]
-    assert av["outage"]["multipath_pct"] > base["outage"]["multipath_pct"]
+    assert av["rain"]["outage_pct"] > base["rain"]["outage_pct"]
+    assert av["multipath"]["average_year_pct"] > base["multipath"]["average_year_pct"]
     assert wet["inputs"]["climate"]["rain_rate_mm_h"] == 95.0
 
 
@@ -45,8 +45,8 @@ def test_atmosphere_flags_change_gases(cli):
 
 def test_summary_shows_availability(cli):
     out = cli("link", str(DEMO_18)).output
-    for words in ("availability", "of an average year", "outage", "rain", "multipath", "min/yr",
-                  "margin needed", "assumes", "target 99.99 %"):
+    for words in ("availability", "of an average year (rain only)", "rain outage", "multipath", "worst month",
+                  "average year", "error performance", "min/yr", "margin needed", "assumes", "target 99.99 %"):
         assert words in out
 
 
