@@ -3,17 +3,24 @@
 Given the flat fade margin of each path (dB, the margin left in median
 conditions, gases already counted in the budget), this module estimates:
 
-* rain outage: the percentage of an average year that rain attenuation on the
-  path exceeds the margin, by inverting ITU-R P.530-17 section 2.4.1 (eq. 34)
-  with R0.01 from the planner and gamma_R from ITU-R P.838-3;
-* multipath outage: the percentage of the average worst month that the
-  multipath fade depth exceeds the margin (ITU-R P.530-17 sections 2.3.1 and
-  2.3.2), converted to an average year with the geoclimatic factor Delta G of
-  section 2.3.4 when the path latitude is known;
-* the total outage as the sum of the two (the mechanisms are taken as not
-  occurring together; common practice), minutes per year, availability, and
-  the fade margin needed for a target availability (vectorised bisection).
+* availability from rain: the percentage of an average year that rain
+  attenuation on the path exceeds the margin, by inverting ITU-R P.530-17
+  section 2.4.1 (eq. 34) with R0.01 from the planner and gamma_R from
+  ITU-R P.838-3.  Outside 0.001-1 % (the range of eq. 34, whose power law
+  turns back below 0.001 %) the outage is a bound, never a figure;
+* multipath outage, a performance figure kept apart from availability (P.530
+  counts rain against availability and clear-air fading against error
+  performance): the percentage of the average worst month that the multipath
+  fade depth exceeds the margin (sections 2.3.1 and 2.3.2), and of the average
+  year with the geoclimatic factor Delta G of section 2.3.4 when the path
+  latitude is known;
+* the fade margin needed for a target availability: from rain alone (eq. 34
+  at p = 100 - target) and with rain plus average-year multipath held within
+  the target together (vectorised bisection; common practice).
 
+Links whose path fails the clearance criterion or whose budget does not
+close get no estimate (the fading methods assume a clear line-of-sight path),
+and a path outside one model's range loses only that model's figures.
 Everything works on arrays of paths; a single hop is a batch of one.
 """
 

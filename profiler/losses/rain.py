@@ -296,8 +296,9 @@ def rain_percentage_coefficients(
     """Coefficients (C0, C1, C2, C3) of the P.530 time-percentage power law.
 
     C0 = 0.12 below 10 GHz, 0.12 + 0.4 log10((f/10)^0.8) from 10 GHz
-    (ITU-R P.530-17 section 2.4.1 step 5, eq. 35a, as coded in the ITU-R SG3
-    reference implementation); C1 = 0.07^C0 0.12^(1 - C0),
+    (ITU-R P.530-17 section 2.4.1 step 5, as coded in the ITU-R SG3 reference
+    implementation: the typeset "0.4 log10(f/10)^0.8" is read as the log of
+    the power, not the power of the log; see the README); C1 = 0.07^C0 0.12^(1 - C0),
     C2 = 0.855 C0 + 0.546 (1 - C0), C3 = 0.139 C0 + 0.043 (1 - C0) (eqs. 35b-d).
     """
     f = np.asarray(freq_ghz, dtype=float)
