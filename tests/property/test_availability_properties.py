@@ -96,3 +96,24 @@ def test_required_margin_reaches_target(f, d_km, ha, hb, s, target):
         if need > 0.01:
             below = _availability(need - 0.01, d_km, f, ha, hb, s, None)
             assert _combined(below) > 100.0 - target - 1e-9
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.floats(1.0, 100.0), st.floats(0.5, 60.0), st.floats(1.0, 250.0), st.floats(0.01, 60.0),
+       st.floats(0.0, 30.0))
+def test_rain_inversion_is_monotonic_and_never_the_turning_point(f, d_km, rate, m, extra):
+    # ITU-R P.530-17 section 2.4.1 eq. 34, valid for 0.001 <= p <= 1 %: more margin never
+    # gives more rain outage, and a figure is only ever given inside that range.
+    from profiler.losses.rain import rain_attenuation_001_db, rain_exceedance_pct, rain_percentage_coefficients
+
+    a001 = rain_attenuation_001_db(d_km * 1000.0, f, rate)
+    (p_lo, p_hi), (s_lo, s_hi) = rain_exceedance_pct([m, m + extra], a001, f, beyond_range="clip")
+    assert p_hi <= p_lo * (1 + 1e-12) and s_hi <= s_lo
+    (b_lo, _), (side, _) = rain_exceedance_pct([m, m + extra], a001, f)
+    if side == 0:
+        assert 0.001 * (1 - 1e-9) <= b_lo <= 1.0 * (1 + 1e-9)
+    else:
+        assert np.isnan(b_lo)
+    _, _, c2, c3 = rain_percentage_coefficients(f)
+    turning = 10.0 ** (-c2 / (2.0 * c3))
+    assert not np.isclose(p_lo, turning, rtol=1e-6)
