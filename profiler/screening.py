@@ -696,6 +696,7 @@ def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings
         st = os.stat(s.path) if os.path.exists(s.path) else None
         h.update(f"{s.path}|{st.st_size if st else ''}|{st.st_mtime_ns if st else ''}".encode())
     h.update(repr((radio, settings, model.nodata_fill_m, plan.max_km, plan.hubs, chunk_pairs)).encode())
+    h.update(repr(tuple(COLUMNS.items())).encode())  # a staging folder of another column layout is not resumed
     if plan.explicit is not None:
         h.update(plan.explicit[0].tobytes())
         h.update(plan.explicit[1].tobytes())
