@@ -89,7 +89,7 @@ def _availability_lines(av: dict | None) -> list[str]:
         rain_text = f"> {rain['outage_above_pct']:g} % of the year (above the range of ITU-R P.530-17 2.4.1)"
     if mp["estimated"]:
         mp_lines = [
-            f"  multipath        worst month {_pct(mp['worst_month_pct'])} ({_minutes(mp['worst_month_min'])}), "
+            f"  multipath        worst month {_pct(mp['worst_month_pct'])} ({_minutes(mp['worst_month_min'])} in that month), "
             f"average year {_pct(mp['average_year_pct'])} ({_minutes(mp['average_year_min'])}/yr); "
             "counts against error performance, not availability",
         ]
