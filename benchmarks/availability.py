@@ -74,7 +74,7 @@ def main() -> None:
     print(f"availability (outage + margin needed): {args.paths / t_batch:,.0f} paths/s batched, "
           f"{n / t_loop:,.0f} paths/s one at a time -> {(args.paths / t_batch) / (n / t_loop):.0f}x")
     print(f"  largest difference batch vs one-at-a-time: availability "
-          f"{np.max(np.abs(batch.availability_pct[:n] - loop_avail)):.2e} %, margin needed "
+          f"{np.nanmax(np.abs(batch.availability_pct[:n] - loop_avail)):.2e} %, margin needed "
           f"{np.nanmax(np.abs(batch.required_fade_margin_db[:n] - loop_need)):.2e} dB")
     print(f"gases (P.676-12 Annex 1, 79 lines): {args.paths / t_gas:,.0f} paths/s batched, "
           f"{n / t_gas_loop:,.0f} paths/s one at a time -> {(args.paths / t_gas) / (n / t_gas_loop):.0f}x; "

@@ -3,17 +3,24 @@
 Given the flat fade margin of each path (dB, the margin left in median
 conditions, gases already counted in the budget), this module estimates:
 
-* rain outage: the percentage of an average year that rain attenuation on the
-  path exceeds the margin, by inverting ITU-R P.530-17 section 2.4.1 (eq. 34)
-  with R0.01 from the planner and gamma_R from ITU-R P.838-3;
-* multipath outage: the percentage of the average worst month that the
-  multipath fade depth exceeds the margin (ITU-R P.530-17 sections 2.3.1 and
-  2.3.2), converted to an average year with the geoclimatic factor Delta G of
-  section 2.3.4 when the path latitude is known;
-* the total outage as the sum of the two (the mechanisms are taken as not
-  occurring together; common practice), minutes per year, availability, and
-  the fade margin needed for a target availability (vectorised bisection).
+* availability from rain: the percentage of an average year that rain
+  attenuation on the path exceeds the margin, by inverting ITU-R P.530-17
+  section 2.4.1 (eq. 34) with R0.01 from the planner and gamma_R from
+  ITU-R P.838-3.  Outside 0.001-1 % (the range of eq. 34, whose power law
+  turns back below 0.001 %) the outage is a bound, never a figure;
+* multipath outage, a performance figure kept apart from availability (P.530
+  counts rain against availability and clear-air fading against error
+  performance): the percentage of the average worst month that the multipath
+  fade depth exceeds the margin (sections 2.3.1 and 2.3.2), and of the average
+  year with the geoclimatic factor Delta G of section 2.3.4 when the path
+  latitude is known;
+* the fade margin needed for a target availability: from rain alone (eq. 34
+  at p = 100 - target) and with rain plus average-year multipath held within
+  the target together (vectorised bisection; common practice).
 
+Links whose path fails the clearance criterion or whose budget does not
+close get no estimate (the fading methods assume a clear line-of-sight path),
+and a path outside one model's range loses only that model's figures.
 Everything works on arrays of paths; a single hop is a batch of one.
 """
 
@@ -33,6 +40,7 @@ from .losses.multipath import (
     shallow_fade_peak,
     geoclimatic_factor,
     multipath_validity_problem,
+    occurrence_factor_too_large,
     path_inclination_mrad,
     worst_month_to_year_db,
 )
@@ -42,6 +50,7 @@ from .losses.rain import (
     polarisation_tilt_deg,
     rain_attenuation_001_db,
     rain_exceedance_pct,
+    rain_percentage_coefficients,
 )
 
 __all__ = [
@@ -60,6 +69,8 @@ __all__ = [
     "AVAILABILITY_MAX_FREQ_GHZ",
     "LinkAvailability",
     "availability_for_links",
+    "availability_note",
+    "MINUTES_PER_MONTH",
 ]
 
 #: Minutes in an average year of 365.25 days.
@@ -165,29 +176,57 @@ class ClimateSettings:
         return tuple(n for n in names if getattr(self, n) == getattr(ClimateSettings, n))
 
 
+#: Minutes in an average worst month (a twelfth of an average year).
+MINUTES_PER_MONTH = MINUTES_PER_YEAR / 12.0
+
+#: Multipath status of a path: estimated, frequency outside 15/d-45 GHz, p0 too large.
+MULTIPATH_ESTIMATED, MULTIPATH_OUTSIDE_FREQ, MULTIPATH_P0_TOO_LARGE = 0, 1, 2
+
+
 @dataclass(frozen=True)
 class AvailabilityResult:
-    """Outage and availability of each path (arrays of one shape), plus the assumptions made."""
+    """Availability (rain), multipath outage (performance) and the margins needed, per path.
+
+    ITU-R P.530-17 counts rain outage against availability (section 2.4.1) and
+    multipath (clear-air) outage against error performance (section 2.3), so
+    they are kept apart: ``availability_pct`` is 100 - rain outage of an
+    average year; multipath is given for the average worst month and the
+    average year.  Outside 0.001-1 % (the range of eq. 34) the rain outage is
+    NaN and ``rain_range_side`` says which side: -1 below 0.001 % (availability
+    above 99.999 %), +1 above 1 % (availability below 99 %).  Multipath
+    figures are NaN where ``multipath_status`` is not 0.
+    """
 
     fade_margin_db: np.ndarray
     rain_attenuation_001_db: np.ndarray
     rain_outage_pct: np.ndarray
-    rain_outside_method_range: np.ndarray
-    multipath_applicable: np.ndarray
+    rain_range_side: np.ndarray
+    multipath_status: np.ndarray
     multipath_occurrence_factor_pct: np.ndarray
     multipath_worst_month_pct: np.ndarray
     worst_month_to_year_db: np.ndarray
     multipath_outage_pct: np.ndarray
-    total_outage_pct: np.ndarray
     availability_pct: np.ndarray
     target_availability_pct: float
     required_fade_margin_db: np.ndarray
+    required_margin_rain_below_range: np.ndarray
+    required_fade_margin_rain_db: np.ndarray
     meets_target: np.ndarray
     assumptions: tuple[str, ...] = field(default=())
 
     @property
+    def multipath_applicable(self) -> np.ndarray:
+        """True where the multipath figures were estimated."""
+        return self.multipath_status == MULTIPATH_ESTIMATED
+
+    @property
+    def rain_outside_method_range(self) -> np.ndarray:
+        """True where the rain outage lies outside 0.001-1 % (ITU-R P.530-17 eq. 34)."""
+        return self.rain_range_side != 0
+
+    @property
     def rain_outage_min_per_year(self) -> np.ndarray:
-        """Rain outage, minutes per average year."""
+        """Rain outage, minutes per average year (NaN outside the method's range)."""
         return self.rain_outage_pct / 100.0 * MINUTES_PER_YEAR
 
     @property
@@ -196,9 +235,9 @@ class AvailabilityResult:
         return self.multipath_outage_pct / 100.0 * MINUTES_PER_YEAR
 
     @property
-    def total_outage_min_per_year(self) -> np.ndarray:
-        """Total outage, minutes per average year."""
-        return self.total_outage_pct / 100.0 * MINUTES_PER_YEAR
+    def multipath_worst_month_min(self) -> np.ndarray:
+        """Multipath outage, minutes in the average worst month."""
+        return self.multipath_worst_month_pct / 100.0 * MINUTES_PER_MONTH
 
 
 def path_elevation_deg(altitude_a_m: ArrayLike, altitude_b_m: ArrayLike, distance_m: ArrayLike) -> np.ndarray:
@@ -216,9 +255,13 @@ class _PathClimate:
     p0_year_pct: np.ndarray  # multipath occurrence factor converted to the average year
     p0_month_pct: np.ndarray
     delta_g_db: np.ndarray
-    multipath_applicable: np.ndarray
+    multipath_status: np.ndarray
     peak_year: tuple[np.ndarray, np.ndarray]
     peak_month: tuple[np.ndarray, np.ndarray]
+
+    @property
+    def multipath_applicable(self) -> np.ndarray:
+        return self.multipath_status == MULTIPATH_ESTIMATED
 
 
 def _path_climate(
@@ -236,6 +279,8 @@ def _path_climate(
         np.asarray(altitude_a_m, dtype=float),
         np.asarray(altitude_b_m, dtype=float),
     )
+    if multipath_outside_range not in ("error", "exclude"):
+        raise InputError(f"multipath_outside_range must be 'error' or 'exclude', got {multipath_outside_range!r}")
     if np.any(~(d > 0.0)):
         raise InputError(f"path length must be positive metres, got {d[~(d > 0.0)].flat[0]!r}")
     if np.any(~np.isfinite(ha)) or np.any(~np.isfinite(hb)):
@@ -244,21 +289,26 @@ def _path_climate(
     a001 = rain_attenuation_001_db(d, f, settings.rain_rate_mm_h, elevation, settings.tilt_deg)
     if multipath_outside_range == "error":
         check_multipath_validity(d, f)
-        applicable = np.ones(d.shape, dtype=bool)
-    elif multipath_outside_range == "exclude":
-        applicable = ~multipath_validity_problem(d, f)
-    else:
-        raise InputError(f"multipath_outside_range must be 'error' or 'exclude', got {multipath_outside_range!r}")
     d_km = d / 1000.0
     k = geoclimatic_factor(settings.dn1_n_per_km, settings.terrain_roughness_m)
     ep = path_inclination_mrad(ha, hb, d)
     h_low = np.minimum(ha, hb)
     # ITU-R P.530-17 eq. 7 at A = 0 (the validity check is done above, per path).
     p0 = k * d_km**3.4 * (1.0 + ep) ** -1.03 * f**0.8 * np.power(10.0, -0.00076 * h_low)
+    status = np.where(multipath_validity_problem(d, f), MULTIPATH_OUTSIDE_FREQ,
+                      np.where(occurrence_factor_too_large(p0), MULTIPATH_P0_TOO_LARGE, MULTIPATH_ESTIMATED))
+    status = np.asarray(status, dtype=np.int8)
+    if multipath_outside_range == "error" and np.any(status != MULTIPATH_ESTIMATED):
+        raise ModelValidityError(
+            f"multipath occurrence factor p0 = {p0[status != 0].flat[0]:.3g} % is too large for "
+            "ITU-R P.530-17 section 2.3.2"
+        )
     if latitude_deg is None:
         delta_g = np.zeros(d.shape)
     else:
         delta_g = np.broadcast_to(worst_month_to_year_db(latitude_deg, d, ep), d.shape).copy()
+    ok = status == MULTIPATH_ESTIMATED
+    p0 = np.where(ok, p0, np.nan)
     p0_year = p0 * np.power(10.0, -delta_g / 10.0)
     return _PathClimate(
         freq_ghz=f,
@@ -266,29 +316,36 @@ def _path_climate(
         p0_year_pct=p0_year,
         p0_month_pct=p0,
         delta_g_db=delta_g,
-        multipath_applicable=applicable,
-        peak_year=shallow_fade_peak(p0_year),
-        peak_month=shallow_fade_peak(p0),
+        multipath_status=status,
+        peak_year=shallow_fade_peak(np.where(ok, p0_year, 1.0)),
+        peak_month=shallow_fade_peak(np.where(ok, p0, 1.0)),
     )
 
 
+def _multipath_pct(m_pos: np.ndarray, positive: np.ndarray, p0: np.ndarray, peak, ok: np.ndarray) -> np.ndarray:
+    pw = fade_exceedance_envelope_pct(m_pos, np.where(ok, p0, 1.0), peak)
+    return np.where(ok, np.where(positive, pw, 100.0), np.nan)
+
+
 def _components(
-    margin_db: np.ndarray, pc: _PathClimate, worst_month: bool = True
+    margin_db: np.ndarray, pc: _PathClimate, worst_month: bool = True, rain_mode: str = "bound",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray | None]:
-    """(rain %, rain outside range, multipath annual %, multipath worst-month % or None) at given margins."""
+    """(rain %, rain range side, multipath annual %, multipath worst-month % or None) at given margins.
+
+    ``rain_mode="bound"``: rain NaN outside 0.001-1 %; ``"clip"``: the limit crossed.
+    Multipath is NaN where it is not estimated.
+    """
     m = np.broadcast_to(np.asarray(margin_db, dtype=float), pc.a001_db.shape)
     positive = m > 0.0
     m_pos = np.where(positive, m, 0.0)
-    rain, outside = rain_exceedance_pct(np.where(positive, m, 1.0), pc.a001_db, pc.freq_ghz, "extend")
+    rain, side = rain_exceedance_pct(np.where(positive, m, 1.0), pc.a001_db, pc.freq_ghz, rain_mode)
     rain = np.where(positive, rain, 100.0)
-    outside = outside & positive
-    mp_year = fade_exceedance_envelope_pct(m_pos, pc.p0_year_pct, pc.peak_year)
-    mp_year = np.where(pc.multipath_applicable, np.where(positive, mp_year, 100.0), 0.0)
+    side = np.where(positive, side, 0).astype(np.int8)
+    ok = pc.multipath_applicable
+    mp_year = _multipath_pct(m_pos, positive, pc.p0_year_pct, pc.peak_year, ok)
     if not worst_month:
-        return rain, outside, mp_year, None
-    mp_month = fade_exceedance_envelope_pct(m_pos, pc.p0_month_pct, pc.peak_month)
-    mp_month = np.where(pc.multipath_applicable, np.where(positive, mp_month, 100.0), 0.0)
-    return rain, outside, mp_year, mp_month
+        return rain, side, mp_year, None
+    return rain, side, mp_year, _multipath_pct(m_pos, positive, pc.p0_month_pct, pc.peak_month, ok)
 
 
 def outage_components_pct(
@@ -304,9 +361,10 @@ def outage_components_pct(
     """Annual outage from rain and from multipath, % each, for fade margins in dB.
 
     Rain: ITU-R P.530-17 section 2.4.1 inverted (P.838-3 gamma_R at the path
-    elevation and polarisation).  Multipath: ITU-R P.530-17 sections 2.3.1,
-    2.3.2 (falling envelope) and 2.3.4 (Delta G; worst month taken as the year
-    when ``latitude_deg`` is None).  A margin of 0 dB or less counts as 100 %.
+    elevation and polarisation), NaN outside 0.001-1 %.  Multipath: ITU-R
+    P.530-17 sections 2.3.1, 2.3.2 (falling envelope) and 2.3.4 (Delta G; worst
+    month taken as the year when ``latitude_deg`` is None), NaN where not
+    estimated.  A margin of 0 dB or less counts as 100 %.
     """
     pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
     rain, _, mp_year, _ = _components(np.asarray(fade_margin_db, dtype=float), pc, worst_month=False)
@@ -314,16 +372,26 @@ def outage_components_pct(
 
 
 def _solve_margin(target_outage_pct: float, pc: _PathClimate, iterations: int = 64) -> np.ndarray:
-    """Smallest fade margin whose total outage is at most the target, dB (vectorised bisection)."""
+    """Smallest fade margin at which rain plus average-year multipath outage is at most the target, dB.
+
+    Vectorised bisection.  A rain outage below 0.001 % (outside ITU-R P.530-17
+    eq. 34) counts as 0.001 %, its bound, so the margin found is enough
+    whatever the rain share there; one above 1 % counts as 100 %.  Multipath
+    not estimated counts as 0.  NaN where no margin up to 400 dB suffices.
+    """
+
+    def total(m: np.ndarray) -> np.ndarray:
+        rain, side, mp, _ = _components(m, pc, worst_month=False, rain_mode="clip")
+        rain = np.where(side > 0, 100.0, rain)
+        return rain + np.nan_to_num(mp, nan=0.0)
+
     shape = pc.a001_db.shape
     lo = np.zeros(shape)
     hi = np.full(shape, 400.0)
-    rain_hi, _, mp_hi, _ = _components(hi, pc, worst_month=False)
-    unreachable = rain_hi + mp_hi > target_outage_pct
+    unreachable = total(hi) > target_outage_pct
     for _ in range(iterations):
         mid = (lo + hi) / 2.0
-        rain, _, mp, _ = _components(mid, pc, worst_month=False)
-        ok = rain + mp <= target_outage_pct
+        ok = total(mid) <= target_outage_pct
         hi = np.where(ok, mid, hi)
         lo = np.where(ok, lo, mid)
     return np.where(unreachable, np.nan, hi)
@@ -338,17 +406,24 @@ def required_fade_margin_db(
     latitude_deg: ArrayLike | None = None,
     multipath_outside_range: Literal["error", "exclude"] = "error",
 ) -> np.ndarray:
-    """Fade margin needed so that rain plus multipath outage meets ``settings.target_availability_pct``, dB.
+    """Fade margin at which rain plus average-year multipath outage stays within 100 - target, dB.
 
-    Solves outage_rain(M) + outage_multipath(M) = 100 - target by bisection on
-    all paths at once (both terms fall with M; ITU-R P.530-17 sections 2.3 and
-    2.4.1).  NaN where no margin up to 400 dB reaches the target.
+    Both mechanisms held within the target together (common practice; ITU-R
+    P.530-17 sections 2.3 and 2.4.1 give each term).  See :func:`_solve_margin`
+    for the rain bound; NaN where no margin up to 400 dB reaches the target.
     """
     pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
     return _solve_margin(100.0 - settings.target_availability_pct, pc)
 
 
-def _assumptions(settings: ClimateSettings, latitude_given: bool, pc: _PathClimate, rain_outside: np.ndarray) -> tuple[str, ...]:
+def _rain_margin_for_pct(pc: _PathClimate, p_pct: float) -> np.ndarray:
+    """Rain attenuation exceeded for p % of an average year, A_p, dB (ITU-R P.530-17 eq. 34, 0.001 <= p <= 1)."""
+    _, c1, c2, c3 = rain_percentage_coefficients(pc.freq_ghz)
+    x = np.log10(p_pct)
+    return pc.a001_db * c1 * np.power(10.0, -(c2 + c3 * x) * x)
+
+
+def _assumptions(settings: ClimateSettings, latitude_given: bool) -> tuple[str, ...]:
     notes = [
         "rain: ITU-R P.838-3 specific attenuation, ITU-R P.530-17 section 2.4.1 path statistics, "
         f"R0.01 = {settings.rain_rate_mm_h:g} mm/h"
@@ -360,22 +435,15 @@ def _assumptions(settings: ClimateSettings, latitude_given: bool, pc: _PathClima
         + (" (default)" if "dn1_n_per_km" in settings.defaults_used() else "")
         + f", sa = {settings.terrain_roughness_m:g} m"
         + (" (default)" if "terrain_roughness_m" in settings.defaults_used() else ""),
-        "total outage = rain + multipath (taken as not occurring together); a year has "
-        f"{MINUTES_PER_YEAR:.0f} minutes",
+        "availability counts rain outage only; multipath (clear-air) outage counts against error "
+        "performance (ITU-R P.530-17 sections 2.3 and 2.4) and is reported apart",
+        "margin needed: rain outage plus average-year multipath outage within 100 % - target "
+        "(common practice); a year has " f"{MINUTES_PER_YEAR:.0f} minutes",
     ]
     if latitude_given:
         notes.append("multipath converted from the average worst month to the average year (ITU-R P.530-17 section 2.3.4)")
     else:
         notes.append("multipath outage of the average worst month used for the whole year (no latitude given; pessimistic)")
-    if not np.all(pc.multipath_applicable):
-        notes.append(
-            "multipath not computed (taken as 0) where the frequency lies outside 15/d-45 GHz, "
-            "the range of ITU-R P.530-17 section 2.3"
-        )
-    if np.any(rain_outside):
-        notes.append(
-            "rain outage outside 0.001-1 %, the range of ITU-R P.530-17 eq. 34: the power law is extended there"
-        )
     return tuple(notes)
 
 
@@ -390,12 +458,13 @@ def evaluate_availability(
     multipath_outside_range: Literal["error", "exclude"] = "error",
     solve_required: bool = True,
 ) -> AvailabilityResult:
-    """Outage per mechanism, availability and the margin needed for the target, for many paths.
+    """Availability from rain, multipath outage and the margins needed, for many paths.
 
     ``fade_margin_db`` is the flat fade margin at median conditions; antenna
     altitudes are above sea level (m); ``latitude_deg`` (mid-path) enables the
     worst-month to year conversion.  With ``multipath_outside_range="exclude"``
-    paths outside 15/d-45 GHz get no multipath term instead of an error.
+    paths outside the multipath method (15/d-45 GHz, or p0 too large for
+    section 2.3.2) get NaN multipath figures instead of an error.
     ``solve_required=False`` leaves ``required_fade_margin_db`` NaN (callers
     that do not report it, such as screening, skip its iterative solution).
     Sources: ITU-R P.838-3; ITU-R P.530-17 sections 2.3 and 2.4.1.
@@ -405,27 +474,36 @@ def evaluate_availability(
         raise InputError("fade margin is NaN; compute the link budget first")
     pc = _path_climate(distance_m, freq_ghz, altitude_a_m, altitude_b_m, settings, latitude_deg, multipath_outside_range)
     margin = np.broadcast_to(margin, pc.a001_db.shape)
-    rain, outside, mp_year, mp_month = _components(margin, pc)
-    total = np.minimum(rain + mp_year, 100.0)
+    rain, side, mp_year, mp_month = _components(margin, pc)
     target = settings.target_availability_pct
-    required = _solve_margin(100.0 - target, pc) if solve_required else np.full(pc.a001_db.shape, np.nan)
-    availability = 100.0 - total
+    outage_target = 100.0 - target
+    if solve_required:
+        required = _solve_margin(outage_target, pc)
+        _, need_side = rain_exceedance_pct(np.where(np.isfinite(required), required, 1.0), pc.a001_db, pc.freq_ghz)
+        need_below = np.isfinite(required) & (need_side < 0)
+    else:
+        required = np.full(pc.a001_db.shape, np.nan)
+        need_below = np.zeros(pc.a001_db.shape, dtype=bool)
+    availability = 100.0 - rain
+    # Below the range the availability is above 99.999 % >= any accepted target; above it, below 99 %.
+    meets = np.where(side < 0, True, np.where(side > 0, False, availability >= target * (1 - 1e-15)))
     return AvailabilityResult(
         fade_margin_db=margin.copy(),
         rain_attenuation_001_db=pc.a001_db,
         rain_outage_pct=rain,
-        rain_outside_method_range=outside,
-        multipath_applicable=pc.multipath_applicable,
+        rain_range_side=side,
+        multipath_status=pc.multipath_status,
         multipath_occurrence_factor_pct=pc.p0_month_pct,
         multipath_worst_month_pct=mp_month,
         worst_month_to_year_db=pc.delta_g_db,
         multipath_outage_pct=mp_year,
-        total_outage_pct=total,
         availability_pct=availability,
         target_availability_pct=target,
         required_fade_margin_db=required,
-        meets_target=availability >= target * (1 - 1e-15),
-        assumptions=_assumptions(settings, latitude_deg is not None, pc, outside),
+        required_margin_rain_below_range=need_below,
+        required_fade_margin_rain_db=_rain_margin_for_pct(pc, outage_target),
+        meets_target=np.asarray(meets, dtype=bool),
+        assumptions=_assumptions(settings, latitude_deg is not None),
     )
 
 
@@ -435,12 +513,68 @@ AVAILABILITY_MIN_FREQ_GHZ = 1.0
 AVAILABILITY_MAX_FREQ_GHZ = 100.0
 
 
+#: Why a link's availability was not estimated (0: it was).  Stored as int8 in screening.
+AVAILABILITY_ESTIMATED = 0
+AVAILABILITY_NO_PROFILE = 1
+AVAILABILITY_FREQ_OUTSIDE = 2
+AVAILABILITY_NOT_CLEAR = 3
+AVAILABILITY_DOES_NOT_CLOSE = 4
+AVAILABILITY_NOT_CLEAR_NOT_CLOSING = 5
+AVAILABILITY_NO_GEOMETRY = 6
+
+#: Reason sentence of each status (figures are added per link where known).
+AVAILABILITY_REASONS = {
+    AVAILABILITY_NO_PROFILE: "no profile for this path",
+    AVAILABILITY_FREQ_OUTSIDE: "the frequency is outside 1-100 GHz, the range of the ITU-R P.838-3 / "
+                               "P.530-17 rain method",
+    AVAILABILITY_NOT_CLEAR: "the path fails the clearance criterion; the fading methods of ITU-R P.530-17 "
+                            "(sections 2.3, 2.4) assume a clear line-of-sight path",
+    AVAILABILITY_DOES_NOT_CLOSE: "the link does not close (fade margin below 0 dB at the design k)",
+    AVAILABILITY_NOT_CLEAR_NOT_CLOSING: "the link does not close (fade margin below 0 dB at the design k) "
+                                        "and the path fails the clearance criterion",
+    AVAILABILITY_NO_GEOMETRY: "fade margin or path geometry not available",
+}
+
+#: Rain range side: text of the bound a planner reads (ITU-R P.530-17 eq. 34 covers 0.001-1 %).
+RAIN_BELOW_RANGE_TEXT = ("rain outage below 0.001 % of the year, outside the 0.001-1 % range of "
+                         "ITU-R P.530-17 section 2.4.1: availability above 99.999 %")
+RAIN_ABOVE_RANGE_TEXT = ("rain outage above 1 % of the year, outside the 0.001-1 % range of "
+                         "ITU-R P.530-17 section 2.4.1: availability below 99 %")
+#: Multipath status: why its figures are missing.
+MULTIPATH_REASONS = {
+    MULTIPATH_OUTSIDE_FREQ: "the frequency lies outside 15/d-45 GHz (d in km), the range of ITU-R P.530-17 "
+                            "section 2.3",
+    MULTIPATH_P0_TOO_LARGE: "the occurrence factor p0 is too large for ITU-R P.530-17 section 2.3.2 "
+                            "(very long path or extreme dN1)",
+}
+
+
+def availability_note(status: int, rain_side: int, multipath_status: int) -> str:
+    """One line on what the availability figures of a link mean or why they are missing (screening)."""
+    if status != AVAILABILITY_ESTIMATED:
+        return "availability not estimated: " + AVAILABILITY_REASONS.get(int(status), "unknown reason")
+    parts = []
+    if rain_side < 0:
+        parts.append(RAIN_BELOW_RANGE_TEXT)
+    elif rain_side > 0:
+        parts.append(RAIN_ABOVE_RANGE_TEXT)
+    if multipath_status != MULTIPATH_ESTIMATED:
+        parts.append("multipath not estimated: " + MULTIPATH_REASONS.get(int(multipath_status), "unknown reason"))
+    return "; ".join(parts)
+
+
+def _none_if_nan(value: float) -> float | None:
+    value = float(value)
+    return value if np.isfinite(value) else None
+
+
 @dataclass(frozen=True)
 class LinkAvailability:
     """Availability of each link of a batch: results for the rows that could be estimated.
 
-    ``rows[i]`` is the index of link i in ``result`` (-1 when not estimated) and
-    ``reasons[i]`` says why not; ``notes[i]`` holds assumptions particular to link i.
+    ``rows[i]`` is the index of link i in ``result`` (-1 when not estimated),
+    ``status[i]`` one of the ``AVAILABILITY_*`` codes and ``reasons[i]`` says
+    why not; ``notes[i]`` holds assumptions particular to link i.
     """
 
     settings: ClimateSettings
@@ -451,47 +585,75 @@ class LinkAvailability:
     inclination_mrad: np.ndarray
     latitude_deg: np.ndarray
     distance_m: np.ndarray
+    status: np.ndarray | None = None
+
+    def rain_side(self) -> np.ndarray:
+        """Rain range side per link (0 where not estimated)."""
+        out = np.zeros(len(self.rows), dtype=np.int8)
+        ok = self.rows >= 0
+        if self.result is not None:
+            out[ok] = self.result.rain_range_side[self.rows[ok]]
+        return out
+
+    def multipath_status(self) -> np.ndarray:
+        """Multipath status per link (0 where availability is not estimated)."""
+        out = np.zeros(len(self.rows), dtype=np.int8)
+        ok = self.rows >= 0
+        if self.result is not None:
+            out[ok] = self.result.multipath_status[self.rows[ok]]
+        return out
 
     def record(self, i: int) -> dict:
-        """JSON-ready ``availability`` block of link i (keys carry their units)."""
+        """JSON-ready ``availability`` block of link i (keys carry their units; None where not estimated)."""
         s = self.settings
         j = int(self.rows[i])
         if j < 0 or self.result is None:
             return {"estimated": False, "reason": self.reasons[i], "target_availability_pct": s.target_availability_pct}
         r = self.result
-        need = float(r.required_fade_margin_db[j])
+        side = int(r.rain_range_side[j])
+        mp_ok = bool(r.multipath_applicable[j])
+        need = _none_if_nan(r.required_fade_margin_db[j])
         return {
             "estimated": True,
             "method": "ITU-R P.530-17 sections 2.3 (multipath) and 2.4.1 (rain), ITU-R P.838-3",
+            "includes": "rain outage only (ITU-R P.530-17 counts rain against availability and multipath "
+                        "against error performance; multipath is under 'multipath')",
             "fade_margin_db": float(r.fade_margin_db[j]),
-            "availability_pct": float(r.availability_pct[j]),
+            "availability_pct": _none_if_nan(r.availability_pct[j]),
+            "availability_above_pct": 100.0 - P530_RAIN_MIN_PCT if side < 0 else None,
+            "availability_below_pct": 100.0 - P530_RAIN_MAX_PCT if side > 0 else None,
             "target_availability_pct": s.target_availability_pct,
             "meets_target": bool(r.meets_target[j]),
-            "required_fade_margin_db": need if np.isfinite(need) else None,
-            "outage": {
-                "rain_pct": float(r.rain_outage_pct[j]),
-                "rain_min_per_year": float(r.rain_outage_min_per_year[j]),
-                "multipath_pct": float(r.multipath_outage_pct[j]),
-                "multipath_min_per_year": float(r.multipath_outage_min_per_year[j]),
-                "total_pct": float(r.total_outage_pct[j]),
-                "total_min_per_year": float(r.total_outage_min_per_year[j]),
-            },
+            "required_fade_margin_db": need,
+            "required_fade_margin_includes": "rain + multipath (average year), rain below 0.001 % counted as 0.001 %",
+            "required_fade_margin_rain_below_range": bool(r.required_margin_rain_below_range[j]),
+            "required_fade_margin_rain_only_db": float(r.required_fade_margin_rain_db[j]),
             "rain": {
                 "rain_rate_mm_h": s.rain_rate_mm_h,
                 "polarisation": s.polarisation,
                 "tilt_deg": s.tilt_deg,
                 "attenuation_001_db": float(r.rain_attenuation_001_db[j]),
-                "outside_method_range": bool(r.rain_outside_method_range[j]),
+                "outage_pct": _none_if_nan(r.rain_outage_pct[j]),
+                "outage_min_per_year": _none_if_nan(r.rain_outage_min_per_year[j]),
+                "outage_below_pct": P530_RAIN_MIN_PCT if side < 0 else None,
+                "outage_above_pct": P530_RAIN_MAX_PCT if side > 0 else None,
+                "outside_method_range": side != 0,
+                "note": RAIN_BELOW_RANGE_TEXT if side < 0 else RAIN_ABOVE_RANGE_TEXT if side > 0 else None,
             },
             "multipath": {
-                "estimated": bool(r.multipath_applicable[j]),
+                "estimated": mp_ok,
+                "reason": None if mp_ok else MULTIPATH_REASONS.get(int(r.multipath_status[j])),
+                "counts_against": "error performance (not availability)",
                 "dn1_n_per_km": s.dn1_n_per_km,
                 "terrain_roughness_m": s.terrain_roughness_m,
                 "geoclimatic_factor": float(geoclimatic_factor(s.dn1_n_per_km, s.terrain_roughness_m)),
                 "inclination_mrad": float(self.inclination_mrad[i]),
                 "latitude_deg": float(self.latitude_deg[i]),
-                "occurrence_factor_pct": float(r.multipath_occurrence_factor_pct[j]),
-                "worst_month_pct": float(r.multipath_worst_month_pct[j]),
+                "occurrence_factor_worst_month_pct": _none_if_nan(r.multipath_occurrence_factor_pct[j]),
+                "worst_month_pct": _none_if_nan(r.multipath_worst_month_pct[j]),
+                "worst_month_min": _none_if_nan(r.multipath_worst_month_min[j]),
+                "average_year_pct": _none_if_nan(r.multipath_outage_pct[j]),
+                "average_year_min": _none_if_nan(r.multipath_outage_min_per_year[j]),
                 "worst_month_to_year_db": float(r.worst_month_to_year_db[j]),
             },
             "assumptions": [*self.notes[i]],
@@ -508,13 +670,17 @@ def availability_for_links(
     valid: ArrayLike,
     settings: ClimateSettings = ClimateSettings(),
     *,
+    meets_criterion: ArrayLike | None = None,
     solve_required: bool = True,
 ) -> LinkAvailability:
     """Availability of many links at once, skipping (with a reason) those it cannot estimate.
 
-    Links outside 1-100 GHz (ITU-R P.838-3, P.530-17 rain) or marked not
-    ``valid`` (no profile) get a reason instead of numbers; multipath is left
-    out (and said so) outside 15/d-45 GHz; paths over 60 km carry a note.
+    Not estimated, with a reason: links marked not ``valid`` (no profile),
+    outside 1-100 GHz (ITU-R P.838-3, P.530-17 rain), failing the clearance
+    criterion (``meets_criterion`` False: P.530-17's fading methods assume a
+    clear line-of-sight path) or with a fade margin below 0 dB (the link does
+    not close).  Multipath is left out (and said so) where its method does not
+    apply; paths over 60 km carry a note.  Nothing here raises for one link.
     ``solve_required=False``: see :func:`evaluate_availability`.
     """
     import warnings
@@ -530,22 +696,30 @@ def availability_for_links(
         np.asarray(latitude_deg, dtype=float),
         np.asarray(valid, dtype=bool),
     )
+    clear = np.broadcast_to(np.asarray(True if meets_criterion is None else meets_criterion, dtype=bool), d.shape)
     margin = np.broadcast_to(np.asarray(fade_margin_db, dtype=float), d.shape)
     n = d.shape[0] if d.ndim else 1
-    d, f, ha, hb, lat, ok, margin = (np.atleast_1d(x) for x in (d, f, ha, hb, lat, ok, margin))
-    reasons: list[str | None] = [None] * n
+    d, f, ha, hb, lat, ok, margin, clear = (np.atleast_1d(x) for x in (d, f, ha, hb, lat, ok, margin, clear))
     in_band = (f >= AVAILABILITY_MIN_FREQ_GHZ) & (f <= AVAILABILITY_MAX_FREQ_GHZ)
-    usable = ok & in_band & np.isfinite(margin) & (d > 0) & np.isfinite(ha) & np.isfinite(hb)
+    geometry = np.isfinite(margin) & (d > 0) & np.isfinite(ha) & np.isfinite(hb) & (np.abs(lat) <= 90.0)
+    closes = margin >= 0.0
+    status = np.full(n, AVAILABILITY_ESTIMATED, dtype=np.int8)
+    status[~clear & ~closes] = AVAILABILITY_NOT_CLEAR_NOT_CLOSING
+    status[~clear & closes] = AVAILABILITY_NOT_CLEAR
+    status[clear & ~closes] = AVAILABILITY_DOES_NOT_CLOSE
+    status[~geometry] = AVAILABILITY_NO_GEOMETRY
+    status[~in_band] = AVAILABILITY_FREQ_OUTSIDE
+    status[~ok] = AVAILABILITY_NO_PROFILE
+    usable = status == AVAILABILITY_ESTIMATED
+    reasons: list[str | None] = [None] * n
     for i in np.flatnonzero(~usable):  # sentences for the few links left out only
-        if not ok[i]:
-            reasons[i] = "no profile for this path"
-        elif not in_band[i]:
-            reasons[i] = (
-                f"{f[i]:g} GHz is outside 1-100 GHz, the range of the ITU-R P.838-3 / P.530-17 "
-                "rain method; availability is not estimated"
-            )
-        elif not usable[i]:
-            reasons[i] = "fade margin or path geometry not available"
+        code = int(status[i])
+        text = AVAILABILITY_REASONS[code]
+        if code == AVAILABILITY_FREQ_OUTSIDE:
+            text = f"{f[i]:g} GHz is outside 1-100 GHz, the range of the ITU-R P.838-3 / P.530-17 rain method"
+        elif code in (AVAILABILITY_DOES_NOT_CLOSE, AVAILABILITY_NOT_CLEAR_NOT_CLOSING):
+            text = text.replace("below 0 dB", f"{margin[i]:+.1f} dB")
+        reasons[i] = text
     rows = np.full(n, -1, dtype=int)
     idx = np.flatnonzero(usable)
     rows[idx] = np.arange(idx.size)
@@ -565,30 +739,35 @@ def availability_for_links(
             f"gases: ITU-R P.676-12 Annex 1 at {settings.pressure_hpa:g} hPa, {settings.temperature_c:g} degC, "
             f"{settings.water_vapour_g_m3:g} g/m^3"
             + (" (defaults)" if all(a in settings.defaults_used() for a in atmosphere) else ""),
-            *(a for a in result.assumptions if "taken as 0" not in a and "is extended there" not in a),
+            *result.assumptions,
         )
     notes: list[tuple[str, ...]] = [shared if j >= 0 else () for j in rows.tolist()]
     special = np.zeros(n, dtype=bool)
     if result is not None:
         special[idx] = (~result.multipath_applicable | result.rain_outside_method_range
+                        | result.required_margin_rain_below_range
                         | (d[idx] > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0))
     for i in np.flatnonzero(special):  # links with notes of their own
         j = rows[i]
         extra = []
-        if not result.multipath_applicable[j]:
+        mp = int(result.multipath_status[j])
+        if mp == MULTIPATH_OUTSIDE_FREQ:
             extra.append(
-                f"multipath not estimated (taken as 0): {f[i]:g} GHz on a {d[i] / 1000:.2f} km path lies outside "
+                f"multipath not estimated: {f[i]:g} GHz on a {d[i] / 1000:.2f} km path lies outside "
                 "15/d-45 GHz, the range of ITU-R P.530-17 section 2.3"
             )
+        elif mp != MULTIPATH_ESTIMATED:
+            extra.append("multipath not estimated: " + MULTIPATH_REASONS[mp])
         if result.rain_outside_method_range[j]:
-            extra.append(
-                "rain outage lies outside 0.001-1 %, the range of ITU-R P.530-17 eq. 34; the power law is "
-                "extended there (below 0.001 % the figure is indicative only)"
-            )
+            extra.append(RAIN_BELOW_RANGE_TEXT if result.rain_range_side[j] < 0 else RAIN_ABOVE_RANGE_TEXT)
+        if result.required_margin_rain_below_range[j]:
+            extra.append("at the margin needed the rain outage lies below 0.001 %, outside ITU-R P.530-17 "
+                         "section 2.4.1; it is counted there as 0.001 %")
         if d[i] > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0:
             extra.append(
                 f"path longer than {P530_RAIN_TESTED_MAX_DISTANCE_KM:g} km, the length to which the ITU-R P.530 rain "
-                "method was tested; rain outage less certain"
+                "method was tested (from memory); rain outage less certain, and its effective path length is "
+                "held from falling with distance (see README)"
             )
         notes[i] = shared + tuple(extra)
     return LinkAvailability(
@@ -600,4 +779,5 @@ def availability_for_links(
         inclination_mrad=path_inclination_mrad(ha, hb, np.where(d > 0, d, np.nan)),
         latitude_deg=lat,
         distance_m=d,
+        status=status,
     )

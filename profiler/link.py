@@ -594,6 +594,7 @@ def analyse_links(
         (lat_a + lat_b) / 2.0,
         profiles.valid,
         settings.climate,
+        meets_criterion=meets,  # P.530 fading methods assume a clear path: not estimated otherwise
     ) if estimate_availability else None
     datums = sorted({s.vertical_datum for s in model.sources})
     provenance = {

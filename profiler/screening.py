@@ -104,7 +104,9 @@ COLUMNS: dict[str, str] = {
     "wc_diffraction_db": "f8", "wc_total_loss_db": "f8", "wc_rx_level_dbm": "f8", "wc_snr_db": "f8",
     "wc_fade_margin_db": "f8",
     "mast_raise_m": "f8",
-    "availability_pct": "f8", "outage_min_per_year": "f8", "meets_availability": "u1",
+    "availability_pct": "f8", "rain_outage_min_per_year": "f8", "multipath_min_per_year": "f8",
+    "multipath_worst_month_min": "f8", "meets_availability": "u1",
+    "availability_status": "i1", "rain_range": "i1", "multipath_status": "i1",
 }
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
@@ -405,7 +407,8 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     av = availability_for_links(
         out["fade_margin_db"], np.where(valid, length_m, 1.0), _radio_freq(task.radio, n),
         out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
-        task.settings.climate, solve_required=False,  # the margin needed is not a screening column
+        task.settings.climate, meets_criterion=out["meets_criterion"] == 1,
+        solve_required=False,  # the margin needed is not a screening column
     )
     for name, values in _availability_columns(av, n).items():
         out[name][:] = values
@@ -438,17 +441,30 @@ def _radio_freq(radio: Radio, n: int) -> np.ndarray:
 
 
 def _availability_columns(av: Any, n: int) -> dict[str, np.ndarray]:
-    """Availability, yearly outage and target verdict of each link (NaN/False where not estimated)."""
-    cols = {"availability_pct": np.full(n, np.nan), "outage_min_per_year": np.full(n, np.nan),
-            "meets_availability": np.zeros(n, dtype=bool)}
+    """Availability (rain only), rain and multipath outage, target verdict and status codes of each link.
+
+    NaN where a figure is not estimated (the status codes say why; see
+    :func:`profiler.availability.availability_note`); ``meets_availability``
+    is 2 where there is no verdict (written as empty).
+    """
+    cols = {"availability_pct": np.full(n, np.nan), "rain_outage_min_per_year": np.full(n, np.nan),
+            "multipath_min_per_year": np.full(n, np.nan), "multipath_worst_month_min": np.full(n, np.nan),
+            "meets_availability": np.full(n, 2, dtype=np.uint8),
+            "availability_status": np.asarray(av.status, dtype=np.int8) if av is not None and av.status is not None
+            else np.full(n, 1, dtype=np.int8),
+            "rain_range": np.zeros(n, dtype=np.int8), "multipath_status": np.zeros(n, dtype=np.int8)}
     if av is None or av.result is None:
         return cols
     rows = np.asarray(av.rows)
     ok = rows >= 0
     r = av.result
     cols["availability_pct"][ok] = np.asarray(r.availability_pct)[rows[ok]]
-    cols["outage_min_per_year"][ok] = np.asarray(r.total_outage_min_per_year)[rows[ok]]
+    cols["rain_outage_min_per_year"][ok] = np.asarray(r.rain_outage_min_per_year)[rows[ok]]
+    cols["multipath_min_per_year"][ok] = np.asarray(r.multipath_outage_min_per_year)[rows[ok]]
+    cols["multipath_worst_month_min"][ok] = np.asarray(r.multipath_worst_month_min)[rows[ok]]
     cols["meets_availability"][ok] = np.asarray(r.meets_target)[rows[ok]]
+    cols["rain_range"] = av.rain_side()
+    cols["multipath_status"] = av.multipath_status()
     return cols
 
 
@@ -649,6 +665,7 @@ def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings
         st = os.stat(s.path) if os.path.exists(s.path) else None
         h.update(f"{s.path}|{st.st_size if st else ''}|{st.st_mtime_ns if st else ''}".encode())
     h.update(repr((radio, settings, model.nodata_fill_m, plan.max_km, plan.hubs, chunk_pairs)).encode())
+    h.update(repr(tuple(COLUMNS.items())).encode())  # a staging folder of another column layout is not resumed
     if plan.explicit is not None:
         h.update(plan.explicit[0].tobytes())
         h.update(plan.explicit[1].tobytes())

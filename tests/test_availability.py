@@ -74,17 +74,21 @@ def test_components_agree_with_the_modules():
     a001 = rain_attenuation_001_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, elev, 0.0)
     np.testing.assert_allclose(r.rain_attenuation_001_db, a001)
     # rain: the attenuation exceeded for the outage percentage equals the margin
-    a = rain_attenuation_exceeded_db(PATHS["distance_m"], PATHS["freq_ghz"], 42.0, r.rain_outage_pct, elev, 0.0)
-    np.testing.assert_allclose(a, margin, rtol=1e-9)
+    inside = r.rain_range_side == 0
+    assert inside.sum() >= 2 and np.all(np.isnan(r.rain_outage_pct[~inside]))
+    a = rain_attenuation_exceeded_db(PATHS["distance_m"][inside], PATHS["freq_ghz"][inside], 42.0,
+                                     r.rain_outage_pct[inside], elev[inside], 0.0)
+    np.testing.assert_allclose(a, margin[inside], rtol=1e-9)
     # multipath: no latitude, so the worst month stands for the year
     p0 = multipath_occurrence_factor_pct(
         PATHS["distance_m"], PATHS["freq_ghz"], PATHS["altitude_a_m"], PATHS["altitude_b_m"], -200.0, 40.0
     )
     np.testing.assert_allclose(r.multipath_outage_pct, fade_exceedance_pct(margin, p0), rtol=1e-12)
     np.testing.assert_allclose(r.multipath_worst_month_pct, r.multipath_outage_pct)
-    np.testing.assert_allclose(r.total_outage_pct, r.rain_outage_pct + r.multipath_outage_pct)
-    np.testing.assert_allclose(r.availability_pct, 100 - r.total_outage_pct)
-    np.testing.assert_allclose(r.total_outage_min_per_year, r.total_outage_pct / 100 * 525_960)
+    # availability counts rain only (ITU-R P.530-17 section 2.4.1); multipath is performance
+    np.testing.assert_allclose(r.availability_pct, 100 - r.rain_outage_pct)
+    np.testing.assert_allclose(r.rain_outage_min_per_year, r.rain_outage_pct / 100 * 525_960)
+    np.testing.assert_allclose(r.multipath_worst_month_min, r.multipath_worst_month_pct / 100 * 43_830)
     assert MINUTES_PER_YEAR == 525_960
     rain, mp = outage_components_pct(margin, **PATHS, settings=s)
     np.testing.assert_allclose(rain, r.rain_outage_pct)
@@ -106,11 +110,14 @@ def test_required_margin_meets_target_exactly():
     s = ClimateSettings(target_availability_pct=99.995)
     need = required_fade_margin_db(**PATHS, settings=s, latitude_deg=40.0)
     r = evaluate_availability(need, **PATHS, settings=s, latitude_deg=40.0)
-    np.testing.assert_allclose(r.total_outage_pct, 0.005, rtol=1e-6)
+    assert np.all(r.rain_range_side == 0)
+    np.testing.assert_allclose(r.rain_outage_pct + r.multipath_outage_pct, 0.005, rtol=1e-6)
     np.testing.assert_allclose(r.required_fade_margin_db, need)
-    # 0.1 dB less fails the target, 0.1 dB more meets it
-    assert not evaluate_availability(need - 0.1, **PATHS, settings=s, latitude_deg=40.0).meets_target.any()
-    assert evaluate_availability(need + 0.1, **PATHS, settings=s, latitude_deg=40.0).meets_target.all()
+    assert np.all(need >= r.required_fade_margin_rain_db)
+    # rain only: 0.1 dB below A_0.005 fails the target, 0.1 dB above meets it (P.530-17 eq. 34)
+    rain_need = r.required_fade_margin_rain_db
+    assert not evaluate_availability(rain_need - 0.1, **PATHS, settings=s, latitude_deg=40.0).meets_target.any()
+    assert evaluate_availability(rain_need + 0.1, **PATHS, settings=s, latitude_deg=40.0).meets_target.all()
 
 
 def test_non_positive_margin_means_down_all_year():
@@ -125,8 +132,22 @@ def test_out_of_range_multipath_raises_or_is_excluded():
         evaluate_availability([20.0, 20.0], **paths)
     r = evaluate_availability([20.0, 20.0], **paths, multipath_outside_range="exclude")
     assert list(r.multipath_applicable) == [False, True]
-    assert r.multipath_outage_pct[0] == 0.0 and r.multipath_outage_pct[1] > 0.0
-    assert any("taken as 0" in a for a in r.assumptions)
+    assert np.isnan(r.multipath_outage_pct[0]) and r.multipath_outage_pct[1] > 0.0
+    assert np.isnan(r.multipath_worst_month_pct[0]) and np.isnan(r.multipath_occurrence_factor_pct[0])
+
+
+@pytest.mark.filterwarnings("ignore::profiler.errors.ModelValidityWarning")
+def test_p0_too_large_is_excluded_per_path_not_fatal():
+    # ITU-R P.530-17 section 2.3.2 needs pt = p0 10^(-At/10) < 100 %: a 300 km path with
+    # dN1 = -850 leaves it; that path loses its multipath figures, the others keep theirs.
+    s = ClimateSettings(dn1_n_per_km=-850.0)
+    paths = dict(distance_m=[300_000.0, 20_000.0], freq_ghz=6.0, altitude_a_m=100.0, altitude_b_m=200.0)
+    with pytest.raises(ModelValidityError, match="too large"):
+        evaluate_availability([20.0, 20.0], **paths, settings=s)
+    r = evaluate_availability([20.0, 20.0], **paths, settings=s, multipath_outside_range="exclude")
+    assert list(r.multipath_status) == [2, 0]
+    assert np.isnan(r.multipath_outage_pct[0]) and np.isfinite(r.multipath_outage_pct[1])
+    assert np.all(np.isfinite(r.rain_attenuation_001_db))
 
 
 def test_bad_inputs_are_refused():
@@ -160,5 +181,6 @@ def test_skipping_the_required_margin_leaves_the_other_numbers_unchanged():
     fast = evaluate_availability(*args, latitude_deg=rng.uniform(-60, 60, 200), multipath_outside_range="exclude",
                                  solve_required=False)
     assert np.all(np.isnan(fast.required_fade_margin_db)) and np.all(np.isfinite(full.required_fade_margin_db))
-    for name in ("availability_pct", "total_outage_pct", "rain_outage_pct", "multipath_outage_pct", "meets_target"):
-        assert np.array_equal(getattr(full, name), getattr(fast, name))
+    for name in ("availability_pct", "rain_outage_pct", "multipath_outage_pct", "multipath_worst_month_pct"):
+        assert np.array_equal(getattr(full, name), getattr(fast, name), equal_nan=True)
+    assert np.array_equal(full.meets_target, fast.meets_target)

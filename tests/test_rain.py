@@ -16,6 +16,7 @@ from profiler.losses.rain import (
     rain_coefficients,
     rain_coefficients_hv,
     rain_distance_factor,
+    rain_effective_length_m,
     rain_exceedance_pct,
     rain_percentage_coefficients,
     rain_specific_attenuation_db_km,
@@ -131,16 +132,37 @@ def test_exceedance_inverts_the_power_law():
         assert not outside.any()
 
 
-def test_exceedance_beyond_range_is_flagged_extended_or_clipped():
+def test_exceedance_beyond_range_is_bounded_or_clipped():
+    # ITU-R P.530-17 section 2.4.1: eq. 34 holds for 0.001 <= p <= 1 % only.
     a001 = rain_attenuation_001_db(12_000.0, 18.0, 60.0)
     huge, small = 3 * a001, 0.05 * a001
-    pct, outside = rain_exceedance_pct([huge, small], a001, 18.0)
-    assert outside.all()
-    assert pct[0] < 0.001 and pct[1] > 1.0
+    pct, side = rain_exceedance_pct([huge, small], a001, 18.0)
+    np.testing.assert_array_equal(side, [-1, 1])
+    assert np.isnan(pct).all()
     clipped, _ = rain_exceedance_pct([huge, small], a001, 18.0, beyond_range="clip")
     np.testing.assert_allclose(clipped, [0.001, 1.0])
     with pytest.raises(InputError):
         rain_exceedance_pct(1.0, a001, 18.0, beyond_range="wrap")
+
+
+@pytest.mark.parametrize("f", [1.5, 5.8, 8.0, 11.0, 23.0, 38.0, 80.0])
+@pytest.mark.parametrize("rate", [10.0, 42.0, 120.0])
+def test_inversion_is_monotonic_and_never_the_turning_point(f, rate):
+    # ITU-R P.530-17 section 2.4.1 eq. 34 peaks at p = 10^(-C2 / (2 C3)) (about 4.5e-6 %
+    # below 10 GHz); a margin beyond A_0.001 must read "below 0.001 %", never that peak.
+    a001 = rain_attenuation_001_db(8_000.0, f, rate)
+    _, _, c2, c3 = rain_percentage_coefficients(f)
+    turning = 10.0 ** (-c2 / (2.0 * c3))
+    margins = np.linspace(0.01, 40.0, 4001) * a001
+    clipped, side = rain_exceedance_pct(margins, a001, f, beyond_range="clip")
+    assert np.all(np.diff(clipped) <= 1e-15)  # non-increasing in the margin
+    assert np.all(np.diff(side) <= 0)  # above the range, then inside, then below
+    assert (side == -1).any() and (side == 0).any() and (side == 1).any()
+    bounded, _ = rain_exceedance_pct(margins, a001, f)
+    assert np.all(np.isnan(bounded[side != 0]))
+    inside = bounded[side == 0]
+    assert np.all((inside >= 0.001 * (1 - 1e-9)) & (inside <= 1.0 * (1 + 1e-9)))
+    assert not np.any(np.isclose(clipped, turning, rtol=1e-3))
 
 
 def test_exceedance_of_non_positive_margin_is_100_pct():
@@ -149,11 +171,44 @@ def test_exceedance_of_non_positive_margin_is_100_pct():
 
 
 def test_effective_length_grows_then_saturates():
-    # ITU-R P.530-17 eq. 32: d_eff = r d grows with d over ordinary hop lengths but
-    # levels off and dips slightly before 60 km when R0.01 is low (here 20 mm/h,
-    # 20 GHz: peak near 55 km).  A property of the published formula, kept as is.
+    # ITU-R P.530-17 eq. 32: d_eff = r d grows with d over ordinary hop lengths but,
+    # as published, levels off and dips before 60 km when R0.01 is low (here 20 mm/h,
+    # 20 GHz: peak near 55 km); rain_effective_length_m holds it at the peak.
     _, alpha = rain_coefficients(20.0)
     d = np.linspace(1_000.0, 60_000.0, 119)
     d_eff = rain_distance_factor(d, 20.0, 20.0, alpha) * d
     assert np.all(np.diff(d_eff[d <= 40_000.0]) > 0)
     assert d_eff[-1] < d_eff.max()
+    held = rain_effective_length_m(d, 20.0, 20.0, alpha)
+    assert held[-1] == pytest.approx(d_eff.max(), rel=1e-4)
+    np.testing.assert_allclose(held[d <= 20_000.0], d_eff[d <= 20_000.0], rtol=1e-12)
+
+
+def test_effective_length_is_exact_below_the_turn():
+    # The turn of r d lies beyond 38 km for 1-100 GHz and 0.1-300 mm/h, so below 20 km
+    # (where rain_effective_length_m skips its search) eq. 32 is used as published.
+    for f in np.geomspace(1.0, 100.0, 25):
+        _, alpha = rain_coefficients(f)
+        for rate in np.geomspace(0.1, 300.0, 25):
+            d = np.linspace(100.0, 38_000.0, 400)
+            h = rain_distance_factor(d, rate, f, alpha) * d
+            assert np.all(np.diff(h) > 0), (f, rate)
+
+
+@pytest.mark.parametrize("f", [1.0, 2.4, 5.8, 7.0, 11.0, 18.0, 23.0, 38.0, 60.0, 100.0])
+@pytest.mark.parametrize("rate", [1.0, 12.0, 42.0, 95.0, 250.0])
+def test_a001_never_falls_as_the_path_grows(f, rate):
+    # Issue check for ITU-R P.530-17 section 2.4.1: A0.01 at 11 GHz, 42 mm/h fell from
+    # 25.9 dB at 60 km to 24.9 dB at 85 km; rain attenuation must not fall with length.
+    d = np.linspace(500.0, 400_000.0, 1500)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelValidityWarning)
+        a = rain_attenuation_001_db(d, f, rate)
+    assert np.all(np.diff(a) >= -1e-9 * a[1:])
+
+
+def test_a001_at_11_ghz_holds_from_60_to_85_km():
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelValidityWarning)
+        a60, a85 = rain_attenuation_001_db([60_000.0, 85_000.0], 11.0, 42.0)
+    assert a85 >= a60 >= 25.8

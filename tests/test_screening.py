@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import json
 
 import numpy as np
@@ -125,8 +127,18 @@ def test_a_screened_pair_gives_exactly_the_numbers_of_terrahop_link(tmp_path):
             assert row["ground_a_m"] == rec["sites"]["a"]["ground_m"]
             assert row["gases_db"] == rec["loss_db"]["gases"]
             assert row["method"] == rec["inputs"]["diffraction_method"]
-            if rec.get("availability", {}).get("estimated"):
-                assert row["availability_pct"] == rec["availability"]["availability_pct"]
+            import pandas as pd
+
+            av = rec["availability"]
+            if av["estimated"]:
+                if av["availability_pct"] is None:
+                    assert math.isnan(row["availability_pct"]) and "outside" in row["availability_note"]
+                else:
+                    assert row["availability_pct"] == av["availability_pct"]
+                assert bool(row["meets_availability"]) == av["meets_target"]
+            else:
+                assert math.isnan(row["availability_pct"]) and pd.isna(row["meets_availability"])
+                assert row["availability_note"].startswith("availability not estimated")
 
 
 def test_output_layers_ranked_with_crs_and_columns(tmp_path):

@@ -319,21 +319,33 @@ def test_availability_rows_when_the_record_has_them(batch):
     b, _ = batch
     rec = b.record(1)
     assert availability_rows({k: v for k, v in rec.items() if k != "availability"}) == []
-    rec["availability"] = {"availability_pct": 99.98490559904604, "target_availability_pct": 99.99,
+    rec["availability"] = {"estimated": True, "availability_pct": 99.98490559904604, "target_availability_pct": 99.99,
                            "meets_target": False, "required_fade_margin_db": 30.53,
-                           "outage": {"rain_min_per_year": 78.85, "multipath_min_per_year": 0.545,
-                                      "total_min_per_year": 79.39}}
+                           "required_fade_margin_rain_only_db": 30.48,
+                           "rain": {"outage_min_per_year": 78.85},
+                           "multipath": {"estimated": True, "worst_month_min": 0.27, "average_year_min": 0.545}}
     rows = {r.label: r for r in parameter_rows(rec)}
-    assert rows["Availability, estimated"].left == "99.9849 % (target 99.99 %)"
-    assert rows["Availability, estimated"].flag == "bad"
-    assert rows["Outage per year"].left == "rain 79 + multipath 0.55 = 79 min"
-    assert rows["Margin needed for 99.99 %"].left == "30.5 dB"
-    rec["availability"].update(availability_pct=99.9999999, outage={"rain_min_per_year": 0.0,
-                                                                    "multipath_min_per_year": 3.2e-5,
-                                                                    "total_min_per_year": 3.2e-5})
+    assert rows["Availability (rain only)"].left == "99.9849 % (target 99.99 %)"
+    assert rows["Availability (rain only)"].flag == "bad"
+    assert rows["Rain outage per year"].left == "79 min"
+    assert rows["Multipath outage (performance)"].left == "0.27 min worst month, 0.55 min/yr"
+    assert rows["Margin needed for 99.99 % (rain)"].left == "30.5 dB"
+    assert rows["  with multipath, average year"].left == "30.5 dB"
+    # Beyond the range of ITU-R P.530-17 eq. 34 (0.001-1 %): a bound, never a figure.
+    rec["availability"].update(availability_pct=None, availability_above_pct=99.999, meets_target=True,
+                               rain={"outage_pct": None, "outage_min_per_year": None, "outage_below_pct": 0.001},
+                               required_fade_margin_rain_below_range=True)
     rows = {r.label: r for r in parameter_rows(rec)}
-    assert rows["Availability, estimated"].left == "above 99.9999 % (target 99.99 %)"
-    assert rows["Outage per year"].left == "rain 0 + multipath < 0.01 = < 0.01 min"
+    assert rows["Availability (rain only)"].left == "above 99.999 % (target 99.99 %)"
+    assert rows["Rain outage per year"].left == "< 0.001 % (below P.530-17 range)"
+    assert rows["  with multipath, average year"].left == "30.5 dB (rain < 0.001 % there)"
+    # Not estimated (obstructed path, link that does not close): no verdict row.
+    rec["availability"] = {"estimated": False, "reason": "the path fails the clearance criterion; more",
+                           "target_availability_pct": 99.99}
+    rows = {r.label: r for r in parameter_rows(rec)}
+    assert rows["Availability"].left == "not estimated"
+    assert rows["  why"].left == "the path fails the clearance criterion"
+    assert not any("MEETS" in (r.left or "") for r in availability_rows(rec))
 
 
 # --- long names, distances in miles, mast labels -----------------------------

@@ -62,7 +62,7 @@ def _clutter_lines(r: dict) -> list[str]:
     return out
 
 def _minutes(value: float) -> str:
-    return f"{value:.1f} min/yr" if value >= 0.1 else f"{value * 60:.1f} s/yr"
+    return f"{value:.1f} min" if value >= 0.1 else f"{value * 60:.1f} s"
 
 
 def _pct(value: float) -> str:
@@ -70,23 +70,44 @@ def _pct(value: float) -> str:
 
 
 def _availability_lines(av: dict | None) -> list[str]:
-    """Availability block of the summary (ITU-R P.530 rain and multipath outage)."""
+    """Availability block of the summary: rain (availability) and multipath (performance) apart (ITU-R P.530)."""
     if not av:
         return []
     if not av.get("estimated"):
         return [f"availability       not estimated: {av.get('reason')}"]
-    o = av["outage"]
+    rain, mp = av["rain"], av["multipath"]
+    target = av["target_availability_pct"]
+    verdict = "MEETS" if av["meets_target"] else "FAILS"
+    if av.get("availability_pct") is not None:
+        figure = f"{av['availability_pct']:.4f} %"
+        rain_text = f"{_pct(rain['outage_pct'])} of the year ({_minutes(rain['outage_min_per_year'])}/yr)"
+    elif av.get("availability_above_pct") is not None:
+        figure = f"above {av['availability_above_pct']:g} %"
+        rain_text = f"< {rain['outage_below_pct']:g} % of the year (below the range of ITU-R P.530-17 2.4.1)"
+    else:
+        figure = f"below {av['availability_below_pct']:g} %"
+        rain_text = f"> {rain['outage_above_pct']:g} % of the year (above the range of ITU-R P.530-17 2.4.1)"
+    if mp["estimated"]:
+        mp_lines = [
+            f"  multipath        worst month {_pct(mp['worst_month_pct'])} ({_minutes(mp['worst_month_min'])} in that month), "
+            f"average year {_pct(mp['average_year_pct'])} ({_minutes(mp['average_year_min'])}/yr); "
+            "counts against error performance, not availability",
+        ]
+    else:
+        mp_lines = [f"  multipath        not estimated: {mp.get('reason')}"]
     need = av["required_fade_margin_db"]
-    need_text = f"{need:.1f} dB" if need is not None else "not reachable"
-    mp = "not estimated" if not av["multipath"]["estimated"] else (
-        f"{_pct(o['multipath_pct'])} ({_minutes(o['multipath_min_per_year'])})"
-    )
+    if need is None:
+        need_text = "not reachable within the method's range"
+    else:
+        need_text = f"{need:.1f} dB (rain + multipath, average year)"
+        if av.get("required_fade_margin_rain_below_range"):
+            need_text += "; rain share there below 0.001 %, outside P.530-17, counted as 0.001 %"
     lines = [
-        f"availability       {av['availability_pct']:.5f} % of an average year with fade margin "
-        f"{av['fade_margin_db']:+.1f} dB: {_verdict(av['meets_target'])} target {av['target_availability_pct']:g} %",
-        f"  outage           rain {_pct(o['rain_pct'])} ({_minutes(o['rain_min_per_year'])}), multipath {mp}, "
-        f"total {_pct(o['total_pct'])} ({_minutes(o['total_min_per_year'])})",
-        f"  margin needed    {need_text} for {av['target_availability_pct']:g} %",
+        f"availability       {figure} of an average year (rain only) with fade margin "
+        f"{av['fade_margin_db']:+.1f} dB: {verdict} target {target:g} %",
+        f"  rain outage      {rain_text}",
+        *mp_lines,
+        f"  margin needed    {av['required_fade_margin_rain_only_db']:.1f} dB for {target:g} % (rain only); {need_text}",
     ]
     for n, a in enumerate(av.get("assumptions", [])):
         lines.append(f"  {'assumes' if n == 0 else '':<17}{a}")

@@ -38,7 +38,8 @@ LINK_COLUMNS = (
     "meets_criterion", "free_space_db", "diffraction_db", "gases_db", "total_loss_db",
     "eirp_dbm", "rx_level_dbm", "noise_floor_dbm", "snr_db",
     "wc_diffraction_db", "wc_total_loss_db", "wc_rx_level_dbm", "wc_snr_db", "wc_fade_margin_db",
-    "availability_pct", "outage_min_per_year", "meets_availability",
+    "availability_pct", "meets_availability", "rain_outage_min_per_year", "multipath_min_per_year",
+    "multipath_worst_month_min", "availability_note",
     "method", "k", "k_worst", "samples", "spacing_m", "mast_raise_m", "problem",
 )
 #: Columns of the point layer, in order (extra site columns follow): pairs per
@@ -48,7 +49,7 @@ SITE_COLUMNS = (
     "budget_short_links", "clearance_short_links", "obstructed_links", "error_links",
     "best_fade_margin_db", "best_partner",
 )
-_BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion", "meets_availability"}
+_BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion"}
 
 
 def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:
@@ -104,6 +105,7 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
         method=np.full(n, settings.diffraction_method, dtype=object),
         k=np.full(n, settings.k), k_worst=np.full(n, settings.k_worst),
         problem=np.array([problems.get(int(p), "") for p in cols["pair"]], dtype=object),
+        **_availability_data(cols, failed),
     )
     frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data})
     if sites.gain_dbi is not None:
@@ -130,6 +132,22 @@ def _flags(values: np.ndarray, failed: np.ndarray):
     import pandas as pd
 
     return pd.array(np.where(failed, None, values.astype(bool)), dtype="boolean")
+
+
+def _availability_data(cols: dict, failed: np.ndarray) -> dict[str, Any]:
+    """Target verdict (NULL where not estimated or not profiled) and the availability note of each row."""
+    if "availability_status" not in cols:
+        return {}
+    import pandas as pd
+
+    from ..availability import availability_note
+
+    meets = cols["meets_availability"]
+    verdict = pd.array(np.where((meets == 2) | failed, None, meets == 1), dtype="boolean")
+    keys = np.stack([cols["availability_status"], cols["rain_range"], cols["multipath_status"]], axis=1)
+    unique, inverse = np.unique(keys, axis=0, return_inverse=True)
+    texts = np.array([availability_note(*map(int, k)) for k in unique], dtype=object)
+    return {"meets_availability": verdict, "availability_note": texts[np.asarray(inverse).reshape(-1)]}
 
 
 def _lines(frame) -> Any:

@@ -33,6 +33,7 @@ __all__ = [
     "multipath_occurrence_factor_pct",
     "deep_fade_exceedance_pct",
     "fade_exceedance_pct",
+    "occurrence_factor_too_large",
     "shallow_fade_peak",
     "fade_exceedance_envelope_pct",
     "worst_month_to_year_db",
@@ -155,6 +156,18 @@ def fade_exceedance_pct(fade_depth_db: ArrayLike, p0_pct: ArrayLike) -> np.ndarr
     shallow = 100.0 * (1.0 - np.exp(-np.power(10.0, -q_a * a / 20.0)))
     deep = p0 * np.power(10.0, -a / 10.0)
     return np.where(a >= a_t, deep, shallow)
+
+
+def occurrence_factor_too_large(p0_pct: ArrayLike) -> np.ndarray:
+    """Boolean array: True where p0 (%) is too large for ITU-R P.530-17 section 2.3.2.
+
+    The interpolation needs pt = p0 10^(-At/10) below 100 %, At = 25 + 1.2 log10 p0,
+    i.e. p0 below about 1.3e5 % (very long paths, extreme dN1).
+    """
+    p0 = np.asarray(p0_pct, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        p_t = p0 * np.power(10.0, -(25.0 + 1.2 * np.log10(p0)) / 10.0)
+    return ~(p_t < 100.0)
 
 
 def shallow_fade_peak(p0_pct: ArrayLike) -> tuple[np.ndarray, np.ndarray]:

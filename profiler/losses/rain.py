@@ -36,6 +36,7 @@ __all__ = [
     "rain_specific_attenuation_db_km",
     "rain_distance_factor",
     "rain_attenuation_001_db",
+    "rain_effective_length_m",
     "rain_percentage_coefficients",
     "rain_attenuation_exceeded_db",
     "rain_exceedance_pct",
@@ -225,14 +226,68 @@ def rain_attenuation_001_db(
     """Path attenuation exceeded for 0.01 % of an average year, A0.01 = gamma_R r d, dB.
 
     ITU-R P.530-17, section 2.4.1, steps 1-4 (eq. 33), gamma_R at R0.01 from
-    ITU-R P.838-3.  Frequency 1-100 GHz.
+    ITU-R P.838-3, with r d from :func:`rain_effective_length_m` (never
+    falling with distance).  Frequency 1-100 GHz.
     """
     d, f = _check_path(distance_m, freq_ghz)
     rate = _check_rain_rate(rain_rate_mm_h)
     k, alpha = rain_coefficients(f, elevation_deg, tilt_deg)
     gamma = k * np.power(rate, alpha)
-    r = rain_distance_factor(d, rate, f, alpha)
-    return gamma * r * d / 1000.0
+    return gamma * rain_effective_length_m(d, rate, f, alpha) / 1000.0
+
+
+#: Paths shorter than this never reach the turn of d r(d), m (the turn lies beyond
+#: 38 km for 1-100 GHz and 0.1-300 mm/h; checked in the tests).
+_EFFECTIVE_LENGTH_TURN_MIN_M = 20_000.0
+
+
+def rain_effective_length_m(
+    distance_m: ArrayLike, rain_rate_mm_h: ArrayLike, freq_ghz: ArrayLike, alpha: ArrayLike
+) -> np.ndarray:
+    """Effective path length for rain, never falling as the path grows, m.
+
+    d_eff = r d with r from ITU-R P.530-17 section 2.4.1 step 3 (eq. 32).
+    Beyond some 40-180 km (depending on R0.01 and f) the product r d of the
+    published formula reaches a maximum, dips and rises again, so A0.01 would
+    fall as a path grows (11 GHz, 42 mm/h: 25.9 dB at 60 km, 24.9 dB at 85 km).
+    The recommendation gives no rule for such paths (the method was tested to
+    about 60 km, from memory); terrahop uses the largest r d' over d' <= d,
+    i.e. the distance used in the reduction factor is limited to where r d
+    peaks until the formula rises past that peak again.  Below 20 km this is
+    eq. 32 exactly.
+    """
+    d, rate, f, a = np.broadcast_arrays(
+        np.asarray(distance_m, dtype=float), np.asarray(rain_rate_mm_h, dtype=float),
+        np.asarray(freq_ghz, dtype=float), np.asarray(alpha, dtype=float),
+    )
+    out = rain_distance_factor(d, rate, f, a) * d
+    long = np.flatnonzero((d > _EFFECTIVE_LENGTH_TURN_MIN_M).ravel())
+    if long.size == 0:
+        return out
+    dl, rl, fl, al = (x.ravel()[long] for x in (d, rate, f, a))
+
+    def length(x: np.ndarray) -> np.ndarray:
+        return rain_distance_factor(x, rl[:, None] if x.ndim == 2 else rl, fl[:, None] if x.ndim == 2 else fl,
+                                    al[:, None] if x.ndim == 2 else al) * x
+
+    # Largest r d' over 0 < d' <= d: a grid brackets it, golden-section search refines it
+    # (common practice numerics; r d rises, may dip, then rises again).
+    grid = np.linspace(0.0, 1.0, 257)[None, 1:] * dl[:, None]
+    values = length(grid)
+    j = np.argmax(values, axis=1)
+    lo = grid[np.arange(long.size), np.maximum(j - 1, 0)]
+    hi = grid[np.arange(long.size), np.minimum(j + 1, grid.shape[1] - 1)]
+    ratio = (np.sqrt(5.0) - 1.0) / 2.0
+    for _ in range(60):
+        x1 = hi - ratio * (hi - lo)
+        x2 = lo + ratio * (hi - lo)
+        left = length(x1) >= length(x2)
+        hi = np.where(left, x2, hi)
+        lo = np.where(left, lo, x1)
+    peak = np.maximum(length((lo + hi) / 2.0), values.max(axis=1))
+    flat = out.reshape(-1).copy()
+    flat[long] = np.maximum(flat[long], peak)
+    return flat.reshape(out.shape)
 
 
 def rain_percentage_coefficients(
@@ -241,8 +296,9 @@ def rain_percentage_coefficients(
     """Coefficients (C0, C1, C2, C3) of the P.530 time-percentage power law.
 
     C0 = 0.12 below 10 GHz, 0.12 + 0.4 log10((f/10)^0.8) from 10 GHz
-    (ITU-R P.530-17 section 2.4.1 step 5, eq. 35a, as coded in the ITU-R SG3
-    reference implementation); C1 = 0.07^C0 0.12^(1 - C0),
+    (ITU-R P.530-17 section 2.4.1 step 5, as coded in the ITU-R SG3 reference
+    implementation: the typeset "0.4 log10(f/10)^0.8" is read as the log of
+    the power, not the power of the log; see the README); C1 = 0.07^C0 0.12^(1 - C0),
     C2 = 0.855 C0 + 0.546 (1 - C0), C3 = 0.139 C0 + 0.043 (1 - C0) (eqs. 35b-d).
     """
     f = np.asarray(freq_ghz, dtype=float)
@@ -284,38 +340,51 @@ def rain_exceedance_pct(
     fade_margin_db: ArrayLike,
     a001_db: ArrayLike,
     freq_ghz: ArrayLike,
-    beyond_range: Literal["extend", "clip"] = "extend",
+    beyond_range: Literal["bound", "clip"] = "bound",
 ) -> tuple[np.ndarray, np.ndarray]:
     """Percentage of an average year that rain attenuation exceeds a fade margin, and a flag.
 
-    Inverts A_p = A0.01 C1 p^-(C2 + C3 log10 p) (ITU-R P.530-17 eq. 34) in
-    closed form: with x = log10 p and L = log10(M / (A0.01 C1)),
-    C3 x^2 + C2 x + L = 0, taking the root on the falling branch of A_p.
-    Returns ``(percent, outside)``: ``outside`` marks results beyond the
-    0.001-1 % range of the method.  There ``beyond_range="extend"`` carries
-    the same power law on (down to its turning point, where A_p peaks, and
-    holding that percentage for larger margins; capped at 100 %), while
-    ``"clip"`` returns the range limit.  A zero A0.01 (no rain) gives 0 %.
+    Inverts A_p = A0.01 C1 p^-(C2 + C3 log10 p) (ITU-R P.530-17 section 2.4.1,
+    step 5, eq. 34) in closed form: with x = log10 p and
+    L = log10(M / (A0.01 C1)), C3 x^2 + C2 x + L = 0, root on the falling branch.
+    The law holds for 0.001 <= p <= 1 % only; beyond 0.001 % it reaches a
+    maximum and turns (near p = 4.5e-6 % below 10 GHz), so it cannot be
+    extended.  The result is tested against the range limits as margins:
+    a margin above A_0.001 means p < 0.001 %, one below A_1 means p > 1 %.
+
+    Returns ``(percent, side)``: ``side`` is -1 where p lies below 0.001 %,
+    +1 where above 1 %, 0 inside the range.  Outside the range
+    ``beyond_range="bound"`` gives NaN (the caller states the bound) and
+    ``"clip"`` the range limit crossed (0.001 or 1 %), which is monotonic in
+    the margin.  A zero A0.01 (no rain) gives 0 % (side 0); a margin of 0 dB
+    or less gives 100 % (side 0: the link fails without rain).
     """
+    if beyond_range not in ("bound", "clip"):
+        raise InputError(f"beyond_range must be 'bound' or 'clip', got {beyond_range!r}")
     m = np.asarray(fade_margin_db, dtype=float)
     a001 = np.asarray(a001_db, dtype=float)
     _, c1, c2, c3 = rain_percentage_coefficients(freq_ghz)
     m, a001, c1, c2, c3 = np.broadcast_arrays(m, a001, c1, c2, c3)
     no_rain = a001 <= 0.0
     margin_pos = m > 0.0
+    # Range limits as attenuations (eq. 34 at p = 0.001 and 1 %); a relative
+    # tolerance keeps a margin equal to a limit inside the range.
+    tol = 1e-9
+    x_lo, x_hi = np.log10(P530_RAIN_MIN_PCT), np.log10(P530_RAIN_MAX_PCT)
+    a_lo = a001 * c1 * np.power(10.0, -(c2 + c3 * x_lo) * x_lo)  # A_0.001, the largest attenuation covered
+    a_hi = a001 * c1 * np.power(10.0, -(c2 + c3 * x_hi) * x_hi)  # A_1
+    below = margin_pos & ~no_rain & (m > a_lo * (1.0 + tol))
+    above = margin_pos & ~no_rain & (m < a_hi * (1.0 - tol))
     with np.errstate(divide="ignore", invalid="ignore"):
         level = np.log10(m / (a001 * c1))
-        disc = c2**2 - 4.0 * c3 * level
-        x_turn = -c2 / (2.0 * c3)
-        x = np.where(disc > 0.0, (-c2 + np.sqrt(np.maximum(disc, 0.0))) / (2.0 * c3), x_turn)
-        x = np.minimum(x, 2.0)  # at most 100 %
-        pct = np.power(10.0, x)
+        disc = np.maximum(c2**2 - 4.0 * c3 * level, 0.0)
+        x = (-c2 + np.sqrt(disc)) / (2.0 * c3)
+        pct = np.clip(np.power(10.0, x), P530_RAIN_MIN_PCT, P530_RAIN_MAX_PCT)
+    if beyond_range == "bound":
+        pct = np.where(below | above, np.nan, pct)
+    else:
+        pct = np.where(below, P530_RAIN_MIN_PCT, np.where(above, P530_RAIN_MAX_PCT, pct))
     pct = np.where(margin_pos, pct, 100.0)
     pct = np.where(no_rain, 0.0, pct)
-    tol = 1e-9  # relative: a margin equal to A_0.001 or A_1 stays inside the range
-    outside = ~no_rain & ((pct < P530_RAIN_MIN_PCT * (1.0 - tol)) | (pct > P530_RAIN_MAX_PCT * (1.0 + tol)))
-    if beyond_range == "clip":
-        pct = np.where(no_rain, 0.0, np.clip(pct, P530_RAIN_MIN_PCT, P530_RAIN_MAX_PCT))
-    elif beyond_range != "extend":
-        raise InputError(f"beyond_range must be 'extend' or 'clip', got {beyond_range!r}")
-    return pct, outside
+    side = np.where(below, -1, np.where(above, 1, 0)).astype(np.int8)
+    return pct, side

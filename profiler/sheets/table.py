@@ -228,22 +228,49 @@ def _minutes(value: float) -> str:
 
 
 def availability_rows(record: dict) -> list[Row]:
-    """Rows of the estimated availability when the record carries one (ITU-R P.530 rain and multipath)."""
+    """Rows of the availability block when the record carries one (ITU-R P.530-17).
+
+    Availability counts rain only; multipath (clear-air) outage is a
+    performance figure on its own row; bounds are shown where the rain
+    outage lies outside the 0.001-1 % range of the method.
+    """
     av = record.get("availability")
-    if not isinstance(av, dict) or "availability_pct" not in av:
+    if not isinstance(av, dict):
         return []
-    pct, target = av["availability_pct"], av.get("target_availability_pct")
-    text = "above 99.9999 %" if pct > 99.99995 else f"{pct:.4f} %"
+    if av.get("estimated") is False:
+        return [Row("Availability", "not estimated", flag="bad"), Row("  why", str(av.get("reason", "")).split(";")[0])]
+    if "availability_pct" not in av:
+        return []
+    pct, target = av.get("availability_pct"), av.get("target_availability_pct")
+    if pct is not None:
+        text = f"{pct:.4f} %"
+    elif av.get("availability_above_pct") is not None:
+        text = f"above {av['availability_above_pct']:g} %"
+    elif av.get("availability_below_pct") is not None:
+        text = f"below {av['availability_below_pct']:g} %"
+    else:
+        text = "-"
     if target is not None:
         text += f" (target {target:g} %)"
-    rows = [Row("Availability, estimated", text,
+    rows = [Row("Availability (rain only)", text,
                 flag=("good" if av.get("meets_target") else "bad") if "meets_target" in av else "")]
-    out = av.get("outage") or {}
-    if "total_min_per_year" in out:
-        rows.append(Row("Outage per year",
-                        f"rain {_minutes(out.get('rain_min_per_year', math.nan))} + multipath "
-                        f"{_minutes(out.get('multipath_min_per_year', math.nan))} = "
-                        f"{_minutes(out['total_min_per_year'])} min"))
+    rain = av.get("rain") or {}
+    if rain.get("outage_min_per_year") is not None:
+        rows.append(Row("Rain outage per year", f"{_minutes(rain['outage_min_per_year'])} min"))
+    elif rain.get("outage_below_pct") is not None:
+        rows.append(Row("Rain outage per year", f"< {rain['outage_below_pct']:g} % (below P.530-17 range)"))
+    elif rain.get("outage_above_pct") is not None:
+        rows.append(Row("Rain outage per year", f"> {rain['outage_above_pct']:g} % (above P.530-17 range)"))
+    mp = av.get("multipath") or {}
+    if mp.get("estimated") and mp.get("worst_month_min") is not None:
+        rows.append(Row("Multipath outage (performance)",
+                        f"{_minutes(mp['worst_month_min'])} min worst month, "
+                        f"{_minutes(mp.get('average_year_min', math.nan))} min/yr"))
+    elif mp:
+        rows.append(Row("Multipath outage (performance)", "not estimated"))
+    if av.get("required_fade_margin_rain_only_db") is not None and target is not None:
+        rows.append(Row(f"Margin needed for {target:g} % (rain)", f"{av['required_fade_margin_rain_only_db']:.1f} dB"))
     if av.get("required_fade_margin_db") is not None and target is not None:
-        rows.append(Row(f"Margin needed for {target:g} %", f"{av['required_fade_margin_db']:.1f} dB"))
+        rows.append(Row("  with multipath, average year", f"{av['required_fade_margin_db']:.1f} dB"
+                        + (" (rain < 0.001 % there)" if av.get("required_fade_margin_rain_below_range") else "")))
     return rows
