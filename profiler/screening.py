@@ -468,7 +468,12 @@ def _init_local_worker(model: ElevationModel) -> None:
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides what an interrupt means
-    _worker_model(model)
+    try:
+        _worker_model(model)
+    except Exception as exc:  # noqa: BLE001 - an initializer that raises breaks the whole pool
+        # Kept and raised by the first task instead, so the parent sees the one-line error
+        # (e.g. a damaged raster) rather than "process pool broken".
+        _WORKER["error"] = exc
 
 
 def run_chunk(model: ElevationModel, task: ChunkTask):
@@ -477,6 +482,8 @@ def run_chunk(model: ElevationModel, task: ChunkTask):
 
 
 def _local_pool_run(task: ChunkTask):
+    if "error" in _WORKER:
+        raise _WORKER["error"]
     return evaluate_chunk(_WORKER["model"], task)
 
 
