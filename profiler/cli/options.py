@@ -14,6 +14,8 @@ from ..errors import TerrahopError
 
 __all__ = [
     "friendly_errors",
+    "quiet_broken_pipe",
+    "BROKEN_PIPE_EXIT",
     "parse_lat_lon",
     "parse_number",
     "terrain_options",
@@ -46,10 +48,30 @@ def friendly_errors(func: Callable) -> Callable:
             return func(*args, **kwargs)
         except TerrahopError as exc:
             raise click.ClickException(str(exc)) from None
+        except BrokenPipeError:
+            quiet_broken_pipe()
         except OSError as exc:
             raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
 
     return wrapper
+
+
+#: Exit code when the reader of our output went away (128 + SIGPIPE, as a shell reports it).
+BROKEN_PIPE_EXIT = 141
+
+
+def quiet_broken_pipe() -> None:
+    """End quietly after the reader closed stdout (``terrahop demo | head -1``): no message, exit 141."""
+    import os
+    import sys
+
+    # Point stdout at /dev/null so the interpreter's last flush cannot fail and print again.
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):  # not a real file (e.g. a test runner)
+        pass
+    sys.exit(BROKEN_PIPE_EXIT)
 
 
 def parse_lat_lon(text: str, what: str) -> tuple[float, float]:

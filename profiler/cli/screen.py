@@ -8,7 +8,7 @@ import click
 
 from .options import analysis_options, climate_options, friendly_errors, radio_options, terrain_options
 
-__all__ = ["screen", "resolve_radio_settings", "format_screen_summary"]
+__all__ = ["screen", "resolve_radio_settings", "format_screen_summary", "format_skipped"]
 
 #: Bad rows printed in full before the rest are only counted.
 SHOWN_BAD_ROWS = 20
@@ -21,18 +21,24 @@ def resolve_radio_settings(opts: dict):
     return resolve_radio(opts), resolve_settings(opts)
 
 
+def format_skipped(bad_rows, problems=()) -> str:
+    """Why rows were skipped and pairs not profiled: the first 20 of each, then a count (for stderr)."""
+    lines = []
+    for row in bad_rows[:SHOWN_BAD_ROWS]:
+        lines.append(f"skipped {row.describe()}")
+    if len(bad_rows) > SHOWN_BAD_ROWS:
+        lines.append(f"... and {len(bad_rows) - SHOWN_BAD_ROWS} more skipped rows")
+    for p in problems[:SHOWN_BAD_ROWS]:
+        lines.append(f"not profiled: {p}")
+    if len(problems) > SHOWN_BAD_ROWS:
+        lines.append(f"... and {len(problems) - SHOWN_BAD_ROWS} more pairs not profiled")
+    return "\n".join(lines)
+
+
 def format_screen_summary(summary) -> str:
-    """The few lines a planner reads at the end of a run."""
+    """The few lines a planner reads at the end of a run (the reasons are in :func:`format_skipped`)."""
     lines = []
     bad = summary.bad_rows
-    for row in bad[:SHOWN_BAD_ROWS]:
-        lines.append(f"skipped {row.describe()}")
-    if len(bad) > SHOWN_BAD_ROWS:
-        lines.append(f"... and {len(bad) - SHOWN_BAD_ROWS} more skipped rows")
-    for p in summary.problems[:SHOWN_BAD_ROWS]:
-        lines.append(f"not profiled: {p}")
-    if len(summary.problems) > SHOWN_BAD_ROWS:
-        lines.append(f"... and {len(summary.problems) - SHOWN_BAD_ROWS} more pairs not profiled")
     rate = summary.pairs / summary.seconds if summary.seconds > 0 else float("nan")
     resumed = f" ({summary.resumed_pairs} from the interrupted run)" if summary.resumed_pairs else ""
     lines += [
@@ -126,7 +132,8 @@ class _Progress:
               help="Pairs per chunk (unit of work, of progress and of resumption).")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command.")
 @click.option("--restart", is_flag=True, help="Discard an interrupted run's partial results and start again.")
-@click.option("--quiet", "-q", is_flag=True, help="No progress bar and no summary.")
+@click.option("--quiet", "-q", is_flag=True,
+              help="No progress bar and no summary; skipped rows and warnings still go to stderr.")
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
@@ -158,7 +165,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m, layer=layer,
     )
     if len(sites) < 2:
-        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen")
+        why = f"; {len(bad)} row(s) skipped, first: {bad[0].describe()}" if bad else ""
+        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen{why}")
     explicit = None
     if pairs_file:
         a, b, bad_pairs = read_pairs(pairs_file, sites.names)
@@ -182,5 +190,9 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
+    # Reasons are warnings: on stderr, shown even with -q.
+    skipped = format_skipped(summary.bad_rows, summary.problems)
+    if skipped:
+        click.echo(skipped, err=True)
     if not quiet:
         click.echo(format_screen_summary(summary))

@@ -59,7 +59,10 @@ def test_screen_hub_mode_and_pairs_file_with_bad_rows(tmp_path):
     assert len(gpd.read_file(out2)) == 2
     assert (tmp_path / "pairs-sites.geojson").exists()
     proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs)
-    assert "skipped pairs.csv row 3" in proc.stdout and "'Atlantis'" in proc.stdout
+    assert "skipped pairs.csv row 3" in proc.stderr and "'Atlantis'" in proc.stderr
+    assert "skipped pairs.csv" not in proc.stdout
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, "-q")
+    assert proc.stdout == "" and "skipped pairs.csv row 3" in proc.stderr  # -q hides progress, not reasons
 
 
 def test_bad_inputs_give_one_line_messages(tmp_path):
