@@ -20,7 +20,7 @@ from .sheet import sheet
 def format_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int) -> str:
     """One line for stderr: terrahop's own warnings as they are, numeric ones with where they arose."""
     text = " ".join(str(message).split())
-    if issubclass(category, RuntimeWarning) or issubclass(category, DeprecationWarning):
+    if issubclass(category, RuntimeWarning):
         # A numpy warning (divide by zero, invalid value, overflow) is a defect of terrahop, not of
         # the input; say so plainly instead of numpy's wording, which reads like a crash.
         where = f"{filename.rsplit('/', 1)[-1]}:{lineno}"
@@ -33,7 +33,10 @@ def format_warning(message: Warning | str, category: type[Warning], filename: st
 def tool_warnings() -> Iterator[None]:
     """Within a command, Python warnings go to stderr as one line each, once per place."""
     with warnings.catch_warnings():
-        warnings.simplefilter("default")
+        # The filters in force (Python's defaults, or -W given by whoever runs us) are kept;
+        # library deprecation notices are for developers, not for a planner.
+        for category in (DeprecationWarning, PendingDeprecationWarning, FutureWarning):
+            warnings.filterwarnings("ignore", category=category)
 
         def show(message, category, filename, lineno, file=None, line=None) -> None:
             try:
