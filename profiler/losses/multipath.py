@@ -153,7 +153,7 @@ def fade_exceedance_pct(fade_depth_db: ArrayLike, p0_pct: ArrayLike) -> np.ndarr
     q_a = 2.0 + (1.0 + 0.3 * np.power(10.0, -a / 20.0)) * np.power(10.0, -0.016 * a) * (
         q_t + 4.3 * (np.power(10.0, -a / 20.0) + a / 800.0)
     )
-    shallow = 100.0 * (1.0 - np.exp(-np.power(10.0, -q_a * a / 20.0)))
+    shallow = -100.0 * np.expm1(-np.power(10.0, -q_a * a / 20.0))  # 1 - exp(-x) without rounding to 0
     deep = p0 * np.power(10.0, -a / 10.0)
     return np.where(a >= a_t, deep, shallow)
 

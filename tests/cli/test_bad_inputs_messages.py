@@ -232,3 +232,19 @@ def test_python_warnings_become_one_stderr_line(capsys):
     assert lines[0] == "warning: path of 80.0 km is longer than the 60 km tested"
     assert lines[1].startswith("warning: an internal calculation gave a non-finite value (divide by zero")
     assert "RuntimeWarning" not in captured.err and "old API" not in captured.err and len(lines) == 2
+
+
+def test_multipath_curve_of_a_very_short_path_is_finite_without_numpy_warnings():
+    """Tiny p0 (paths of a metre or so) once gave log10(0) in ITU-R P.530-17 section 2.3.2's shallow-fade term."""
+    import numpy as np
+
+    from profiler.losses.multipath import fade_exceedance_pct
+
+    p0 = 1e-14
+    a_t = 25.0 + 1.2 * np.log10(p0)
+    depths = np.array([0.0, 0.5 * a_t, 0.999 * a_t, a_t, 1.5 * a_t])
+    with np.errstate(all="raise"):
+        pw = fade_exceedance_pct(depths, p0)
+    assert np.all(np.isfinite(pw)) and np.all(np.diff(pw) <= 0.0)
+    # Both branches meet at At (the interpolation is built to do so).
+    assert pw[2] == pytest.approx(pw[3], rel=0.01)
