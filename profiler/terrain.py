@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import re
 from dataclasses import dataclass
 from functools import cached_property
 from typing import Iterable, Sequence
@@ -113,8 +114,8 @@ def missing_vrt_sources(path: str, _seen: frozenset = frozenset()) -> list[str]:
     missing: list[str] = []
     for el in root.iter("SourceFilename"):
         name = (el.text or "").strip()
-        if not name or _is_remote(name):
-            continue
+        if not name or _is_remote(name) or re.match(r"^[A-Za-z][A-Za-z0-9_]+:", name):
+            continue  # remote, or a driver-prefixed name such as NETCDF:file.nc:var (GDAL checks those)
         full = os.path.join(base, name) if el.get("relativeToVRT") == "1" else name
         full = os.path.abspath(full)
         if not os.path.exists(full):

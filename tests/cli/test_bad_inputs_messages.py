@@ -50,6 +50,7 @@ def damaged(tmp_path_factory):
   </VRTRasterBand>
 </VRTDataset>
 """)
+    (folder / "good.vrt").write_text((folder / "gone.vrt").read_text().replace("tiles/missing-tile.tif", "full.tif"))
     return folder
 
 
@@ -102,6 +103,14 @@ def test_screen_vrt_with_missing_source_names_the_source(damaged, tmp_path):
                     "--out", tmp_path / "r.csv"], ["gone.vrt", missing, "does not exist"],
                    inputs=[damaged, DEMO_SITES], subprocess=True)
     assert not (tmp_path / "r.csv").exists()
+
+
+def test_vrt_whose_sources_exist_still_works(damaged):
+    from tests.cli.bad_input import run_command
+
+    out = run_command(["link", "--dem", damaged / "good.vrt", *SITES_AB, "--json"])
+    assert out.exit_code == 0, out.stderr
+    assert '"meets_criterion"' in out.stdout
 
 
 def test_link_surface_vrt_with_missing_source(damaged):
