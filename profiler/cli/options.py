@@ -48,8 +48,11 @@ def friendly_errors(func: Callable) -> Callable:
             return func(*args, **kwargs)
         except TerrahopError as exc:
             raise click.ClickException(str(exc)) from None
-        except BrokenPipeError:
-            quiet_broken_pipe()
+        except BrokenPipeError as exc:
+            if stdout_reader_gone():
+                quiet_broken_pipe()
+            # Some other pipe or socket broke (a Dask connection, say): that is an error.
+            raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
         except OSError as exc:
             raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
 
@@ -58,6 +61,20 @@ def friendly_errors(func: Callable) -> Callable:
 
 #: Exit code when the reader of our output went away (128 + SIGPIPE, as a shell reports it).
 BROKEN_PIPE_EXIT = 141
+
+
+def stdout_reader_gone() -> bool:
+    """True when stdout is a pipe whose reader has closed it (so a BrokenPipeError is ours to ignore)."""
+    import select
+    import sys
+
+    try:
+        fd = sys.stdout.fileno()
+        poller = select.poll()
+    except (OSError, ValueError, AttributeError):  # no real file, or no poll (Windows)
+        return True  # cannot tell; a broken pipe while printing is by far the likely case
+    poller.register(fd, select.POLLOUT)
+    return any(ev & select.POLLERR for _, ev in poller.poll(0))
 
 
 def quiet_broken_pipe() -> None:

@@ -257,3 +257,19 @@ def test_multipath_curve_of_a_very_short_path_is_finite_without_numpy_warnings()
     assert np.all(np.isfinite(pw)) and np.all(np.diff(pw) <= 0.0)
     # Both branches meet at At (the interpolation is built to do so).
     assert pw[2] == pytest.approx(pw[3], rel=0.01)
+
+
+def test_broken_pipe_elsewhere_is_still_an_error(monkeypatch, tmp_path):
+    """Only a closed stdout ends quietly; a broken socket or pipe inside the work is reported."""
+    import click
+
+    from profiler.cli.options import friendly_errors
+
+    @friendly_errors
+    def work():
+        raise BrokenPipeError(32, "Broken pipe")
+
+    with open(tmp_path / "stdout.txt", "w") as healthy:
+        monkeypatch.setattr(sys, "stdout", healthy)
+        with pytest.raises(click.ClickException, match="BrokenPipeError"):
+            work()
