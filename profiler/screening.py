@@ -558,7 +558,12 @@ def _init_local_worker(model: ElevationModel) -> None:
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides what an interrupt means
-    _worker_model(model)
+    try:
+        _worker_model(model)
+    except Exception as exc:  # noqa: BLE001 - an initializer that raises breaks the whole pool
+        # Kept and raised by the first task instead, so the parent sees the one-line error
+        # (e.g. a damaged raster) rather than "process pool broken".
+        _WORKER["error"] = exc
 
 
 def run_chunk(model: ElevationModel, task: ChunkTask):
@@ -567,6 +572,8 @@ def run_chunk(model: ElevationModel, task: ChunkTask):
 
 
 def _local_pool_run(task: ChunkTask):
+    if "error" in _WORKER:
+        raise _WORKER["error"]
     return evaluate_chunk(_WORKER["model"], task)
 
 
@@ -620,6 +627,60 @@ class _LocalPool:
         self.pool.shutdown(wait=True, cancel_futures=cancel)
 
 
+#: Longest wait for a Dask scheduler to answer, s (a wrong address must not hang the run).
+SCHEDULER_CONNECT_TIMEOUT_S = 10.0
+
+_ADDRESS_SCHEMES = ("tcp", "tls", "ucx", "ws", "wss")
+
+
+def check_scheduler_address(address: str) -> str:
+    """A Dask scheduler address as ``scheme://host:port`` (``host:port`` means tcp); InputError if garbled."""
+    import re
+
+    text = str(address).strip()
+    if text.startswith("inproc://"):
+        return text
+    m = re.fullmatch(r"(?:([A-Za-z]+)://)?(\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9_.-]+):(\d{1,5})/?", text)
+    if m is None or (m.group(1) is not None and m.group(1).lower() not in _ADDRESS_SCHEMES) \
+            or not 0 < int(m.group(3)) < 65536:
+        raise InputError(
+            f"--scheduler {address!r} is not a Dask scheduler address; give one like tcp://host:8786"
+        )
+    return text if m.group(1) else f"tcp://{text}"
+
+
+def with_absolute_paths(model: ElevationModel) -> ElevationModel:
+    """A copy of ``model`` whose local raster paths are absolute (workers elsewhere have another cwd)."""
+    from .terrain import _is_remote
+
+    copy = ElevationModel.__new__(ElevationModel)
+    copy.__dict__.update(model.__getstate__())
+    copy.sources = tuple(
+        s if _is_remote(s.path) else dataclasses.replace(s, path=os.path.abspath(s.path)) for s in model.sources
+    )
+    return copy
+
+
+class _WorkerFuture:
+    """A Dask future whose data errors say they happened on a worker."""
+
+    def __init__(self, future: Any) -> None:
+        self.future = future
+
+    def result(self) -> Any:
+        from .errors import DataFileError
+
+        try:
+            return self.future.result()
+        except DataFileError as exc:
+            raise DataFileError(
+                f"on a Dask worker: {exc} (workers must reach the rasters by the same absolute paths)"
+            ) from None
+
+    def cancel(self) -> None:
+        self.future.cancel()
+
+
 class _DaskPool:
     def __init__(self, model: ElevationModel, scheduler: Any) -> None:
         try:
@@ -632,16 +693,29 @@ class _DaskPool:
         if isinstance(scheduler, Client):
             self.client = scheduler
         else:
-            self.client = Client(scheduler)  # an address or a cluster object
+            if isinstance(scheduler, str):
+                scheduler = check_scheduler_address(scheduler)
+            try:
+                self.client = Client(scheduler, timeout=SCHEDULER_CONNECT_TIMEOUT_S)  # an address or a cluster
+            except Exception as exc:  # noqa: BLE001 - distributed raises many kinds; all mean "not reached"
+                from .errors import DataError
+
+                cause = " ".join(str(exc).split())[:160] or type(exc).__name__
+                if isinstance(exc, MemoryError):  # a reply read as a huge message: not a scheduler
+                    cause = "the other end does not answer as a Dask scheduler"
+                raise DataError(
+                    f"cannot connect to the Dask scheduler at {scheduler} within "
+                    f"{SCHEDULER_CONNECT_TIMEOUT_S:g} s ({cause}); check the address and that it is running"
+                ) from None
             self.own = True
-        self.model = self.client.scatter(model, broadcast=True)
+        self.model = self.client.scatter(with_absolute_paths(model), broadcast=True)
 
     @property
     def workers(self) -> int:
         return max(len(self.client.scheduler_info().get("workers", {})), 1)
 
     def submit(self, task: ChunkTask):
-        return self.client.submit(run_chunk, self.model, task, pure=False)
+        return _WorkerFuture(self.client.submit(run_chunk, self.model, task, pure=False))
 
     def close(self, cancel: bool = False) -> None:
         if self.own:
@@ -789,7 +863,12 @@ def screen(
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
-        executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
+        try:
+            executor, inflight_max = _executor(model, workers, scheduler, _pairs_bound(sites, plan), chunk_pairs)
+        except BaseException:
+            if run.done_rows == 0:  # e.g. the scheduler cannot be reached: leave no empty staging behind
+                run.stage.discard()
+            raise
         try:
             summary = run.compute(executor, inflight_max, progress)
             return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))

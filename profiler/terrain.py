@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import re
 from dataclasses import dataclass
 from functools import cached_property
 from typing import Iterable, Sequence
@@ -23,7 +24,8 @@ from .errors import DataError, DataFileError, InputError
 from .kernels import StoredCells
 from .units import FEET_TO_M
 
-__all__ = ["RasterSource", "ElevationModel", "VERTICAL_UNITS", "open_elevation"]
+__all__ = ["RasterSource", "ElevationModel", "VERTICAL_UNITS", "open_elevation", "raster_read_error",
+           "missing_vrt_sources"]
 
 #: Vertical units a raster may be declared in, and their factor to metres.
 VERTICAL_UNITS = {
@@ -88,12 +90,90 @@ def _describe_vertical_datum(crs) -> str:
     return DATUM_NOT_STATED
 
 
+def _read_errors() -> tuple[type[BaseException], ...]:
+    """Exceptions rasterio raises when GDAL cannot open or read a file."""
+    from rasterio.errors import RasterioError
+
+    try:
+        from rasterio._err import CPLE_BaseError
+    except ImportError:  # pragma: no cover - private module moved
+        return (RasterioError,)
+    return (RasterioError, CPLE_BaseError)
+
+
+def _is_remote(path: str) -> bool:
+    return path.startswith(("/vsi", "http://", "https://", "s3://", "gs://"))
+
+
+def missing_vrt_sources(path: str, _seen: frozenset = frozenset()) -> list[str]:
+    """Local source files a VRT names that do not exist (nested VRTs followed), as absolute paths."""
+    import xml.etree.ElementTree as ET
+
+    if _is_remote(path) or not path.lower().endswith(".vrt") or path in _seen or not os.path.isfile(path):
+        return []
+    try:
+        root = ET.parse(path).getroot()
+    except (ET.ParseError, OSError):
+        return []  # GDAL reports what it cannot parse
+    base = os.path.dirname(os.path.abspath(path))
+    missing: list[str] = []
+    for el in root.iter("SourceFilename"):
+        name = (el.text or "").strip()
+        if not name or _is_remote(name) or re.match(r"^[A-Za-z][A-Za-z0-9_]+:", name):
+            continue  # remote, or a driver-prefixed name such as NETCDF:file.nc:var (GDAL checks those)
+        full = os.path.join(base, name) if el.get("relativeToVRT") == "1" else name
+        full = os.path.abspath(full)
+        if not os.path.exists(full):
+            missing.append(full)
+        else:
+            missing += missing_vrt_sources(full, _seen | {path})
+    return list(dict.fromkeys(missing))
+
+
+def _gdal_cause(exc: BaseException) -> str:
+    """The first GDAL message behind a rasterio error (rasterio's own says only 'see previous')."""
+    texts = []
+    seen = set()
+    c: BaseException | None = exc
+    while c is not None and id(c) not in seen:
+        seen.add(id(c))
+        text = str(c).strip()
+        if text and "See previous exception" not in text:
+            texts.append(text)
+        c = c.__cause__ or c.__context__
+    # The innermost message names the low-level cause (short read, missing file).
+    return texts[-1] if texts else str(exc)
+
+
+def raster_read_error(path: str, exc: BaseException, what: str = "elevation raster") -> DataFileError:
+    """One-line DataFileError naming the raster, the cause and any missing VRT source."""
+    missing = missing_vrt_sources(path)
+    if missing:
+        more = f" (and {len(missing) - 1} more)" if len(missing) > 1 else ""
+        return DataFileError(f"cannot read {what} {path}: its source file {missing[0]}{more} does not exist")
+    return DataFileError(f"cannot read {what} {path}: {_explain(_gdal_cause(exc))}")
+
+
+def _explain(cause: str) -> str:
+    """GDAL's message with what it means for the planner in front."""
+    if "No such file" in cause or "does not exist" in cause:
+        return f"a file it refers to is missing ({cause})"
+    if any(w in cause for w in ("Read error", "got ", "IReadBlock", "TIFFRead", "TIFFFill", "truncated",
+                                "Failed to read directory")):
+        return f"the file is damaged or truncated ({cause})"
+    return cause
+
+
 def _open_source(path: str, vertical_unit: str | None) -> RasterSource:
     import rasterio
     from rasterio.errors import RasterioIOError
 
-    if not path.startswith(("/vsi", "http://", "https://", "s3://")) and not os.path.exists(path):
+    if not _is_remote(path) and not os.path.exists(path):
         raise DataFileError(f"elevation raster not found: {path}")
+    missing = missing_vrt_sources(path)
+    if missing:
+        more = f" (and {len(missing) - 1} more)" if len(missing) > 1 else ""
+        raise DataFileError(f"elevation raster {path}: its source file {missing[0]}{more} does not exist")
     try:
         with rasterio.open(path) as src:
             if src.crs is None:
@@ -139,7 +219,7 @@ def _open_source(path: str, vertical_unit: str | None) -> RasterSource:
                 vertical_datum=_describe_vertical_datum(crs),
             )
     except RasterioIOError as exc:
-        raise DataFileError(f"cannot read {path} as an elevation raster: {exc}") from None
+        raise DataFileError(f"cannot read {path} as an elevation raster: {_explain(_gdal_cause(exc))}") from None
 
 
 def _check_one_datum(sources: Sequence[RasterSource]) -> None:
@@ -246,9 +326,22 @@ class ElevationModel:
         if ds is None:
             import rasterio
 
-            ds = rasterio.open(path)
+            try:
+                ds = rasterio.open(path)
+            except _read_errors() as exc:
+                raise raster_read_error(path, exc) from None
             self._datasets[path] = ds
         return ds
+
+    def _read_window(self, s: RasterSource, row0: int, col0: int, nrows: int, ncols: int):
+        """Masked cells of a window; a damaged file or a missing VRT source gives one DataFileError."""
+        from rasterio.windows import Window
+
+        dataset = self._dataset(s.path)
+        try:
+            return dataset.read(1, window=Window(col0, row0, ncols, nrows), masked=True)
+        except _read_errors() as exc:
+            raise raster_read_error(s.path, exc) from None
 
     def preload(self, max_cells: int = 200_000_000) -> None:
         """Read whole rasters into memory (up to ``max_cells`` cells in all) for reuse.
@@ -273,9 +366,7 @@ class ElevationModel:
         nodata value, else converted to float64 metres with NaN holes as
         :meth:`_read` does; the gather converts in the same way either way.
         """
-        from rasterio.windows import Window
-
-        block = self._dataset(s.path).read(1, window=Window(col0, row0, ncols, nrows), masked=True)
+        block = self._read_window(s, row0, col0, nrows, ncols)
         raw = np.ascontiguousarray(block.data)
         mask = np.ma.getmask(block)
         if mask is np.ma.nomask or not mask.any():
@@ -285,10 +376,7 @@ class ElevationModel:
         return block.astype(np.float64).filled(np.nan) * s.unit_factor_m, 1.0, None
 
     def _read(self, s: RasterSource, row0: int, col0: int, nrows: int, ncols: int) -> np.ndarray:
-        from rasterio.windows import Window
-
-        ds = self._dataset(s.path)
-        block = ds.read(1, window=Window(col0, row0, ncols, nrows), masked=True)
+        block = self._read_window(s, row0, col0, nrows, ncols)
         data = block.astype(np.float64).filled(np.nan) * s.unit_factor_m
         return data
 

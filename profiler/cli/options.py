@@ -13,6 +13,8 @@ from ..errors import TerrahopError
 
 __all__ = [
     "friendly_errors",
+    "quiet_broken_pipe",
+    "BROKEN_PIPE_EXIT",
     "parse_lat_lon",
     "parse_number",
     "terrain_options",
@@ -45,10 +47,47 @@ def friendly_errors(func: Callable) -> Callable:
             return func(*args, **kwargs)
         except TerrahopError as exc:
             raise click.ClickException(str(exc)) from None
+        except BrokenPipeError as exc:
+            if stdout_reader_gone():
+                quiet_broken_pipe()
+            # Some other pipe or socket broke (a Dask connection, say): that is an error.
+            raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
         except OSError as exc:
             raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
 
     return wrapper
+
+
+#: Exit code when the reader of our output went away (128 + SIGPIPE, as a shell reports it).
+BROKEN_PIPE_EXIT = 141
+
+
+def stdout_reader_gone() -> bool:
+    """True when stdout is a pipe whose reader has closed it (so a BrokenPipeError is ours to ignore)."""
+    import select
+    import sys
+
+    try:
+        fd = sys.stdout.fileno()
+        poller = select.poll()
+    except (OSError, ValueError, AttributeError):  # no real file, or no poll (Windows)
+        return True  # cannot tell; a broken pipe while printing is by far the likely case
+    poller.register(fd, select.POLLOUT)
+    return any(ev & select.POLLERR for _, ev in poller.poll(0))
+
+
+def quiet_broken_pipe() -> None:
+    """End quietly after the reader closed stdout (``terrahop demo | head -1``): no message, exit 141."""
+    import os
+    import sys
+
+    # Point stdout at /dev/null so the interpreter's last flush cannot fail and print again.
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):  # not a real file (e.g. a test runner)
+        pass
+    sys.exit(BROKEN_PIPE_EXIT)
 
 
 def parse_lat_lon(text: str, what: str) -> tuple[float, float]:

@@ -8,7 +8,7 @@ import click
 
 from .options import RADIO_FLAGS, analysis_options, climate_options, friendly_errors, terrain_options
 
-__all__ = ["screen", "resolve_radio_settings", "format_screen_summary"]
+__all__ = ["screen", "resolve_radio_settings", "format_screen_summary", "format_skipped"]
 
 #: Bad rows printed in full before the rest are only counted.
 SHOWN_BAD_ROWS = 20
@@ -53,18 +53,24 @@ def gain_warning_text(ends, how: str) -> str:
             f"are low by the real gains; give {how}")
 
 
+def format_skipped(bad_rows, problems=()) -> str:
+    """Why rows were skipped and pairs not profiled: the first 20 of each, then a count (for stderr)."""
+    lines = []
+    for row in bad_rows[:SHOWN_BAD_ROWS]:
+        lines.append(f"skipped {row.describe()}")
+    if len(bad_rows) > SHOWN_BAD_ROWS:
+        lines.append(f"... and {len(bad_rows) - SHOWN_BAD_ROWS} more skipped rows")
+    for p in problems[:SHOWN_BAD_ROWS]:
+        lines.append(f"not profiled: {p}")
+    if len(problems) > SHOWN_BAD_ROWS:
+        lines.append(f"... and {len(problems) - SHOWN_BAD_ROWS} more pairs not profiled")
+    return "\n".join(lines)
+
+
 def format_screen_summary(summary) -> str:
-    """The few lines a planner reads at the end of a run."""
+    """The few lines a planner reads at the end of a run (the reasons are in :func:`format_skipped`)."""
     lines = []
     bad = summary.bad_rows
-    for row in bad[:SHOWN_BAD_ROWS]:
-        lines.append(f"skipped {row.describe()}")
-    if len(bad) > SHOWN_BAD_ROWS:
-        lines.append(f"... and {len(bad) - SHOWN_BAD_ROWS} more skipped rows")
-    for p in summary.problems[:SHOWN_BAD_ROWS]:
-        lines.append(f"not profiled: {p}")
-    if len(summary.problems) > SHOWN_BAD_ROWS:
-        lines.append(f"... and {len(summary.problems) - SHOWN_BAD_ROWS} more pairs not profiled")
     rate = summary.pairs / summary.seconds if summary.seconds > 0 else float("nan")
     resumed = f" ({summary.resumed_pairs} from the interrupted run)" if summary.resumed_pairs else ""
     lines += [
@@ -172,7 +178,8 @@ def _screen_radio_options(func):
               help="Fade margin a pair needs at the design k to count as viable, dB.")
 @click.option("--workers", type=int, default=None, help="Local worker processes [default: all cores].")
 @click.option("--scheduler", default=None, metavar="ADDRESS",
-              help="Run the chunks on a Dask cluster at this address (tcp://host:8786); workers must reach the rasters by the same paths.")
+              help="Run the chunks on a Dask cluster at this address (tcp://host:8786; 10 s to connect); "
+                   "raster paths are sent as absolute paths, which the workers must reach.")
 @click.option("--chunk-pairs", type=int, default=2000, show_default=True,
               help="Pairs per chunk (unit of work, of progress and of resumption).")
 @click.option("--resume", is_flag=True, help="Finish an interrupted run of the same command (refused while a run on RESULT is alive).")
@@ -180,7 +187,8 @@ def _screen_radio_options(func):
 @click.option("--overwrite", is_flag=True,
               help="Replace an existing result (and its -sites file); the old files stay until the new "
                    "ones are complete.")
-@click.option("--quiet", "-q", is_flag=True, help="No progress bar and no summary.")
+@click.option("--quiet", "-q", is_flag=True,
+              help="No progress bar and no summary; skipped rows and warnings still go to stderr.")
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
@@ -218,13 +226,18 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     check_output_path(out)
     inputs = [sites_file, pairs_file, *opts["dem"]]
     check_outputs_spare_inputs(out, inputs)
+    if scheduler is not None:
+        from ..screening import check_scheduler_address
+
+        scheduler = check_scheduler_address(scheduler)  # before any work: a garbled address is one line
     radio, settings = resolve_radio_settings(opts)
     sites, bad = read_sites(
         sites_file, name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
         gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m, layer=layer,
     )
     if len(sites) < 2:
-        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen")
+        why = f"; {len(bad)} row(s) skipped, first: {bad[0].describe()}" if bad else ""
+        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen{why}")
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     explicit = None
     if pairs_file:
@@ -250,6 +263,10 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
+    # Reasons are warnings: on stderr, shown even with -q.
+    skipped = format_skipped(summary.bad_rows, summary.problems)
+    if skipped:
+        click.echo(skipped, err=True)
     for note in summary.warnings:  # shown even with -q
         click.echo(f"warning: {note}", err=True)
     if gain_warning:  # after the run, so a refused run still prints one line only

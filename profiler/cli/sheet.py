@@ -49,6 +49,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
         click.echo(f"note: {pairs} has no fade-margin column; --best takes the first {best} row(s) in file order",
                    err=True)
     sites_a, sites_b, names = [], [], []
+    skipped: list[str] = []
     for r in chosen:
         problem = r.problem
         if problem is None:
@@ -63,13 +64,15 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
             except InputError as exc:
                 problem = str(exc)
         if problem is not None:
-            click.echo(f"skipped: {pairs}: {problem}", err=True)
+            skipped.append(f"{pairs}: {problem}")
             continue
         sites_a.append(a)
         sites_b.append(b)
         names.append(r.name)
     if not sites_a:
-        raise InputError(f"{pairs}: no usable pair among the {len(chosen)} selected row(s)")
+        first = f"; first: {skipped[0]}" if skipped else ""
+        raise InputError(f"{pairs}: no usable pair among the {len(chosen)} selected row(s){first}")
+    _echo_skipped(skipped)
     # Resolve terrain, radio and analysis settings once; the first pair stands in for the sites.
     first = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg),
                  site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
@@ -82,20 +85,28 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     with opened_link_data(resolved) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
-        good = []
-        for i, problem in enumerate(batch.problems):
-            if problem is None:
-                good.append(i)
-            else:
-                click.echo(f"skipped: {problem}", err=True)
+        good = [i for i, problem in enumerate(batch.problems) if problem is None]
+        unprofiled = [p for p in batch.problems if p is not None]
         if not good:
-            raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data")
+            raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data; "
+                             f"first: {unprofiled[0]}")
+        _echo_skipped(unprofiled)
         return sheet_contents(batch, model, title=title, indices=good, vertical_crs=_vertical_crs(resolved))
 
 
 def _vertical_crs(resolved: Any) -> str | None:
     """The vertical CRS the planner named (--vertical-crs or [terrain] vertical_crs), if any."""
     return getattr(resolved.mount_a, "vertical_crs", None) if resolved.mount_a is not None else None
+
+
+def _echo_skipped(reasons: list[str]) -> None:
+    """Why pairs were left out, on stderr: the first 20, then a count."""
+    from .screen import SHOWN_BAD_ROWS
+
+    for reason in reasons[:SHOWN_BAD_ROWS]:
+        click.echo(f"skipped: {reason}", err=True)
+    if len(reasons) > SHOWN_BAD_ROWS:
+        click.echo(f"... and {len(reasons) - SHOWN_BAD_ROWS} more skipped pairs", err=True)
 
 
 def _agl(flag: float | None, column: float | None) -> float:

@@ -146,14 +146,15 @@ def fade_exceedance_pct(fade_depth_db: ArrayLike, p0_pct: ArrayLike) -> np.ndarr
             f"multipath occurrence factor p0 = {p0[p_t >= 100.0].flat[0]:.3g} % is too large for "
             "ITU-R P.530-17 section 2.3.2"
         )
-    qa_prime = -20.0 * np.log10(-np.log((100.0 - p_t) / 100.0)) / a_t
+    # -ln(1 - pt/100) by log1p: the plain form rounds to log10(0) for the tiny p0 of very short paths.
+    qa_prime = -20.0 * np.log10(-np.log1p(-p_t / 100.0)) / a_t
     q_t = (qa_prime - 2.0) / ((1.0 + 0.3 * np.power(10.0, -a_t / 20.0)) * np.power(10.0, -0.016 * a_t)) - 4.3 * (
         np.power(10.0, -a_t / 20.0) + a_t / 800.0
     )
     q_a = 2.0 + (1.0 + 0.3 * np.power(10.0, -a / 20.0)) * np.power(10.0, -0.016 * a) * (
         q_t + 4.3 * (np.power(10.0, -a / 20.0) + a / 800.0)
     )
-    shallow = 100.0 * (1.0 - np.exp(-np.power(10.0, -q_a * a / 20.0)))
+    shallow = -100.0 * np.expm1(-np.power(10.0, -q_a * a / 20.0))  # 1 - exp(-x) without rounding to 0
     deep = p0 * np.power(10.0, -a / 10.0)
     return np.where(a >= a_t, deep, shallow)
 

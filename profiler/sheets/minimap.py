@@ -108,7 +108,12 @@ def read_map_grid(
                 continue
             step = max(1, math.ceil(max(win.width / width, win.height / height) / 1.5))
             shape = (max(1, math.ceil(win.height / step)), max(1, math.ceil(win.width / step)))
-            block = ds.read(1, window=win, out_shape=shape, masked=True, resampling=Resampling.average)
+            try:
+                block = ds.read(1, window=win, out_shape=shape, masked=True, resampling=Resampling.average)
+            except Exception as exc:  # noqa: BLE001 - rasterio/GDAL read errors: one line naming the file
+                from ..terrain import raster_read_error
+
+                raise raster_read_error(s.path, exc) from None
             src_transform = ds.window_transform(win) @ Affine.scale(win.width / shape[1], win.height / shape[0])
             src = block.astype(np.float64).filled(np.nan) * s.unit_factor_m
             part = np.full((height, width), np.nan)

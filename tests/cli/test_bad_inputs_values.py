@@ -164,7 +164,7 @@ def test_sheet_refuses_a_bad_frequency(tmp_path):
 
 
 def test_sheet_pairs_at_the_same_place_are_skipped_then_refused(tmp_path):
-    """Row 1 names one place twice (longitude -20.97 written as 339.03): skipped with its reason, then refused."""
+    """Row 1 names one place twice (longitude -20.97 written as 339.03): refused, naming the first reason."""
     from tests.cli.bad_input import run_command, sha256_of
 
     pairs = tmp_path / "pairs.csv"
@@ -175,7 +175,7 @@ def test_sheet_pairs_at_the_same_place_are_skipped_then_refused(tmp_path):
                           "-o", str(tmp_path / "x.pdf")])
     assert result.exit_code == 1
     lines = result.stderr.strip().splitlines()
-    assert len(lines) == 2 and "same position" in lines[0] and "no usable pair" in lines[1], result.stderr
+    assert len(lines) == 1 and "no usable pair" in lines[0] and "same position" in lines[0], result.stderr
     assert "Traceback" not in result.stderr
     assert sha256_of([pairs, DEMO_DEM]) == before
     assert not (tmp_path / "x.pdf").exists()

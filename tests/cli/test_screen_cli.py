@@ -61,7 +61,11 @@ def test_screen_hub_mode_and_pairs_file_with_bad_rows(tmp_path):
     proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, check=False)
     assert proc.returncode == 1 and "--overwrite" in proc.stderr  # an existing result is kept
     proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, "--overwrite")
-    assert "skipped pairs.csv row 3" in proc.stdout and "'Atlantis'" in proc.stdout
+    assert "skipped pairs.csv row 3" in proc.stderr and "'Atlantis'" in proc.stderr
+    assert "skipped pairs.csv" not in proc.stdout
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out2, "--pairs", pairs, "-q",
+                    "--overwrite")
+    assert proc.stdout == "" and "skipped pairs.csv row 3" in proc.stderr  # -q hides progress, not reasons
 
 
 def test_bad_inputs_give_one_line_messages(tmp_path):
@@ -122,3 +126,48 @@ def test_scheduler_address_runs_the_chunks_on_a_dask_cluster(tmp_path):
         proc = terrahop(*args, "--scheduler", cluster.scheduler_address, "--out", tmp_path / "dask.csv")
     assert "pairs of 12 sites screened" in proc.stdout
     pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "local.csv"), pd.read_csv(tmp_path / "dask.csv"))
+
+
+def test_scheduler_gets_absolute_raster_paths_from_a_relative_dem(tmp_path):
+    """Workers run elsewhere (here: another working directory), so a relative --dem must be sent absolute."""
+    import shutil
+
+    import pandas as pd
+
+    distributed = pytest.importorskip("distributed")
+    run_dir = tmp_path / "run"
+    run_dir.mkdir()
+    shutil.copy(DEMO_DEM, run_dir / "terrain.tif")
+    args = ["screen", DEMO_SITES, *RADIO, "--max-km", "9", "--chunk-pairs", "7"]
+    terrahop(*args, "--dem", DEMO_DEM, "--workers", "1", "--out", tmp_path / "local.csv")
+    # The cluster's workers are threads of this test process, whose working directory is not run_dir.
+    assert os.getcwd() != str(run_dir)
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False, protocol="tcp",
+                                  host="127.0.0.1", dashboard_address=":0") as cluster:
+        proc = terrahop(*args, "--dem", "terrain.tif", "--scheduler", cluster.scheduler_address,
+                        "--out", tmp_path / "dask.csv", cwd=run_dir)
+    assert "pairs of 12 sites screened" in proc.stdout
+    pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "local.csv"), pd.read_csv(tmp_path / "dask.csv"))
+
+
+def test_scheduler_address_is_checked_and_connection_time_bounded(tmp_path):
+    import socket
+
+    pytest.importorskip("distributed")
+    out = tmp_path / "r.csv"
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out, "--scheduler", "not a url",
+                    check=False)
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr
+    assert proc.stderr.strip().splitlines() == [
+        "Error: --scheduler 'not a url' is not a Dask scheduler address; give one like tcp://host:8786"]
+    with socket.socket() as s:  # a port nobody listens on
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    t0 = time.monotonic()
+    proc = terrahop("screen", DEMO_SITES, "--dem", DEMO_DEM, *RADIO, "--out", out, "--scheduler",
+                    f"127.0.0.1:{port}", check=False, timeout=120)
+    assert time.monotonic() - t0 < 60
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and "cannot connect to the Dask scheduler at tcp://127.0.0.1" in lines[0]
+    assert not out.exists() and not (tmp_path / "r.csv.partial").exists()
