@@ -11,6 +11,8 @@ import numpy as np
 from numpy.typing import ArrayLike
 from pyproj import Geod
 
+from ._sampling_kernels import hermite_paths
+
 __all__ = ["WGS84", "PathLines", "path_lines", "sample_counts", "sample_paths", "NODE_SPACING_M",
            "canonical_order", "path_nodes"]
 
@@ -181,8 +183,6 @@ def sample_paths(
     offsets, nlat, nlon, dlat, dlon, step = _geodesic_nodes(
         lat_a, lon_a, canon.azimuth_a_to_b_deg, lines.length_m
     )
-    from .kernels import hermite_paths
-
     lat, lon = hermite_paths(distance, offsets, step, nlat, nlon, dlat, dlon)
     if lon.size and (lon.min() < -180.0 or lon.max() > 180.0):
         wrapped = (lon < -180.0) | (lon > 180.0)

@@ -14,6 +14,7 @@ from functools import cached_property
 import numpy as np
 from numpy.typing import ArrayLike
 
+from ._clearance_kernels import clearance_reductions
 from .units import EARTH_RADIUS_M, wavelength_m
 
 __all__ = [
@@ -150,8 +151,6 @@ def clearance(
     both antennas that gives c F1 everywhere, when positive).  Large batches
     take one compiled pass (same bits); the full arrays are made on first use.
     """
-    from .kernels import clearance_reductions
-
     inputs = (distance_m, surface_m, interior, length_m, antenna_a_amsl_m, antenna_b_amsl_m, freq_ghz, k)
     n_paths = distance_m.shape[0]
     ha = np.broadcast_to(np.asarray(antenna_a_amsl_m, dtype=float), (n_paths,))

@@ -21,7 +21,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from .errors import DataError, DataFileError, InputError
-from .kernels import StoredCells
+from ._sampling_kernels import StoredCells, affine_gather, cell_numpy, gather_bilinear, pixel_numpy
 from .units import FEET_TO_M
 
 __all__ = ["RasterSource", "ElevationModel", "VERTICAL_UNITS", "open_elevation", "raster_read_error",
@@ -381,16 +381,12 @@ class ElevationModel:
         return data
 
     def _pixel_coords(self, i: int, lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        from .kernels import pixel_numpy
-
         x, y = self._transformers[i].transform(lon, lat)
         x = _wrap_x(self.sources[i], np.asarray(x, dtype=float))
         return pixel_numpy(x, np.asarray(y, dtype=float), self.sources[i].transform)
 
     def _sample_source(self, i: int, lon: np.ndarray, lat: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Bilinear heights of one raster at 1-D points: ``(values, inside)``, NaN where none."""
-        from .kernels import affine_gather, pixel_numpy
-
         s = self.sources[i]
         x, y = self._transformers[i].transform(lon, lat)
         x = _wrap_x(s, np.asarray(x, dtype=float))
@@ -459,8 +455,6 @@ class ElevationModel:
     def _bilinear(self, s: RasterSource, col: np.ndarray, row: np.ndarray) -> np.ndarray:
         # Cell centres sit at half-integer pixel coordinates; beyond the outer
         # centres the edge value is held (points up to half a cell outside).
-        from .kernels import cell_numpy, gather_bilinear
-
         x, y, x0, y0 = cell_numpy(col, row, s.width, s.height)
         r0, c0 = int(y0.min()), int(x0.min())
         r1 = min(int(y0.max()) + 2, s.height)
@@ -537,9 +531,7 @@ class ElevationModel:
 def bilinear_gather(
     block: np.ndarray, x: np.ndarray, y: np.ndarray, x0: np.ndarray, y0: np.ndarray
 ) -> np.ndarray:
-    """Bilinear interpolation of ``block`` (see :func:`profiler.kernels.gather_bilinear`)."""
-    from .kernels import gather_bilinear
-
+    """Bilinear interpolation of ``block`` (see :func:`profiler._sampling_kernels.gather_bilinear`)."""
     return gather_bilinear(block, x, y, x0, y0)
 
 

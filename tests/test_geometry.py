@@ -1,6 +1,7 @@
 import numpy as np
 import pytest
 
+from profiler import _compiled
 from profiler.geometry import clearance, earth_bulge_m, fresnel_radius_m, line_height_m
 
 
@@ -56,9 +57,6 @@ def test_clearance_detects_obstruction():
 def test_compiled_clearance_pass_gives_the_same_bits_as_the_full_arrays(k, monkeypatch):
     """Large batches take one compiled pass (worst point, line of sight, shortfall); small ones use
     whole arrays.  Same numbers to the bit, and the lazily made arrays are those of the small path."""
-    pytest.importorskip("numba")
-    from profiler import kernels
-
     from .test_terrain_diffraction import batch, random_rows
 
     rng = np.random.default_rng(11)
@@ -68,7 +66,7 @@ def test_compiled_clearance_pass_gives_the_same_bits_as_the_full_arrays(k, monke
     freq = rng.choice([2.4, 5.8, 23.0], 400)
     out = {}
     for threshold in (10**12, 1):
-        monkeypatch.setattr(kernels, "NUMBA_MIN_SAMPLES", threshold)
+        monkeypatch.setattr(_compiled, "NUMBA_MIN_SAMPLES", threshold)
         out[threshold] = clearance(dist, surf, inner, length, ha, hb, freq, k, 0.6)
     small, large = out[10**12], out[1]
     for name in ("worst_index", "worst_f1_fraction", "worst_clearance_m", "worst_distance_m", "line_of_sight",

@@ -1,72 +1,89 @@
-"""The numba and numpy kernels give bit-identical results (one engine, two speeds)."""
+"""Every compiled kernel gives the bits of its numpy twin (one engine, two speeds).
+
+The pairs come from the registry (profiler.kernels.TWINS); each brings inputs
+covering its cases.  A kernel added without a twin or examples fails here.
+"""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from profiler import kernels
+from profiler import _compiled, kernels
 from profiler.geodesy import _geodesic_nodes, path_lines
 
-numba = pytest.importorskip("numba")
+
+def _same(ref, got, where: str) -> None:
+    if isinstance(ref, tuple):
+        assert isinstance(got, tuple) and len(ref) == len(got), where
+        for i, (r, g) in enumerate(zip(ref, got)):
+            _same(r, g, f"{where}[{i}]")
+        return
+    ref, got = np.asarray(ref), np.asarray(got)
+    assert ref.shape == got.shape, where
+    # Same bits: equal values, NaN in the same places, and the same sign of zero.
+    assert np.array_equal(ref, got, equal_nan=True), where
+    if ref.dtype.kind == "f":
+        assert np.array_equal(np.signbit(ref), np.signbit(got)), where
 
 
-def _nodes(n_paths=50, seed=3):
-    rng = np.random.default_rng(seed)
-    lat_a = rng.uniform(-60, 60, n_paths)
-    lon_a = rng.uniform(-170, 170, n_paths)
-    lat_b = lat_a + rng.uniform(-0.3, 0.3, n_paths)
-    lon_b = lon_a + rng.uniform(-0.3, 0.3, n_paths)
+def test_the_registry_holds_every_kernel():
+    assert set(kernels.TWINS) == {"hermite", "affine_gather", "clearance_reductions", "diffraction_reductions",
+                                  "summit_dips"}
+
+
+@pytest.mark.parametrize("name", sorted(kernels.TWINS))
+def test_compiled_kernel_equals_its_numpy_twin_bitwise(name):
+    twin = kernels.TWINS[name]
+    cases = twin.examples(np.random.default_rng(3))
+    assert cases
+    for i, args in enumerate(cases):
+        _same(twin.numpy(*args), twin.compiled()(*args), f"{name} case {i}")
+
+
+def test_hermite_twins_agree_on_real_geodesic_nodes():
+    rng = np.random.default_rng(3)
+    lat_a = rng.uniform(-60, 60, 50)
+    lon_a = rng.uniform(-170, 170, 50)
+    lat_b = lat_a + rng.uniform(-0.3, 0.3, 50)
+    lon_b = lon_a + rng.uniform(-0.3, 0.3, 50)
     lines = path_lines(lat_a, lon_a, lat_b, lon_b)
-    return lines, _geodesic_nodes(lat_a, lon_a, lines.azimuth_a_to_b_deg, lines.length_m)
+    offsets, lat, lon, dlat, dlon, step = _geodesic_nodes(lat_a, lon_a, lines.azimuth_a_to_b_deg, lines.length_m)
+    dist = np.linspace(0, 1, 700)[None, :] * lines.length_m[:, None]
+    args = (dist, offsets, step, lat, lon, dlat, dlon)
+    twin = kernels.TWINS["hermite"]
+    _same(twin.numpy(*args), twin.compiled()(*args), "hermite")
 
 
-def test_hermite_numba_equals_numpy_bitwise():
-    lines, (offsets, lat, lon, dlat, dlon, step) = _nodes()
-    frac = np.linspace(0, 1, 700)[None, :]
-    dist = frac * lines.length_m[:, None]
-    ref = kernels.hermite_numpy(dist, offsets, step, lat, lon, dlat, dlon)
-    got = kernels._numba_kernels()["hermite"](dist, offsets, step, lat, lon, dlat, dlon)
-    assert np.array_equal(ref[0], got[0]) and np.array_equal(ref[1], got[1])
+def test_dispatch_rule(monkeypatch):
+    monkeypatch.delenv("TERRAHOP_NO_NUMBA", raising=False)
+    assert not kernels.use_numba(_compiled.NUMBA_MIN_SAMPLES - 1)
+    assert kernels.use_numba(_compiled.NUMBA_MIN_SAMPLES)
+    monkeypatch.setenv("TERRAHOP_NO_NUMBA", "1")
+    assert not kernels.use_numba(10 * _compiled.NUMBA_MIN_SAMPLES)
 
 
-def _numba_gather(cells, x, y, transform, width, height):
-    a, b, c, d, e, f = transform
-    return kernels._numba_kernels()["affine_gather"](
-        cells.tiles, cells.height, cells.width, cells.row0, cells.col0, x, y, a, b, c, d, e, f,
-        width, height, cells.factor, 0.0 if cells.nodata is None else cells.nodata, cells.nodata is not None)
-
-
-def test_affine_gather_numba_equals_numpy_bitwise_with_nodata_and_outside_points():
+def test_stored_cells_round_trip_and_match_the_plain_gather():
     rng = np.random.default_rng(5)
     block = rng.normal(100, 30, (300, 403))
     block[10:20, 30:40] = np.nan
     cells = kernels.StoredCells.from_array(block, 0, 0, 1.0, None)
     assert np.array_equal(cells.to_array(), block, equal_nan=True)
     transform = (0.001, 0.0, 10.0, 0.0, -0.001, 47.0)
-    x = rng.uniform(9.99, 10.41, 50_000)
-    y = rng.uniform(46.69, 47.01, 50_000)
-    ref_v, ref_in = kernels.affine_gather_numpy(cells, x, y, transform, 403, 300)
-    got_v, got_in = _numba_gather(cells, x, y, transform, 403, 300)
-    assert np.array_equal(ref_in, got_in)
-    assert not ref_in.all() and np.isnan(ref_v).any()
-    assert np.array_equal(ref_v, got_v, equal_nan=True)
+    x = rng.uniform(9.99, 10.41, 5_000)
+    y = rng.uniform(46.69, 47.01, 5_000)
+    values, inside = kernels.affine_gather_numpy(cells, x, y, transform, 403, 300)
+    assert not inside.all() and np.isnan(values).any()
     # The plain row-major gather of the link path gives the same numbers.
-    inside = ref_in
     col, row = kernels.pixel_numpy(x[inside], y[inside], transform)
     xx, yy, x0, y0 = kernels.cell_numpy(col, row, 403, 300)
-    assert np.array_equal(kernels.gather_bilinear(block, xx, yy, x0, y0), ref_v[inside], equal_nan=True)
+    assert np.array_equal(kernels.gather_bilinear(block, xx, yy, x0, y0), values[inside], equal_nan=True)
 
 
-def test_dispatch_uses_numpy_for_small_batches(monkeypatch):
-    assert not kernels.use_numba(10)
-    monkeypatch.setenv("TERRAHOP_NO_NUMBA", "1")
-    assert not kernels.use_numba(10 * kernels.NUMBA_MIN_SAMPLES)
-
-
-@pytest.mark.parametrize("compiled", [False, True])
-def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(compiled):
+@pytest.mark.parametrize("threshold", [10**12, 1])
+def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(threshold, monkeypatch):
     """int16 cells with a nodata value and a foot unit: same result as float64 metres with NaN holes."""
+    monkeypatch.setattr(_compiled, "NUMBA_MIN_SAMPLES", threshold)
     rng = np.random.default_rng(9)
     raw = rng.integers(-100, 3000, (200, 250)).astype(np.int16)
     raw[50:60, 70:90] = -32768
@@ -77,31 +94,25 @@ def test_cells_kept_as_stored_give_the_numbers_of_converted_cells(compiled):
     y = rng.uniform(6_000_000 - 200 * 30, 6_000_000, 30_000)
     ref, _ = kernels.affine_gather_numpy(kernels.StoredCells.from_array(metres, 0, 0, 1.0, None),
                                          x, y, transform, 250, 200)
-    stored = kernels.StoredCells.from_array(raw, 0, 0, factor, -32768.0)
-    if compiled:
-        got, _ = _numba_gather(stored, x, y, transform, 250, 200)
-    else:
-        got, _ = kernels.affine_gather_numpy(stored, x, y, transform, 250, 200)
+    got, _ = kernels.affine_gather(kernels.StoredCells.from_array(raw, 0, 0, factor, -32768.0),
+                                   x, y, transform, 250, 200)
     assert np.isnan(ref).any()
     assert np.array_equal(ref, got, equal_nan=True)
 
 
-def test_summit_dips_numba_equals_numpy_bitwise():
-    # Deygout's distinct-summit rule: random rough profiles, main edges anywhere (ends included),
-    # plateaus of equal heights (ties) and padding that repeats the last sample.
-    rng = np.random.default_rng(7)
-    elev = np.round(np.cumsum(rng.normal(0.0, 3.0, (60, 97)), axis=1), 1)
-    elev[5, 20:40] = 50.0
-    elev[6, 80:] = elev[6, 79]
-    ip = rng.integers(0, 97, 60)
-    ip[:3] = (0, 96, 48)
-    ep = elev[np.arange(60), ip] + rng.normal(0.0, 1.0, 60)
-    ref = kernels.summit_dips_numpy(elev, ip, ep)
-    got = kernels._numba_kernels()["summit_dips"](elev, ip.astype(np.int64), ep)
-    np.testing.assert_array_equal(got, ref)
-    # The meaning, by a plain loop on one row: min(z_j, top) minus the lowest point in between.
-    row, i = 10, int(ip[10])
-    for j in range(97):
-        between = elev[row, min(j, i) + 1: max(j, i)]
-        expect = -np.inf if j == i or between.size == 0 else min(elev[row, j], ep[row]) - between.min()
-        assert ref[row, j] == expect
+def test_summit_dips_mean_the_lowest_point_in_between():
+    """min(z_j, top) minus the lowest point strictly between j and the main edge, by a plain loop."""
+    elev, ip, ep = kernels.TWINS["summit_dips"].examples(np.random.default_rng(7))[0]
+    dips = kernels.summit_dips(elev, ip, ep)
+    for row in (0, 1, 2, 5, 10):
+        i = int(ip[row])
+        for j in range(elev.shape[1]):
+            between = elev[row, min(j, i) + 1: max(j, i)]
+            expect = -np.inf if j == i or between.size == 0 else min(elev[row, j], ep[row]) - between.min()
+            assert dips[row, j] == expect
+
+
+def test_warm_up_compiles_every_kernel(monkeypatch):
+    monkeypatch.delenv("TERRAHOP_NO_NUMBA", raising=False)
+    kernels.warm_up((np.float64, np.int16))
+    assert set(_compiled._compiled) >= set(kernels.TWINS)

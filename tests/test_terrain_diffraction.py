@@ -7,7 +7,8 @@ import pytest
 
 from profiler.errors import InputError
 from profiler.losses import terrain_diffraction as td
-from profiler.losses.diffraction import fresnel_kirchhoff_v, knife_edge_loss_db
+from profiler.losses.multiple_edges import deygout_edges, edge_arrays
+from profiler.losses.knife_edge import fresnel_kirchhoff_v, knife_edge_loss_db
 from profiler.losses.smooth_earth import (
     GroundConstants,
     first_term_loss_db,
@@ -272,14 +273,13 @@ def test_an_isolated_thin_edge_on_a_dense_profile_is_j_of_v():
 def test_a_second_summit_counts_only_beyond_a_dip(dip_m, distinct):
     (dist, surf, inner, ha, hb, length), f = _hills(dip_m)
     out = td.diffraction_by_method(dist, surf, inner, ha, hb, length, f, np.inf)
-    b = td._prepare(dist, surf, inner, ha, hb, length, f, np.inf)
-    parts = td._deygout_parts(b)
-    assert int(parts["ip"][0]) == 5000
+    parts = deygout_edges(edge_arrays(td.PathGeometry(dist, surf, inner, ha, hb, length, f, np.inf)))
+    assert int(parts.ip[0]) == 5000
     if distinct:  # a valley 25 m deep between the summits: the second one is an edge of its own
-        assert 7300 < int(parts["ir"][0]) < 7700
+        assert 7300 < int(parts.ir[0]) < 7700
         assert out["deygout"][0] > out["knife-edge"][0] + 1.0
     else:  # a 0.5 m dip (0.6 F1 is about 5 m here): one summit, its flanks are not edges
-        assert not np.isfinite(parts["vr"][0])
+        assert not np.isfinite(parts.vr[0])
         assert out["deygout"][0] == pytest.approx(out["knife-edge"][0], abs=1e-12)
 
 
