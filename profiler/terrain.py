@@ -20,8 +20,9 @@ from typing import Iterable, Sequence
 import numpy as np
 from numpy.typing import ArrayLike
 
-from .errors import DataError, DataFileError, InputError
 from ._sampling_kernels import StoredCells, affine_gather, cell_numpy, gather_bilinear, pixel_numpy
+from .errors import DataError, DataFileError, InputError
+from .geodesy import WGS84
 from .units import FEET_TO_M
 
 __all__ = ["RasterSource", "ElevationModel", "VERTICAL_UNITS", "open_elevation", "raster_read_error",
@@ -480,8 +481,6 @@ class ElevationModel:
 
         The cell's two sides are measured on the WGS84 ellipsoid (pyproj.Geod.inv).
         """
-        from .geodesy import WGS84
-
         lon = np.atleast_1d(np.asarray(lon_deg, dtype=float))
         lat = np.atleast_1d(np.asarray(lat_deg, dtype=float))
         best = np.full(lon.shape, np.inf)

@@ -147,7 +147,9 @@ def _warm(_dtypes: tuple) -> list[tuple]:
 
 # The loop first fills row buffers in branch-free loops (which the compiler turns
 # into SIMD code; IEEE operations give the same bits in every lane), then takes
-# maxima over the interior in scalar loops.
+# maxima over the interior in scalar loops.  One function of about 100 lines on
+# purpose: a single pass over each profile, with the row buffers reused across
+# paths, is what makes it fast; split into calls it would read each row twice.
 @twin("diffraction_reductions", diffraction_reductions_numpy, _examples, _warm, error_model="numpy")
 def _reductions_loop(d1, surface, interior, ha, hb, length, lam, k, radius, smooth):  # pragma: no cover
     n_paths, width = d1.shape
