@@ -47,7 +47,7 @@ def test_occurrence_factor_written_out():
 
 
 def _p530_any_depth(a: float, p0: float) -> float:
-    """ITU-R P.530-17 section 2.3.2, scalar, as printed in references.md (written out separately as a cross-check)."""
+    """ITU-R P.530-17 section 2.3.2, written out as scalars from the Recommendation (a separate transcription, as a cross-check)."""
     at = 25 + 1.2 * math.log10(p0)
     if a >= at:
         return p0 * 10 ** (-a / 10)

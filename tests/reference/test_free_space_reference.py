@@ -11,7 +11,7 @@ from profiler.losses.free_space import free_space_loss_db
 @pytest.mark.parametrize(
     "freq_ghz, distance_km, expected_db",
     [
-        (10.0, 10.0, 132.448),  # ITU-R P.525-4 eq. 4, computed (shared/references.md)
+        (10.0, 10.0, 132.448),  # ITU-R P.525-4 eq. 4, computed
         (2.4, 1.0, 100.052),    # same source, computed
         (0.9, 1.0, 91.533),     # same source, computed
     ],

@@ -36,7 +36,7 @@ from profiler.losses.rain import (
 @pytest.mark.parametrize(
     "freq,kh,ah,kv,av",
     [
-        # ITU-R P.838-3 eqs. 2-3, Tables 1-4; values of /work/shared/references.md [computed]
+        # ITU-R P.838-3 eqs. 2-3, Tables 1-4; values computed from them
         (6.0, 0.0007056, 1.5900, 0.0004878, 1.5728),
         (11.0, 0.017719, 1.2140, 0.017307, 1.1617),
         (18.0, 0.070784, 1.0818, 0.077076, 1.0025),
@@ -53,7 +53,7 @@ def test_p838_3_coefficients(freq, kh, ah, kv, av):
 
 
 def test_p838_3_sg3_validation_example():
-    # ITU-R SG3 validation example for P.838-3 (references.md [read]): 14.25 GHz,
+    # ITU-R SG3 validation example for P.838-3 (read from the ITU-R SG3 validation data): 14.25 GHz,
     # elevation 31.077 deg, tau 0, R 26.48 mm/h -> k 0.03975488, alpha 1.12418043,
     # gamma 1.58130839 dB/km.  gamma differs from k R^alpha with the printed R by
     # 2e-5 relative (the example carries R with more digits), hence rtol 5e-5 there.
@@ -78,7 +78,7 @@ def test_p838_3_against_itur():
 
 
 def test_p530_rain_path_example():
-    # references.md [computed from P.530-17 2.4.1 with C0 as in the SG3 reference code]:
+    # Computed from ITU-R P.530-17 section 2.4.1 with C0 as in the ITU-R SG3 reference code:
     # 20 km, R0.01 42 mm/h, horizontal, 20 GHz: gamma 4.759 dB/km, r 0.4773,
     # A0.01 45.43 dB, A0.1 17.18 dB.
     k, alpha = rain_coefficients(20.0, 0.0, 0.0)
@@ -107,7 +107,7 @@ def test_p530_rain_against_itur_below_10_ghz(d_km, f, r001, tau, p):
 @pytest.mark.parametrize("d_km,f,r001,tau", [(2.0, 38.0, 42.0, 0.0), (12.0, 23.0, 60.0, 90.0), (30.0, 13.0, 30.0, 45.0)])
 def test_p530_rain_a001_against_itur_from_10_ghz(d_km, f, r001, tau):
     # From 10 GHz itur 0.4.0 evaluates eq. 35a as 0.12 + 0.4 (log10(f/10))^0.8 while the
-    # ITU-R SG3 reference code (and we) use 0.12 + 0.4 log10((f/10)^0.8) (references.md).
+    # ITU-R SG3 reference code (and we) use 0.12 + 0.4 log10((f/10)^0.8) (ITU-R P.530-17 eq. 35a).
     # A0.01 = gamma r d does not depend on C0: undo itur's own scaling at p = 0.01 %.
     c0 = 0.12 + 0.4 * np.log10(f / 10) ** 0.8
     c1 = 0.07**c0 * 0.12 ** (1 - c0)
@@ -124,7 +124,7 @@ def test_p530_rain_a001_against_itur_from_10_ghz(d_km, f, r001, tau):
     "freq,total,oxygen,water",
     [
         # ITU-R P.676-12 Annex 1 validation values, 1013.25 hPa, 288.15 K, 7.5 g/m^3
-        # (references.md [read]).
+        # (read from the ITU-R SG3 validation data).
         (10.0, 0.014199, 0.008224, 0.005974),
         (23.0, 0.194289, 0.013847, 0.180442),
         (60.0, 14.7783, 14.6235, 0.15484),

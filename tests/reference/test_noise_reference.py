@@ -13,7 +13,7 @@ def test_kt0_per_hertz():
 
 
 def test_noise_floor_example():
-    # -173.977 + 10 log10(5 MHz) + 9 dB = -97.99 dBm (shared/references.md, computed).
+    # -173.977 + 10 log10(5 MHz) + 9 dB = -97.99 dBm (computed).
     assert noise_floor_dbm(5.0, 9.0) == pytest.approx(-97.99, abs=0.01)
 
 
