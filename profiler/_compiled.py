@@ -63,8 +63,13 @@ class Twin:
         """The numba-compiled loop (compiled, or loaded from the cache, on first call)."""
         fn = _compiled.get(self.name)
         if fn is None:
-            import numba  # heavy: imported on first use only
-
+            try:
+                import numba  # heavy: imported on first use only
+            except ImportError as exc:  # a broken install: numba is a declared dependency
+                raise ImportError(
+                    f"numba is required to compile the {self.name} kernel (pip install numba), "
+                    "or set TERRAHOP_NO_NUMBA=1 to run on numpy alone"
+                ) from exc
             fn = numba.njit(cache=True, nogil=True, **self.njit_options)(self.loop)
             _compiled[self.name] = fn
         return fn

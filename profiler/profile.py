@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from enum import IntEnum
 from functools import cached_property
 
 import numpy as np
@@ -14,7 +15,7 @@ from .terrain import ElevationModel
 
 __all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "finest_cells_m",
            "path_spacings_m", "check_spacing_m", "sample_limit_problem", "spacing_warning",
-           "CLUTTER_KINDS", "MIN_SPACING_M", "MAX_SAMPLES_PER_PATH", "MAX_SAMPLES_PER_BATCH",
+           "CLUTTER_KINDS", "ClutterKind", "MIN_SPACING_M", "MAX_SAMPLES_PER_PATH", "MAX_SAMPLES_PER_BATCH",
            "FALLBACK_SPACING_M"]
 
 #: Finest sample spacing accepted, m: below it the raster, not the sampling, limits
@@ -28,8 +29,22 @@ MAX_SAMPLES_PER_BATCH = 2_000_000
 #: Spacing used where no raster cell size is known along a path, m.
 FALLBACK_SPACING_M = 15.0
 
-#: Codes of ``Profiles.clutter_kind``.
-CLUTTER_KINDS = {0: "none", 1: "building", 2: "trees", 3: "surface model"}
+class ClutterKind(IntEnum):
+    """What the clutter at a sample is: the int8 codes of ``Profiles.clutter_kind``."""
+
+    NONE = 0
+    BUILDING = 1
+    TREES = 2
+    SURFACE_MODEL = 3
+
+    @property
+    def label(self) -> str:
+        """The word used in records: "none", "building", "trees", "surface model"."""
+        return self.name.lower().replace("_", " ")
+
+
+#: Word of each code of ``Profiles.clutter_kind`` (as in the link records).
+CLUTTER_KINDS = {int(k): k.label for k in ClutterKind}
 
 
 @dataclass(frozen=True)
