@@ -55,6 +55,15 @@ def test_a_path_geometry_and_its_arrays_give_the_same_losses():
     assert td.diffraction_loss_db("knife-edge", g)[0] > 6.0
     with pytest.raises(InputError, match="8 arrays"):
         td.diffraction_loss_db("knife-edge", *args[:7])
+    # By name, as the entry points once took them.
+    names = ("distance_m", "surface_m", "interior", "antenna_a_amsl_m", "antenna_b_amsl_m", "path_length_m",
+             "freq_ghz", "k")
+    by_name = td.deygout_loss_db(**dict(zip(names, args)))
+    assert np.array_equal(by_name, td.deygout_loss_db(g))
+    assert np.array_equal(td.diffraction_loss_db("bullington", *args[:6], freq_ghz=5.8, k=4 / 3),
+                          td.diffraction_loss_db("bullington", g))
+    with pytest.raises(InputError, match="unknown path argument 'frequency'"):
+        td.diffraction_loss_db("bullington", *args[:6], frequency=5.8, k=4 / 3)
 
 
 def test_every_method_is_in_the_table_once():

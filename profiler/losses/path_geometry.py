@@ -105,16 +105,32 @@ class PathGeometry:
             object.__setattr__(self, key, value)
 
     @classmethod
-    def of(cls, path: "PathGeometry | tuple") -> "PathGeometry":
-        """``path`` itself if it is a PathGeometry, else one made from the 8 arrays in field order."""
-        if len(path) == 1 and isinstance(path[0], PathGeometry):
+    def of(cls, path: tuple, named: dict | None = None) -> "PathGeometry":
+        """``path[0]`` if it is a PathGeometry, else one made from the 8 arrays in field order.
+
+        ``named`` may give the arrays (or the last of them) by name, as the
+        entry points of :mod:`profiler.losses.terrain_diffraction` once took them
+        (``path_length_m`` for ``length_m``).
+        """
+        named = dict(named or {})
+        if len(path) == 1 and isinstance(path[0], PathGeometry) and not named:
             return path[0]
-        if len(path) != 8:
+        if "path_length_m" in named:
+            named["length_m"] = named.pop("path_length_m")
+        order = ("distance_m", "surface_m", "interior", "antenna_a_amsl_m", "antenna_b_amsl_m", "length_m",
+                 "freq_ghz", "k")
+        unknown = sorted(set(named) - set(order))
+        if unknown:
+            raise InputError(f"unknown path argument {unknown[0]!r}: the path is given by {', '.join(order)}")
+        values = dict(zip(order, path))
+        twice = sorted(set(values) & set(named))
+        if len(path) > len(order) or twice or len(values) + len(named) != len(order):
             raise InputError(
                 f"a path geometry, or its 8 arrays (distance_m, surface_m, interior, antenna_a_amsl_m, "
                 f"antenna_b_amsl_m, path_length_m, freq_ghz, k), expected: got {len(path)} arguments"
+                + (f" and {', '.join(sorted(named))} by name" if named else "")
             )
-        return cls(*path)
+        return cls(**values, **named)
 
     @property
     def n_paths(self) -> int:

@@ -4,9 +4,9 @@ Bullington and the complete (delta-Bullington) method of ITU-R P.526-15.
 Every method reads a :class:`~profiler.losses.path_geometry.PathGeometry`: a
 batch of P profiles of N samples with each path's antenna heights, length,
 frequency and k-factor (see that class for the array convention).  The entry
-points below accept either one PathGeometry or its 8 arrays in field order
-(``distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m,
-path_length_m, freq_ghz, k``).  Results are dB of loss in excess of free
+points below accept either one PathGeometry or its 8 arrays in this order,
+positional or by name (``distance_m, surface_m, interior, antenna_a_amsl_m,
+antenna_b_amsl_m, path_length_m, freq_ghz, k``).  Results are dB of loss in excess of free
 space, shape (P,).
 
 The methods are registered in one table, :data:`METHODS`; they live in
@@ -174,13 +174,13 @@ def _run(methods: tuple[str, ...], g: PathGeometry, polarisation: str,
     return {m: np.concatenate(p) if p else np.zeros(0) for m, p in pieces.items()}, warnings
 
 
-def _one(method: str, path: tuple, polarisation: str, ground: str | GroundConstants) -> np.ndarray:
-    return _run((method,), PathGeometry.of(path), polarisation, ground)[0][method]
+def _one(method: str, path: tuple, named: dict, polarisation: str, ground: str | GroundConstants) -> np.ndarray:
+    return _run((method,), PathGeometry.of(path, named), polarisation, ground)[0][method]
 
 
 def diffraction_loss_db(
     method: str, *path: PathGeometry | ArrayLike,
-    polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    polarisation: str = "horizontal", ground: str | GroundConstants = "land", **named: ArrayLike,
 ) -> np.ndarray:
     """Diffraction loss in dB, shape (P,), by ``method`` (one of :data:`DIFFRACTION_METHODS`).
 
@@ -189,29 +189,32 @@ def diffraction_loss_db(
     delta-bullington (its smooth-earth term, ITU-R P.526-15 section 3.2).
     Raises :class:`~profiler.errors.InputError` for an unknown method or bad arrays.
     """
-    return _one(resolve_method(method), path, polarisation, ground)
+    return _one(resolve_method(method), path, named, polarisation, ground)
 
 
 def diffraction_by_method(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> dict[str, np.ndarray]:
     """Loss of every method in :data:`DIFFRACTION_METHODS` for the same paths, dB, each (P,)."""
-    return _run(DIFFRACTION_METHODS, PathGeometry.of(path), polarisation, ground)[0]
+    return _run(DIFFRACTION_METHODS, PathGeometry.of(path, named), polarisation, ground)[0]
 
 
 def knife_edge_profile_loss_db(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> np.ndarray:
     """Single dominant edge: J(v) at the interior sample of largest v, dB (P,).
 
     The edge height above the straight antenna line includes the earth bulge
     d1 d2 / (2 k a) (ITU-R P.526-15 section 4.1; bulge: handbook form).
     """
-    return _one("knife-edge", path, polarisation, ground)
+    return _one("knife-edge", path, named, polarisation, ground)
 
 
 def deygout_loss_db(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> np.ndarray:
     """Deygout construction with up to three edges, dB (P,).
 
@@ -225,11 +228,12 @@ def deygout_loss_db(
     practice, our rule), so the flanks of one rounded summit are not counted
     as further edges.  Vectorised with masked maxima over column ranges.
     """
-    return _one("deygout", path, polarisation, ground)
+    return _one("deygout", path, named, polarisation, ground)
 
 
 def epstein_peterson_loss_db(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> np.ndarray:
     """Epstein-Peterson sum over the Deygout edges, dB (P,).
 
@@ -238,11 +242,12 @@ def epstein_peterson_loss_db(
     edge's v is measured against the line joining its neighbouring edges or
     antennas and the J(v) add (Epstein and Peterson, Proc. IRE 41, 1953, from memory).
     """
-    return _one("epstein-peterson", path, polarisation, ground)
+    return _one("epstein-peterson", path, named, polarisation, ground)
 
 
 def bullington_loss_db(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> np.ndarray:
     """Bullington equivalent-edge loss with its empirical correction, dB (P,).
 
@@ -250,11 +255,12 @@ def bullington_loss_db(
     sample of largest v or of the crossing of the two horizon rays
     (ITU-R P.526-15 section 4.5.1).
     """
-    return _one("bullington", path, polarisation, ground)
+    return _one("bullington", path, named, polarisation, ground)
 
 
 def delta_bullington_loss_db(
     *path: PathGeometry | ArrayLike, polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    **named: ArrayLike,
 ) -> np.ndarray:
     """Complete (delta-Bullington) method, dB (P,).
 
@@ -262,7 +268,7 @@ def delta_bullington_loss_db(
     smooth spherical-earth loss (section 3.2) over a fitted smooth surface, minus
     Bullington on that smooth surface (ITU-R P.526-15 section 4.5.2).
     """
-    return _one("delta-bullington", path, polarisation, ground)
+    return _one("delta-bullington", path, named, polarisation, ground)
 
 
 def smooth_surface_heights_m(
@@ -286,7 +292,8 @@ def smooth_surface_heights_m(
     return r.hstd, r.hsrd
 
 
-def diffraction_validity_warnings(method: str, *path: PathGeometry | ArrayLike) -> list[tuple[str, ...]]:
+def diffraction_validity_warnings(method: str, *path: PathGeometry | ArrayLike,
+                                  **named: ArrayLike) -> list[tuple[str, ...]]:
     """Validity warnings for ``method``, one tuple of messages per path (empty if none).
 
     Checks: frequency within the method's published range (Bullington and
@@ -295,16 +302,16 @@ def diffraction_validity_warnings(method: str, *path: PathGeometry | ArrayLike) 
     from memory); each antenna above the surface at its own site.
     """
     name = resolve_method(method)
-    return _run((), PathGeometry.of(path), "horizontal", "land", warn=name)[1]
+    return _run((), PathGeometry.of(path, named), "horizontal", "land", warn=name)[1]
 
 
 def diffraction_with_warnings(
     method: str, *path: PathGeometry | ArrayLike,
-    polarisation: str = "horizontal", ground: str | GroundConstants = "land",
+    polarisation: str = "horizontal", ground: str | GroundConstants = "land", **named: ArrayLike,
 ) -> DiffractionResult:
     """Loss by ``method`` together with its validity warnings (see the two functions it joins)."""
     name = resolve_method(method)
-    losses, warnings = _run((name,), PathGeometry.of(path), polarisation, ground, warn=name)
+    losses, warnings = _run((name,), PathGeometry.of(path, named), polarisation, ground, warn=name)
     return DiffractionResult(name, losses[name], tuple(warnings))
 
 
