@@ -32,7 +32,7 @@ from .validation import check_number
 from .link import AtK, LinkBatch, evaluate_profiles
 from .profile import Profiles
 
-__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths"]
+__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths", "mast_raise_m"]
 
 #: Which ends to solve: a (b fixed), b (a fixed) or both (least sum).
 SOLVE_CHOICES = ("a", "b", "both")
@@ -126,6 +126,26 @@ def take_paths(profiles: Profiles, index: np.ndarray) -> Profiles:
 
     return dataclasses.replace(profiles, **{f.name: take(getattr(profiles, f.name))
                                             for f in dataclasses.fields(profiles)})
+
+
+def mast_raise_m(batch: LinkBatch) -> np.ndarray:
+    """Equal rise of both antennas that makes each path meet the clearance criterion, m.
+
+    Raising both antennas by dh raises the line between them by dh at every
+    point, so the rise needed is the largest shortfall max(c F1 - clearance)
+    over the interior samples, at the design and the worst-case k (0 when the
+    criterion is already met).  Geometry only: diffraction is not re-evaluated.
+    """
+    crit = batch.settings.criterion
+    need = np.zeros(len(batch))
+    interior = batch.profiles.interior
+    for at_k, frac in ((batch.design, crit.min_f1_fraction), (batch.worst, crit.min_f1_fraction_worst)):
+        c = at_k.clearance
+        short = c.shortfall_m  # made with the clearance by analyse_links (the same numbers)
+        if short is None:
+            short = np.max(np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf), axis=1)
+        need = np.maximum(need, short)
+    return np.maximum(need, 0.0)
 
 
 def _requirement_m(at: AtK, fraction: float, profiles: Profiles, i: int) -> tuple[np.ndarray, np.ndarray]:

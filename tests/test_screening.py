@@ -75,11 +75,11 @@ def test_hub_mode_pairs_each_hub_once_with_every_other_site(sites25):
 
 def test_chunks_cover_the_sequence_and_skip_resumes_it(sites25):
     full = _pairs(sites25, PairPlan(max_km=9.0))
-    chunks = list(screening._chunks(sites25, PairPlan(max_km=9.0), 13))
+    chunks = list(screening.pairs.pair_chunks(sites25, PairPlan(max_km=9.0), 13))
     assert [c[0] for c in chunks] == list(range(0, len(full), 13))
     flat = [(a, b) for _, aa, bb in chunks for a, b in zip(aa.tolist(), bb.tolist())]
     assert flat == full
-    later = list(screening._chunks(sites25, PairPlan(max_km=9.0), 13, skip_pairs=39))
+    later = list(screening.pairs.pair_chunks(sites25, PairPlan(max_km=9.0), 13, skip_pairs=39))
     assert later[0][0] == 39
     assert [(a, b) for _, aa, bb in later for a, b in zip(aa.tolist(), bb.tolist())] == full[39:]
 
@@ -206,7 +206,7 @@ def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, site
             raise RuntimeError("worker lost")
         return real(model, task)
 
-    monkeypatch.setattr(screening, "evaluate_chunk", failing)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
     with pytest.raises(RuntimeError):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
     staged = screening.staging_folder(tmp_path / "part.gpkg")
@@ -217,7 +217,7 @@ def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, site
         fh.write(np.arange(5, dtype="i8").tobytes())
     with pytest.raises(InputError, match="--resume"):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
-    monkeypatch.setattr(screening, "evaluate_chunk", real)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", real)
     calls["n"] = 0
     summary = _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9, resume=True)
     assert summary.resumed_pairs == 27
@@ -231,7 +231,7 @@ def test_resume_with_other_settings_is_refused(tmp_path, sites25, monkeypatch):
     def boom(model, task):
         raise RuntimeError("stop")
 
-    monkeypatch.setattr(screening, "evaluate_chunk", boom)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", boom)
     with pytest.raises(RuntimeError):
         _run(sites25, tmp_path / "r.gpkg", max_km=7.0, chunk_pairs=9)
     monkeypatch.undo()
