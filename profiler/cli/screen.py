@@ -202,7 +202,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     numbers `terrahop link` gives it; RESULT ranks them by fade margin.
     """
     from ..errors import InputError
-    from ..io.sites import read_pairs, read_sites
+    from ..io.sites import read_name_pairs, read_sites
     from ..screening import PairPlan, resolve_hubs, screen as run_screen
     from ..terrain import ElevationModel
 
@@ -241,7 +241,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     explicit = None
     if pairs_file:
-        a, b, bad_pairs = read_pairs(pairs_file, sites.names)
+        a, b, bad_pairs = read_name_pairs(pairs_file, sites.names)
         bad += bad_pairs
         explicit = (a, b)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit)
