@@ -14,7 +14,7 @@ import hashlib
 import os
 import time
 from collections import deque
-from typing import Any, Callable, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
@@ -31,6 +31,7 @@ from ..profile import spacing_warning
 from ..terrain import ElevationModel
 from .evaluate import make_task
 from .executors import make_executor
+from .frames import frames_of_run, read_site_input
 from .pairs import PairPlan, count_pairs, drop_sites, pair_chunks, pairs_bound
 from .summary import ScreenSummary, verdict_counts, verdicts
 
@@ -60,11 +61,11 @@ def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings
 
 
 def screen(
-    sites: SiteTable,
-    model: ElevationModel,
+    sites: "SiteTable | str | os.PathLike | Any",
+    model: "ElevationModel | str | os.PathLike | Sequence[str | os.PathLike]",
     radio: Radio,
-    settings: Settings,
-    out: str | os.PathLike,
+    settings: Settings = Settings(),
+    out: str | os.PathLike | None = None,
     *,
     plan: PairPlan = PairPlan(),
     bad_rows: Sequence[BadRow] = (),
@@ -77,18 +78,97 @@ def screen(
     min_margin_db: float = 10.0,
     progress: Callable[[int, int], None] | None = None,
     inputs: Sequence[str | os.PathLike] = (),
-) -> ScreenSummary:
-    """Screen the planned pairs of ``sites`` and write ranked results to ``out``.
+    site_options: Mapping[str, Any] | None = None,
+) -> "ScreenSummary | tuple[Any, Any]":
+    """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
-    ``workers`` local processes (None: all cores; 1: in this process), or a
-    Dask ``scheduler`` (address, cluster or Client).  ``progress(done, total)``
-    is called after each committed chunk.  With ``resume`` an interrupted run
-    of the same inputs continues; without it a leftover staging folder is an
-    error unless ``restart`` discards it.  An existing result is replaced
-    only with ``overwrite``.  Outputs that would land on ``inputs`` (the
-    sites and pairs files) or on a raster are refused; a second run on the same output
-    while one is alive is refused (see :mod:`profiler.io.stage`).
+    Parameters
+    ----------
+    sites : SiteTable, path, GeoDataFrame or DataFrame
+        Candidate sites.  A path is read with :func:`profiler.io.sites.read_sites`
+        (CSV or any point layer); a GeoDataFrame of points (any CRS) or a
+        DataFrame with name, latitude and longitude columns (WGS84 degrees)
+        is read the same way.  ``site_options`` passes that reader's keywords
+        (``name_col``, ``agl_col``, ``default_agl_m``...); rows it skips are in
+        the summary's ``bad_rows``, numbered by position in the frame from 0.
+    model : ElevationModel, path or list of paths
+        Elevation rasters; paths are opened for this run and closed after it.
+    radio : Radio
+        Frequency, power, gains and losses of every pair (a ``gain_dbi``
+        column of the sites overrides the gains).
+    settings : Settings
+        The analysis settings of ``terrahop link`` (k-factors, criterion...).
+    out : path, optional
+        Result file (.gpkg, .geojson or .csv; see :mod:`profiler.io.screen_output`).
+        Without it the result is returned as two GeoDataFrames instead.
+    plan : PairPlan
+        All pairs (within ``max_km``), hubs to all, or an explicit list.
+    workers, scheduler
+        Local processes (None: all cores; 1: in this process), or a Dask
+        scheduler (address, cluster or Client).
+    resume, restart, overwrite
+        With ``resume`` an interrupted run of the same inputs continues;
+        without it a leftover staging folder is an error unless ``restart``
+        discards it.  An existing result is replaced only with ``overwrite``.
+    chunk_pairs : int
+        Pairs per chunk (unit of work, progress and resumption).
+    min_margin_db : float
+        Fade margin, dB, a pair needs at the design k to be ``viable``.
+    progress : callable, optional
+        ``progress(done, total)``, called after each committed chunk.
+    inputs : paths
+        Input files an output must not overwrite (the sites and pairs files);
+        the rasters are always protected.  A second run on the same output
+        while one is alive is refused (see :mod:`profiler.io.stage`).
+
+    Returns
+    -------
+    ScreenSummary
+        With ``out``: what the run did (pairs per :class:`Verdict`, files written).
+    (links, sites) : tuple of GeoDataFrame
+        Without ``out``: the links layer (one line per pair, ranked) and the
+        sites layer (counts per verdict), in WGS84, as the .gpkg holds them;
+        the :class:`ScreenSummary` is in ``links.attrs["summary"]``.
+
+    Examples
+    --------
+    >>> from profiler.budget import Radio
+    >>> from profiler.screening import PairPlan, screen
+    >>> links, sites = screen("data/demo/sites.csv", "data/demo/terrain.tif",
+    ...                       Radio(5.8, gain_a_dbi=23, gain_b_dbi=23), plan=PairPlan(max_km=6), workers=1)
+    >>> links[["site_a", "site_b", "verdict"]].shape[1], links.crs.to_epsg()
+    (3, 4326)
+    >>> int(sites["pairs"].sum()) == 2 * len(links) == 2 * links.attrs["summary"].pairs
+    True
     """
+    # Long only by its numpydoc docstring; the body is the few lines below.
+    own_model = not isinstance(model, ElevationModel)
+    if own_model:
+        model = ElevationModel([model] if isinstance(model, (str, os.PathLike)) else list(model))
+    try:
+        if isinstance(sites, (str, os.PathLike)):
+            inputs = [*inputs, sites]  # a result must not land on the sites file
+        if not isinstance(sites, SiteTable):
+            sites, bad_read = read_site_input(sites, site_options)
+            bad_rows = [*bad_rows, *bad_read]
+        run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
+                   restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
+                   progress=progress, inputs=inputs)
+        if out is not None:
+            return _screen_to(sites, model, radio, settings, out, **run)
+        return frames_of_run(lambda path: _screen_to(sites, model, radio, settings, path, **run))
+    finally:
+        if own_model:
+            model.close()
+
+
+def _screen_to(
+    sites: SiteTable, model: ElevationModel, radio: Radio, settings: Settings, out: str | os.PathLike, *,
+    plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
+    restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
+    progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
+) -> ScreenSummary:
+    """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
     radio.validate()
     settings.validate()
@@ -97,19 +177,7 @@ def screen(
     check_output_path(out)
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
     check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
-    bad = list(bad_rows)
-    covered = model.covers(sites.lon_deg, sites.lat_deg)
-    for k in np.flatnonzero(~covered):
-        bad.append(BadRow(sites.source, int(sites.rows[k]), str(sites.names[k]),
-                          f"position ({sites.lat_deg[k]:.6f}, {sites.lon_deg[k]:.6f}) lies outside the elevation rasters"))
-    if covered.sum() < 2:
-        raise InputError(
-            f"{sites.source}: {int(covered.sum())} of {len(sites)} usable sites lie inside the elevation rasters; "
-            "nothing to screen (check the --dem files and the site coordinates)"
-        )
-    if not covered.all():
-        sites, plan = drop_sites(sites, plan, covered)
-    bad.sort(key=lambda r: (r.source != sites.source, r.row))
+    sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
     with RunLock(lock_path(out), str(out)):
         run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0)
         done = run.prepare(resume, restart, overwrite)
@@ -126,6 +194,25 @@ def screen(
             return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
         finally:
             executor.close(cancel=True)
+
+
+def _covered_sites(sites: SiteTable, model: ElevationModel, plan: PairPlan,
+                   bad_rows: Sequence[BadRow]) -> tuple[SiteTable, PairPlan, list[BadRow]]:
+    """The sites inside the rasters (the others become bad rows), the plan renumbered to them."""
+    bad = list(bad_rows)
+    covered = model.covers(sites.lon_deg, sites.lat_deg)
+    for k in np.flatnonzero(~covered):
+        bad.append(BadRow(sites.source, int(sites.rows[k]), str(sites.names[k]),
+                          f"position ({sites.lat_deg[k]:.6f}, {sites.lon_deg[k]:.6f}) lies outside the elevation rasters"))
+    if covered.sum() < 2:
+        raise InputError(
+            f"{sites.source}: {int(covered.sum())} of {len(sites)} usable sites lie inside the elevation rasters; "
+            "nothing to screen (check the --dem files and the site coordinates)"
+        )
+    if not covered.all():
+        sites, plan = drop_sites(sites, plan, covered)
+    bad.sort(key=lambda r: (r.source != sites.source, r.row))
+    return sites, plan, bad
 
 
 def _raster_files(model: ElevationModel) -> list[str]:
