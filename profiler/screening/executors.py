@@ -7,11 +7,13 @@ and ``close(cancel=False)``; chunks come back in the order submitted.
 from __future__ import annotations
 
 import dataclasses
+import multiprocessing as mp
 import os
 import re
 import signal
 import sys
 import threading
+from concurrent.futures import ProcessPoolExecutor
 from typing import Any
 
 import numpy as np
@@ -102,9 +104,6 @@ class _Done:
 
 class _LocalPool:
     def __init__(self, model: ElevationModel, workers: int) -> None:
-        import multiprocessing as mp
-        from concurrent.futures import ProcessPoolExecutor
-
         # Linux: fork, so workers start with the parent's modules already imported (the
         # pool starts before any progress-bar thread); elsewhere a fresh interpreter each.
         methods = mp.get_all_start_methods()
