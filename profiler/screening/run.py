@@ -238,8 +238,8 @@ def _spacing_warnings(model: ElevationModel, sites: SiteTable, settings: Setting
     cells = model.cell_sizes_m(sites.lon_deg, sites.lat_deg)
     if not np.isfinite(cells).any():
         return ()
-    note = spacing_warning("screening", float(settings.spacing_m), float(np.nanmin(cells)))
-    return (note.replace("on the path", "at the sites"),) if note else ()
+    note = spacing_warning("screening", float(settings.spacing_m), float(np.nanmin(cells)), where="at the sites")
+    return (note,) if note else ()
 
 
 
