@@ -14,7 +14,7 @@ import enum
 from dataclasses import dataclass
 
 __all__ = [
-    "Verdict", "VERDICTS", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
+    "Verdict", "VERDICTS", "PairStatus", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
     "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS",
 ]
 
@@ -57,6 +57,13 @@ class Verdict(str, enum.Enum):
 _VERDICT_ORDER = tuple(Verdict)
 #: Verdict of each int8 code.
 VERDICTS = {k: v for k, v in enumerate(_VERDICT_ORDER)}
+
+
+class PairStatus(enum.IntEnum):
+    """The staged ``status`` of a pair: profiled, or not (its problem says why)."""
+
+    PROFILED = 0
+    NOT_PROFILED = 1
 
 
 @dataclass(frozen=True)

@@ -21,7 +21,7 @@ import numpy as np
 
 from ..availability import availability_note
 from ..errors import InputError
-from .columns import FLAG_COLUMNS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, Verdict
+from .columns import FLAG_COLUMNS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairStatus, Verdict
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
 __all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
@@ -35,7 +35,7 @@ WRITE_BATCH = 50_000
 def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:
     """Row order by fade margin, best first; ties and unprofiled pairs by pair index."""
     fade = cols["fade_margin_db"]
-    key = np.where(np.isfinite(fade) & (cols["status"] == 0), -fade, np.inf)
+    key = np.where(np.isfinite(fade) & (cols["status"] == PairStatus.PROFILED), -fade, np.inf)
     return np.lexsort((cols["pair"], key))
 
 
@@ -70,7 +70,7 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
     a, b = cols["a"], cols["b"]
     n = a.size
     data: dict[str, Any] = {}
-    failed = cols["status"] != 0  # error rows: flags are unknown (NULL), not False
+    failed = cols["status"] != PairStatus.PROFILED  # error rows: flags are unknown (NULL), not False
     for name in LINK_COLUMNS:
         if name in cols:
             v = cols[name]

@@ -18,7 +18,7 @@ from ..availability import availability_for_links
 from ..budget import Radio
 from ..geodesy import WGS84
 from ..heights import mast_raise_m
-from ..io.columns import KEPT_IN_ERROR_ROWS, STAGED_COLUMNS
+from ..io.columns import KEPT_IN_ERROR_ROWS, STAGED_COLUMNS, PairStatus
 from ..io.sites import SiteTable
 from ..link import LinkBatch, Settings, SiteColumns, analyse_links
 from .. import profile
@@ -87,9 +87,9 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     todo = np.flatnonzero(~same)
     if todo.size:
         _evaluate_by_length(model, task, todo, out, problems, length_m)
-    out["status"][:] = 0
+    out["status"][:] = PairStatus.PROFILED
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
-    out["status"][bad] = 1
+    out["status"][bad] = PairStatus.NOT_PROFILED
     _add_availability(task, out, length_m)
     _blank_error_rows(out)
     return out, problems
@@ -139,7 +139,7 @@ def _add_availability(task: ChunkTask, out: dict, length_m: np.ndarray) -> None:
     # Availability once per chunk: its per-call cost is worth spreading over many pairs.
     # The inputs are those analyse_links would pass, so the numbers are the same.
     n = task.a.size
-    valid = out["status"] == 0
+    valid = out["status"] == PairStatus.PROFILED
     av = availability_for_links(
         out["fade_margin_db"], np.where(valid, length_m, 1.0), _radio_freq(task.radio, n),
         out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
@@ -155,7 +155,7 @@ def _blank_error_rows(out: dict[str, np.ndarray]) -> None:
 
     Flag columns (u1) cannot hold NaN: the writer shows them empty for error rows.
     """
-    bad = out["status"] != 0
+    bad = out["status"] != PairStatus.PROFILED
     if not bad.any():
         return
     for name, dt in STAGED_COLUMNS.items():

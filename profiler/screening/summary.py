@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..io.columns import Verdict
+from ..io.columns import PairStatus, Verdict
 from ..io.sites import BadRow
 
 __all__ = ["ScreenSummary", "verdicts", "verdict_counts"]
@@ -59,7 +59,7 @@ def verdicts(cols: dict[str, np.ndarray], min_margin_db: float) -> np.ndarray:
         code[fade < 0.0] = Verdict.BUDGET_SHORT.code
     code[cols["meets_criterion"] != 1] = Verdict.CLEARANCE_SHORT.code
     code[cols["line_of_sight"] != 1] = Verdict.OBSTRUCTED.code
-    code[(cols["status"] != 0) | ~np.isfinite(fade)] = Verdict.ERROR.code
+    code[(cols["status"] != PairStatus.PROFILED) | ~np.isfinite(fade)] = Verdict.ERROR.code
     return code
 
 
