@@ -61,8 +61,8 @@ def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings
 
 
 def screen(
-    sites: "SiteTable | str | os.PathLike | Any",
-    model: "ElevationModel | str | os.PathLike | Sequence[str | os.PathLike]",
+    sites: SiteTable | str | os.PathLike | Any,
+    model: ElevationModel | str | os.PathLike | Sequence[str | os.PathLike],
     radio: Radio,
     settings: Settings = Settings(),
     out: str | os.PathLike | None = None,
@@ -79,7 +79,7 @@ def screen(
     progress: Callable[[int, int], None] | None = None,
     inputs: Sequence[str | os.PathLike] = (),
     site_options: Mapping[str, Any] | None = None,
-) -> "ScreenSummary | tuple[Any, Any]":
+) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
     Parameters
