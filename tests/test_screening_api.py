@@ -85,3 +85,14 @@ def test_the_docstring_example_runs():
         assert runner.failures == 0 and runner.tries >= 3
     finally:
         os.chdir(here)
+
+
+def test_frame_errors_name_the_frame_not_a_temporary_file():
+    import geopandas as gpd
+
+    df = pd.read_csv(DEMO_SITES)
+    with pytest.raises(InputError, match="has no CRS"):
+        screen(gpd.GeoDataFrame(df, geometry=gpd.points_from_xy(df.lon, df.lat)), DEMO_DEM, RADIO, workers=1)
+    with pytest.raises(InputError) as caught:
+        screen(df.drop(columns=["lat"]), DEMO_DEM, RADIO, workers=1)
+    assert str(caught.value).startswith("sites frame") and "terrahop-sites-" not in str(caught.value)

@@ -15,7 +15,7 @@ import tempfile
 from pathlib import Path
 from typing import Any, Callable, Mapping
 
-from ..errors import InputError
+from ..errors import InputError, TerrahopError
 from ..io.sites import BadRow, SiteTable, read_sites
 
 __all__ = ["read_site_input", "frames_of_run", "FRAME_SOURCE"]
@@ -36,15 +36,22 @@ def read_site_input(sites: Any, options: Mapping[str, Any] | None = None) -> tup
         raise InputError(
             f"sites must be a SiteTable, a file path, a GeoDataFrame or a DataFrame, not {type(sites).__name__}"
         )
+    is_geo = hasattr(sites, "geometry") and hasattr(sites, "crs")
+    if is_geo and sites.crs is None:
+        raise InputError(f"the {FRAME_SOURCE} (a GeoDataFrame) has no CRS; set one with .set_crs(...)")
     with tempfile.TemporaryDirectory(prefix="terrahop-sites-") as folder:
-        if hasattr(sites, "geometry") and hasattr(sites, "crs"):
+        if is_geo:
             path, first_row = Path(folder) / "sites.gpkg", 1  # layers: feature number from 1
             sites.to_file(path, layer="sites", driver="GPKG")
             options.setdefault("layer", "sites")
         else:
             path, first_row = Path(folder) / "sites.csv", 2  # CSV: header on line 1
             sites.to_csv(path, index=False)
-        table, bad = read_sites(path, **options)
+        try:
+            table, bad = read_sites(path, **options)
+        except TerrahopError as exc:  # name the frame, not the private file it went through
+            text = str(exc).replace(str(path), FRAME_SOURCE).replace(path.name, FRAME_SOURCE)
+            raise type(exc)(text) from None
     table = dataclasses.replace(table, source=FRAME_SOURCE, rows=table.rows - first_row)
     bad = [dataclasses.replace(b, source=FRAME_SOURCE, row=b.row - first_row) for b in bad]
     return table, bad
