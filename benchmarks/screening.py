@@ -140,7 +140,7 @@ class PeakMemory:
 def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, workers: int,
                max_km: float | None = None, method: str | None = None):
     from profiler.budget import Radio
-    from profiler.io.sites import read_pairs, read_sites
+    from profiler.io.sites import read_name_pairs, read_sites
     from profiler.link import Settings
     from profiler.screening import PairPlan, screen
     from profiler.terrain import ElevationModel
@@ -148,7 +148,7 @@ def run_screen(dem: Path, sites_csv: Path, pairs_csv: Path | None, out: Path, wo
     sites, bad = read_sites(sites_csv)
     explicit = None
     if pairs_csv is not None:
-        a, b, bad_pairs = read_pairs(pairs_csv, sites.names)
+        a, b, bad_pairs = read_name_pairs(pairs_csv, sites.names)
         explicit = (a, b)
     with ElevationModel([dem]) as model:
         settings = Settings(spacing_m=SPACING_M)

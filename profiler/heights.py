@@ -32,7 +32,7 @@ from .validation import check_number
 from .link import AtK, LinkBatch, evaluate_profiles
 from .profile import Profiles
 
-__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths"]
+__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths", "mast_raise_m"]
 
 #: Which ends to solve: a (b fixed), b (a fixed) or both (least sum).
 SOLVE_CHOICES = ("a", "b", "both")
@@ -128,6 +128,26 @@ def take_paths(profiles: Profiles, index: np.ndarray) -> Profiles:
                                             for f in dataclasses.fields(profiles)})
 
 
+def mast_raise_m(batch: LinkBatch) -> np.ndarray:
+    """Equal rise of both antennas that makes each path meet the clearance criterion, m.
+
+    Raising both antennas by dh raises the line between them by dh at every
+    point, so the rise needed is the largest shortfall max(c F1 - clearance)
+    over the interior samples, at the design and the worst-case k (0 when the
+    criterion is already met).  Geometry only: diffraction is not re-evaluated.
+    """
+    crit = batch.settings.criterion
+    need = np.zeros(len(batch))
+    interior = batch.profiles.interior
+    for at_k, frac in ((batch.design, crit.min_f1_fraction), (batch.worst, crit.min_f1_fraction_worst)):
+        c = at_k.clearance
+        short = c.shortfall_m  # made with the clearance by analyse_links (the same numbers)
+        if short is None:
+            short = np.max(np.where(interior, frac * c.f1_m - c.clearance_m, -np.inf), axis=1)
+        need = np.maximum(need, short)
+    return np.maximum(need, 0.0)
+
+
 def _requirement_m(at: AtK, fraction: float, profiles: Profiles, i: int) -> tuple[np.ndarray, np.ndarray]:
     """Least line height r at the interior samples of path i, and t = d / length there."""
     c = at.clearance
@@ -161,6 +181,36 @@ def solve_heights(
     batch; 'both' minimises the sum.  Heights are above each site's
     reference: the roof for a site given above its roof, else the ground.
     """
+    _check_request(batch, i, solve, max_mast_a_m, max_mast_b_m, step_m)
+    settings = batch.settings
+    ref_a, base_a = _reference(batch, "a", i)
+    ref_b, base_b = _reference(batch, "b", i)
+    problem = _Problem.of(batch, i, solve, step_m, base_a, base_b, max_mast_a_m, max_mast_b_m)
+    pairs = problem.meeting(problem.candidates())
+    chosen = None
+    if pairs:
+        chosen = min(pairs, key=lambda p: (round(p.sum_m, 9), round(max(p.antenna_a_m, p.antenna_b_m), 9),
+                                           p.antenna_a_m))
+    return HeightSolution(
+        solve=solve,
+        step_m=step_m,
+        reference_a=ref_a,
+        reference_b=ref_b,
+        base_a_m=base_a,
+        base_b_m=base_b,
+        max_mast_a_m=max_mast_a_m,
+        max_mast_b_m=max_mast_b_m,
+        criterion=settings.criterion.describe(settings.k, settings.k_worst),
+        chosen=chosen,
+        pairs=tuple(pairs),
+        one_step_lower=tuple(problem.one_step_lower(chosen)),
+        at_limits=problem.verify(problem.limits[None, :])[0],
+    )
+
+
+def _check_request(batch: LinkBatch, i: int, solve: str, max_mast_a_m: float, max_mast_b_m: float,
+                   step_m: float) -> None:
+    """InputError for a request the solver cannot answer (bad choice, limits, grid size, unprofiled link)."""
     if solve not in SOLVE_CHOICES:
         raise InputError(f"solve must be one of {', '.join(SOLVE_CHOICES)}, got {solve!r}")
     # Ranges shared with every entry point: profiler.validation.LIMITS.
@@ -176,109 +226,122 @@ def solve_heights(
         )
     if batch.problems[i] is not None:
         raise InputError(batch.problems[i])
-    profiles, settings = batch.profiles, batch.settings
-    crit = settings.criterion
-    ref_a, base_a = _reference(batch, "a", i)
-    ref_b, base_b = _reference(batch, "b", i)
-    now_a = float(batch.antenna_a_amsl_m[i]) - base_a
-    now_b = float(batch.antenna_b_amsl_m[i]) - base_b
-    r1, t1 = _requirement_m(batch.design, crit.min_f1_fraction, profiles, i)
-    r2, t2 = _requirement_m(batch.worst, crit.min_f1_fraction_worst, profiles, i)
-    need, t = np.concatenate([r1, r2]), np.concatenate([t1, t2])
 
-    def least_b(a_m: np.ndarray) -> np.ndarray:
+
+@dataclass(frozen=True)
+class _Problem:
+    """The linear constraints of link ``i`` and the grid of heights (above each reference), m."""
+
+    batch: LinkBatch
+    i: int
+    solve: str
+    step_m: float
+    base_a: float
+    base_b: float
+    max_a: float
+    max_b: float
+    now_a: float
+    now_b: float
+    need: np.ndarray
+    t: np.ndarray
+
+    @classmethod
+    def of(cls, batch: LinkBatch, i: int, solve: str, step_m: float, base_a: float, base_b: float,
+           max_a: float, max_b: float) -> "_Problem":
+        crit = batch.settings.criterion
+        r1, t1 = _requirement_m(batch.design, crit.min_f1_fraction, batch.profiles, i)
+        r2, t2 = _requirement_m(batch.worst, crit.min_f1_fraction_worst, batch.profiles, i)
+        return cls(batch, i, solve, step_m, base_a, base_b, max_a, max_b,
+                   now_a=float(batch.antenna_a_amsl_m[i]) - base_a, now_b=float(batch.antenna_b_amsl_m[i]) - base_b,
+                   need=np.concatenate([r1, r2]), t=np.concatenate([t1, t2]))
+
+    @property
+    def limits(self) -> np.ndarray:
+        """The highest heights allowed: the mast limit at a solved end, the current height at a fixed one."""
+        return np.array([self.max_a if self.solve != "b" else self.now_a,
+                         self.max_b if self.solve != "a" else self.now_b])
+
+    def least_b(self, a_m: np.ndarray) -> np.ndarray:
+        """Least grid height of b for each height of a."""
+        need, t = self.need, self.t
         a_m = np.asarray(a_m, dtype=float)
         if a_m.ndim == 1 and a_m.size * max(need.size, 1) > _BLOCK_ELEMENTS:
             rows = max(1, _BLOCK_ELEMENTS // max(need.size, 1))
-            return np.concatenate([least_b(a_m[j:j + rows]) for j in range(0, a_m.size, rows)])
-        a_amsl = base_a + a_m[..., None]
+            return np.concatenate([self.least_b(a_m[j:j + rows]) for j in range(0, a_m.size, rows)])
+        a_amsl = self.base_a + a_m[..., None]
         top = np.max((need - a_amsl * (1.0 - t)) / t, axis=-1, initial=-np.inf)
-        return _up(top - base_b, step_m)
+        return _up(top - self.base_b, self.step_m)
 
-    def least_a(b_m: np.ndarray) -> np.ndarray:
-        b_amsl = base_b + np.asarray(b_m, dtype=float)[..., None]
-        top = np.max((need - b_amsl * t) / (1.0 - t), axis=-1, initial=-np.inf)
-        return _up(top - base_a, step_m)
+    def least_a(self, b_m: np.ndarray) -> np.ndarray:
+        """Least grid height of a for each height of b."""
+        b_amsl = self.base_b + np.asarray(b_m, dtype=float)[..., None]
+        top = np.max((self.need - b_amsl * self.t) / (1.0 - self.t), axis=-1, initial=-np.inf)
+        return _up(top - self.base_a, self.step_m)
 
-    if solve == "both":
-        grid_a = _grid(max_mast_a_m, step_m)
-        b_for_a = least_b(grid_a)
-        ok = b_for_a <= max_mast_b_m + _TOLERANCE_M
-        running = np.minimum.accumulate(np.where(ok, b_for_a, np.inf))
-        frontier = ok & (b_for_a < np.r_[np.inf, running[:-1]])
-        candidates = np.column_stack([grid_a[frontier], b_for_a[frontier]])
-    elif solve == "a":
-        a = float(least_a(np.array(now_b))) + step_m * np.arange(4)
-        a = a[a <= max_mast_a_m + _TOLERANCE_M]
-        candidates = np.column_stack([a, np.full(a.shape, now_b)])
-    else:
-        b = float(least_b(np.array(now_a))) + step_m * np.arange(4)
-        b = b[b <= max_mast_b_m + _TOLERANCE_M]
-        candidates = np.column_stack([np.full(b.shape, now_a), b])
-    limits = np.array([
-        max_mast_a_m if solve != "b" else now_a,
-        max_mast_b_m if solve != "a" else now_b,
-    ])
+    def candidates(self) -> np.ndarray:
+        """Height pairs (a, b) to verify: the frontier of least sums ('both'), or the least height and 3 above."""
+        step_m = self.step_m
+        if self.solve == "both":
+            grid_a = _grid(self.max_a, step_m)
+            b_for_a = self.least_b(grid_a)
+            ok = b_for_a <= self.max_b + _TOLERANCE_M
+            running = np.minimum.accumulate(np.where(ok, b_for_a, np.inf))
+            frontier = ok & (b_for_a < np.r_[np.inf, running[:-1]])
+            return np.column_stack([grid_a[frontier], b_for_a[frontier]])
+        if self.solve == "a":
+            a = float(self.least_a(np.array(self.now_b))) + step_m * np.arange(4)
+            a = a[a <= self.max_a + _TOLERANCE_M]
+            return np.column_stack([a, np.full(a.shape, self.now_b)])
+        b = float(self.least_b(np.array(self.now_a))) + step_m * np.arange(4)
+        b = b[b <= self.max_b + _TOLERANCE_M]
+        return np.column_stack([np.full(b.shape, self.now_a), b])
 
-    def verify(pairs: np.ndarray) -> list[HeightPair]:
+    def verify(self, pairs: np.ndarray) -> list[HeightPair]:
+        """Each height pair evaluated by the engine at the design and the worst-case k."""
         if len(pairs) == 0:
             return []
-        sub = take_paths(profiles, np.full(len(pairs), i))
-        amsl_a = base_a + pairs[:, 0]
-        amsl_b = base_b + pairs[:, 1]
-        radio = batch.radio
+        batch, settings = self.batch, self.batch.settings
+        sub = take_paths(batch.profiles, np.full(len(pairs), self.i))
+        amsl_a = self.base_a + pairs[:, 0]
+        amsl_b = self.base_b + pairs[:, 1]
         with np.errstate(invalid="ignore", divide="ignore"):
-            design = evaluate_profiles(sub, amsl_a, amsl_b, radio, settings.k, settings)
-            worst = evaluate_profiles(sub, amsl_a, amsl_b, radio, settings.k_worst, settings)
+            design = evaluate_profiles(sub, amsl_a, amsl_b, batch.radio, settings.k, settings)
+            worst = evaluate_profiles(sub, amsl_a, amsl_b, batch.radio, settings.k_worst, settings)
         f1 = design.clearance.worst_f1_fraction
         f1w = worst.clearance.worst_f1_fraction
-        meets = crit.met(f1, f1w)
+        meets = settings.criterion.met(f1, f1w)
         return [
             HeightPair(float(p[0]), float(p[1]), float(a), float(b), float(x), float(y), bool(m))
             for p, a, b, x, y, m in zip(pairs, amsl_a, amsl_b, f1, f1w, meets)
         ]
 
-    pairs = verify(candidates)
-    # Rounding can leave a pair a hair short of the criterion: raise the solved end a step.
-    for _ in range(3):
-        short = [j for j, p in enumerate(pairs) if not p.meets_criterion]
-        if not short:
-            break
-        bump = np.array([step_m, 0.0]) if solve == "a" else np.array([0.0, step_m])
-        fixed = candidates.copy()
-        fixed[short] += bump
-        keep = (fixed[:, 0] <= limits[0] + _TOLERANCE_M) & (fixed[:, 1] <= limits[1] + _TOLERANCE_M)
-        candidates = fixed[keep]
-        pairs = verify(candidates)
-    pairs = [p for p in pairs if p.meets_criterion]
-    chosen = None
-    if pairs:
-        chosen = min(pairs, key=lambda p: (round(p.sum_m, 9), round(max(p.antenna_a_m, p.antenna_b_m), 9),
-                                           p.antenna_a_m))
-    lower = []
-    if chosen is not None:
-        tries = []
-        if solve in ("a", "both") and chosen.antenna_a_m >= step_m - _TOLERANCE_M:
+    def meeting(self, candidates: np.ndarray) -> list[HeightPair]:
+        """The candidates that meet the criterion once verified."""
+        pairs = self.verify(candidates)
+        limits = self.limits
+        # Rounding can leave a pair a hair short of the criterion: raise the solved end a step.
+        for _ in range(3):
+            short = [j for j, p in enumerate(pairs) if not p.meets_criterion]
+            if not short:
+                break
+            bump = np.array([self.step_m, 0.0]) if self.solve == "a" else np.array([0.0, self.step_m])
+            fixed = candidates.copy()
+            fixed[short] += bump
+            keep = (fixed[:, 0] <= limits[0] + _TOLERANCE_M) & (fixed[:, 1] <= limits[1] + _TOLERANCE_M)
+            candidates = fixed[keep]
+            pairs = self.verify(candidates)
+        return [p for p in pairs if p.meets_criterion]
+
+    def one_step_lower(self, chosen: HeightPair | None) -> list[HeightPair]:
+        """The chosen pair with one step less at each end solved (the check that it is the least)."""
+        if chosen is None:
+            return []
+        step_m, tries = self.step_m, []
+        if self.solve in ("a", "both") and chosen.antenna_a_m >= step_m - _TOLERANCE_M:
             tries.append([chosen.antenna_a_m - step_m, chosen.antenna_b_m])
-        if solve in ("b", "both") and chosen.antenna_b_m >= step_m - _TOLERANCE_M:
+        if self.solve in ("b", "both") and chosen.antenna_b_m >= step_m - _TOLERANCE_M:
             tries.append([chosen.antenna_a_m, chosen.antenna_b_m - step_m])
-        lower = verify(np.array(tries).reshape(-1, 2))
-    at_limits = verify(limits[None, :])[0]
-    return HeightSolution(
-        solve=solve,
-        step_m=step_m,
-        reference_a=ref_a,
-        reference_b=ref_b,
-        base_a_m=base_a,
-        base_b_m=base_b,
-        max_mast_a_m=max_mast_a_m,
-        max_mast_b_m=max_mast_b_m,
-        criterion=crit.describe(settings.k, settings.k_worst),
-        chosen=chosen,
-        pairs=tuple(pairs),
-        one_step_lower=tuple(lower),
-        at_limits=at_limits,
-    )
+        return self.verify(np.array(tries).reshape(-1, 2))
 
 
 def _reference(batch: LinkBatch, tag: str, i: int) -> tuple[str, float]:

@@ -169,7 +169,7 @@ def _round_up(value: float) -> float:
     return float(np.ceil(value / scale) * scale)
 
 
-def spacing_warning(label: str, spacing_m: float, finest_cell_m: float) -> str | None:
+def spacing_warning(label: str, spacing_m: float, finest_cell_m: float, where: str = "on the path") -> str | None:
     """None, or a warning when a given spacing is coarser than the finest raster cell on the path.
 
     Samples further apart than one cell can step over a ridge or a building
@@ -179,7 +179,7 @@ def spacing_warning(label: str, spacing_m: float, finest_cell_m: float) -> str |
     if not np.isfinite(finest_cell_m) or not spacing_m > finest_cell_m:
         return None
     return (
-        f"{label}: sample spacing {spacing_m:g} m is coarser than the finest raster cell on the path "
+        f"{label}: sample spacing {spacing_m:g} m is coarser than the finest raster cell {where} "
         f"({finest_cell_m:.3g} m); terrain between samples is not seen, so clearance and diffraction "
         f"may read too good; recommended spacing {finest_cell_m / 2.0:.3g} m (half a cell, the default)"
     )

@@ -134,3 +134,17 @@ def test_take_paths_repeats_every_field(ridge):
 def test_bad_settings(ridge, kwargs, message):
     with pytest.raises(InputError, match=message):
         solve_heights(_analyse(ridge, 10.0, 10.0), **kwargs)
+
+
+@pytest.mark.parametrize("agl_m", [5.0, 20.0, 35.0])
+def test_mast_raise_makes_the_path_meet_the_criterion_and_no_less_does(ridge, agl_m):
+    """Both antennas raised by mast_raise_m meet the criterion (re-analysed); 5 cm less does not."""
+    from profiler.heights import mast_raise_m
+
+    raise_m = float(mast_raise_m(_analyse(ridge, agl_m, agl_m))[0])
+    if _meets(ridge, agl_m, agl_m):
+        assert raise_m == 0.0
+        return
+    assert raise_m > 0.05
+    assert _meets(ridge, agl_m + raise_m + 0.001, agl_m + raise_m + 0.001)
+    assert not _meets(ridge, agl_m + raise_m - 0.05, agl_m + raise_m - 0.05)

@@ -112,7 +112,7 @@ def test_screening_warns_once_when_the_given_spacing_is_coarser_than_the_raster(
     from tests._screening_data import DEMO_SITES
 
     sites, _ = read_sites(DEMO_SITES)
-    sites_few = screening._drop_sites(sites, screening.PairPlan(), np.arange(len(sites)) < 3)[0]
+    sites_few = screening.pairs.drop_sites(sites, screening.PairPlan(), np.arange(len(sites)) < 3)[0]
     with ElevationModel([DEMO_DEM]) as model:
         coarse = screening.screen(sites_few, model, RADIO, Settings(spacing_m=60.0), tmp_path / "c.gpkg", workers=1)
         fine = screening.screen(sites_few, model, RADIO, Settings(spacing_m=20.0), tmp_path / "f.gpkg", workers=1)

@@ -75,11 +75,11 @@ def test_hub_mode_pairs_each_hub_once_with_every_other_site(sites25):
 
 def test_chunks_cover_the_sequence_and_skip_resumes_it(sites25):
     full = _pairs(sites25, PairPlan(max_km=9.0))
-    chunks = list(screening._chunks(sites25, PairPlan(max_km=9.0), 13))
+    chunks = list(screening.pairs.pair_chunks(sites25, PairPlan(max_km=9.0), 13))
     assert [c[0] for c in chunks] == list(range(0, len(full), 13))
     flat = [(a, b) for _, aa, bb in chunks for a, b in zip(aa.tolist(), bb.tolist())]
     assert flat == full
-    later = list(screening._chunks(sites25, PairPlan(max_km=9.0), 13, skip_pairs=39))
+    later = list(screening.pairs.pair_chunks(sites25, PairPlan(max_km=9.0), 13, skip_pairs=39))
     assert later[0][0] == 39
     assert [(a, b) for _, aa, bb in later for a, b in zip(aa.tolist(), bb.tolist())] == full[39:]
 
@@ -174,8 +174,31 @@ def test_output_layers_ranked_with_crs_and_columns(tmp_path):
     assert len(obstructed) and not obstructed["line_of_sight"].any()
     short = links[links["verdict"] == "budget-short"]
     assert (short["fade_margin_db"] < 0).all() and short["meets_criterion"].all()
-    # Where the needed equal rise fits under both masts, fixable is set.
-    assert (links["mast_raise_m"] >= 0).all()
+    _check_mast_raise(links, sites)
+
+
+def _check_mast_raise(links, sites):
+    """Both antennas raised by mast_raise_m meet the criterion, 5 cm less does not; fixable follows the masts."""
+    short = links[~links["meets_criterion"].astype(bool)]
+    assert len(short) >= 3
+    index = {str(n): k for k, n in enumerate(sites.names)}
+    with ElevationModel([DEMO_DEM]) as model:
+        for _, row in short.head(6).iterrows():
+            raise_m = float(row["mast_raise_m"])
+            assert raise_m > 0, row["site_a"]
+
+            def meets(extra_m):
+                a, b = index[row["site_a"]], index[row["site_b"]]
+                site_a = Site(row["site_a"], sites.lat_deg[a], sites.lon_deg[a], sites.antenna_agl_m[a] + extra_m)
+                site_b = Site(row["site_b"], sites.lat_deg[b], sites.lon_deg[b], sites.antenna_agl_m[b] + extra_m)
+                return bool(analyse_link(model, site_a, site_b, RADIO, Settings()).meets_criterion[0])
+
+            assert meets(raise_m + 0.001) and not meets(raise_m - 0.05)
+    mast_a = sites.max_mast_m[links["site_a"].map(index).to_numpy()]
+    mast_b = sites.max_mast_m[links["site_b"].map(index).to_numpy()]
+    fits = ((links["agl_a_m"] + links["mast_raise_m"] <= mast_a) & (links["agl_b_m"] + links["mast_raise_m"] <= mast_b))
+    assert (links["fixable_with_masts"].astype(bool) == fits).all()
+    assert fits.any() and not fits.all()
 
 
 @pytest.mark.parametrize("ext", [".csv", ".geojson"])
@@ -206,7 +229,7 @@ def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, site
             raise RuntimeError("worker lost")
         return real(model, task)
 
-    monkeypatch.setattr(screening, "evaluate_chunk", failing)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
     with pytest.raises(RuntimeError):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
     staged = screening.staging_folder(tmp_path / "part.gpkg")
@@ -217,7 +240,7 @@ def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, site
         fh.write(np.arange(5, dtype="i8").tobytes())
     with pytest.raises(InputError, match="--resume"):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
-    monkeypatch.setattr(screening, "evaluate_chunk", real)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", real)
     calls["n"] = 0
     summary = _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9, resume=True)
     assert summary.resumed_pairs == 27
@@ -231,7 +254,7 @@ def test_resume_with_other_settings_is_refused(tmp_path, sites25, monkeypatch):
     def boom(model, task):
         raise RuntimeError("stop")
 
-    monkeypatch.setattr(screening, "evaluate_chunk", boom)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", boom)
     with pytest.raises(RuntimeError):
         _run(sites25, tmp_path / "r.gpkg", max_km=7.0, chunk_pairs=9)
     monkeypatch.undo()
@@ -336,3 +359,20 @@ def test_clear_path_with_gains_left_at_0_dbi_is_budget_short_not_obstructed(tmp_
     assert summary.count("budget-short") == len(short) > 0
     assert short["line_of_sight"].all() and short["meets_criterion"].all()
     assert (short["fade_margin_db"] < 0).all()
+
+
+def test_one_column_table_serves_the_engine_the_stage_and_the_writer(sites25):
+    """The engine's figures, the staged columns and the written ones all come from profiler.io.columns."""
+    from profiler.io import columns
+    from profiler.io.screen_output import LINK_COLUMNS
+    from profiler.screening.evaluate import engine_columns
+    from profiler.link import analyse_links
+
+    with ElevationModel([DEMO_DEM]) as model:
+        sites, _ = read_sites(DEMO_SITES)
+        batch = analyse_links(model, [Site("a", sites.lat_deg[0], sites.lon_deg[0], 10.0)],
+                              [Site("b", sites.lat_deg[1], sites.lon_deg[1], 10.0)], RADIO, Settings())
+    assert set(engine_columns(batch)) == set(columns.ENGINE_COLUMNS)
+    assert screening.COLUMNS is columns.STAGED_COLUMNS and LINK_COLUMNS is columns.LINK_COLUMNS
+    assert set(columns.ENGINE_COLUMNS) | set(columns.AVAILABILITY_COLUMNS) <= set(columns.STAGED_COLUMNS)
+    assert [v.column for v in screening.Verdict] == [c for c in columns.SITE_COLUMNS if c.endswith("_links")]

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from profiler.errors import InputError
-from profiler.io.sites import read_pairs, read_sites
+from profiler.io.sites import read_name_pairs, read_sites
 
 from tests._screening_data import DEMO_SITES
 
@@ -85,7 +85,7 @@ def test_point_layer_in_a_projected_crs(tmp_path):
 def test_pairs_file(tmp_path):
     p = tmp_path / "pairs.csv"
     p.write_text("a,b\nA,B\nB,A\nA,Z\nC,C\nC,A\n")
-    a, b, bad = read_pairs(p, np.array(["A", "B", "C"], dtype=object))
+    a, b, bad = read_name_pairs(p, np.array(["A", "B", "C"], dtype=object))
     assert list(zip(a, b)) == [(0, 1), (2, 0)]
     assert [r.row for r in bad] == [3, 4, 5]
     assert "same pair as row 2" in bad[0].reason
@@ -116,7 +116,7 @@ def test_read_pairs_many_rows_equals_a_row_by_row_reading(tmp_path):
             seen[key] = row
             ref_a.append(index[na])
             ref_b.append(index[nb])
-    a, b, bad = read_pairs(path, names)
+    a, b, bad = read_name_pairs(path, names)
     assert a.tolist() == ref_a and b.tolist() == ref_b
     assert [(r.row, r.reason) for r in bad] == ref_bad
     assert {r.reason.split()[0] for r in bad} == {"site", "pairs", "same"}

@@ -87,11 +87,11 @@ def interrupted(tmp_path, sites, monkeypatch):
             raise RuntimeError("worker lost")
         return real(model, task)
 
-    monkeypatch.setattr(screening, "evaluate_chunk", failing)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
     out = tmp_path / "r.gpkg"
     with pytest.raises(RuntimeError):
         _run(sites, out)
-    monkeypatch.setattr(screening, "evaluate_chunk", real)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", real)
     st = Stage(screening.staging_folder(out), screening.COLUMNS)
     assert json.loads(st.progress_path.read_text())["rows"] == 27
     return out, st

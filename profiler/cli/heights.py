@@ -14,16 +14,16 @@ __all__ = ["heights", "run_heights", "format_heights"]
 def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_m: float | None,
                 step_m: float) -> dict:
     """Solve the heights of a resolved link; the result, then the link re-analysed at the chosen heights."""
+    # The engine is imported when the command runs, so that `terrahop --help` starts fast.
     from ..heights import DEFAULT_MAX_MAST_M, solve_heights
     from ..mounts import Mount
+    from ..vertical import apply_datum_name
 
     max_a = max_mast_a_m if max_mast_a_m is not None else (resolved.max_mast_a_m if resolved.max_mast_a_m is not None else DEFAULT_MAX_MAST_M)
     max_b = max_mast_b_m if max_mast_b_m is not None else (resolved.max_mast_b_m if resolved.max_mast_b_m is not None else DEFAULT_MAX_MAST_M)
     with opened_link_data(resolved) as (model, surroundings):
         batch = analyse_resolved(resolved, model, surroundings)
         solution = solve_heights(batch, solve=solve, max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
-        from ..vertical import apply_datum_name
-
         vertical_crs = getattr(resolved.mount_a, "vertical_crs", None)
         given = batch.record(0)
         if "error" not in given:

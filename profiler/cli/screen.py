@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 import sys
+import time
 
 import click
 
+from ..errors import InputError
+from ..io.columns import Verdict
 from .options import RADIO_FLAGS, analysis_options, climate_options, friendly_errors, terrain_options
 
 __all__ = ["screen", "resolve_radio_settings", "format_screen_summary", "format_skipped"]
@@ -23,8 +26,6 @@ def resolve_radio_settings(opts: dict):
 
 def verdict_lines(min_margin_db: float) -> list:
     """(verdict, what it means) for the summary, in the order the checks are made, best first."""
-    from ..screening import Verdict
-
     return [
         (Verdict.VIABLE, f"meet the clearance criterion with >= {min_margin_db:g} dB fade margin"),
         (Verdict.MARGINAL, f"meet the criterion and close, with less than {min_margin_db:g} dB fade margin"),
@@ -116,12 +117,8 @@ class _Progress:
         if self.task is None:
             self.task = self.bar.add_task("pairs", total=total, completed=done, rate="")
             self.start_done = done
-            import time
-
             self.t0 = time.perf_counter()
             return
-        import time
-
         dt = time.perf_counter() - self.t0
         rate = f"{(done - self.start_done) / dt:,.0f} pairs/s" if dt > 0 else ""
         self.bar.update(self.task, completed=done, rate=rate)
@@ -201,49 +198,24 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     or a --pairs file; both directions count as one link.  Each pair gets the
     numbers `terrahop link` gives it; RESULT ranks them by fade margin.
     """
-    from ..errors import InputError
-    from ..io.sites import read_pairs, read_sites
+    # The engine (numpy, pyproj, rasterio...) is imported when the command runs, so that
+    # `terrahop --help` and the other commands start fast.
     from ..screening import PairPlan, resolve_hubs, screen as run_screen
     from ..terrain import ElevationModel
 
-    if not opts.get("dem"):
-        raise InputError("no elevation raster: give --dem FILE (repeatable)")
-    if opts.get("freq_ghz") is None:
-        raise InputError("frequency missing: give --freq-ghz")
-    if resume and restart:
-        raise InputError("--resume and --restart contradict each other; give one")
-    if pairs_file and hubs:
-        raise InputError("--pairs and --hub choose pairs in different ways; give one")
-    from ..validation import check_number
-
-    if max_km is not None:
-        check_number(max_km, "max_km", "--max-km")
-    check_number(min_margin_db, "min_margin_db", "--min-margin-db")
-    if opts.get("nodata_fill_m") is not None:
-        check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
-    from ..io.screen_output import check_output_path, check_outputs_spare_inputs
-
-    check_output_path(out)
+    _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
     inputs = [sites_file, pairs_file, *opts["dem"]]
-    check_outputs_spare_inputs(out, inputs)
+    _check_out(out, inputs)
     if scheduler is not None:
         from ..screening import check_scheduler_address
 
         scheduler = check_scheduler_address(scheduler)  # before any work: a garbled address is one line
     radio, settings = resolve_radio_settings(opts)
-    sites, bad = read_sites(
-        sites_file, name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
-        gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m, layer=layer,
-    )
-    if len(sites) < 2:
-        why = f"; {len(bad)} row(s) skipped, first: {bad[0].describe()}" if bad else ""
-        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen{why}")
+    sites, bad, explicit = _read_sites_and_pairs(
+        sites_file, pairs_file, dict(name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
+                                     gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
+                                     layer=layer))
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
-    explicit = None
-    if pairs_file:
-        a, b, bad_pairs = read_pairs(pairs_file, sites.names)
-        bad += bad_pairs
-        explicit = (a, b)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit)
     model = ElevationModel(opts["dem"], vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
@@ -263,7 +235,54 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
-    # Reasons are warnings: on stderr, shown even with -q.
+    _report(summary, gain_warning, quiet, sites)
+
+
+def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:
+    """InputError for missing or contradicting flags and numbers out of range, before any file is read."""
+    from ..validation import check_number
+
+    if not opts.get("dem"):
+        raise InputError("no elevation raster: give --dem FILE (repeatable)")
+    if opts.get("freq_ghz") is None:
+        raise InputError("frequency missing: give --freq-ghz")
+    if resume and restart:
+        raise InputError("--resume and --restart contradict each other; give one")
+    if pairs_file and hubs:
+        raise InputError("--pairs and --hub choose pairs in different ways; give one")
+    if max_km is not None:
+        check_number(max_km, "max_km", "--max-km")
+    check_number(min_margin_db, "min_margin_db", "--min-margin-db")
+    if opts.get("nodata_fill_m") is not None:
+        check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
+
+
+def _check_out(out, inputs) -> None:
+    """InputError when RESULT has an unknown extension, no folder, or would land on an input."""
+    from ..io.screen_output import check_output_path, check_outputs_spare_inputs
+
+    check_output_path(out)
+    check_outputs_spare_inputs(out, inputs)
+
+
+def _read_sites_and_pairs(sites_file, pairs_file, columns: dict):
+    """The usable sites, the skipped rows (sites and pairs), and the listed pairs' indices (or None)."""
+    from ..io.sites import read_name_pairs, read_sites
+
+    sites, bad = read_sites(sites_file, **columns)
+    if len(sites) < 2:
+        why = f"; {len(bad)} row(s) skipped, first: {bad[0].describe()}" if bad else ""
+        raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen{why}")
+    explicit = None
+    if pairs_file:
+        a, b, bad_pairs = read_name_pairs(pairs_file, sites.names)
+        bad += bad_pairs
+        explicit = (a, b)
+    return sites, bad, explicit
+
+
+def _report(summary, gain_warning: str | None, quiet: bool, sites) -> None:
+    """Skipped rows and warnings on stderr (even with -q), then the summary on stdout."""
     skipped = format_skipped(summary.bad_rows, summary.problems)
     if skipped:
         click.echo(skipped, err=True)

@@ -34,7 +34,7 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
 def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
                 opts: dict, title: Any) -> list:
     from ..errors import InputError
-    from ..io.pairs import parse_row_spec, read_pairs, select_pairs
+    from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
     from ..validation import same_place_problem
@@ -42,7 +42,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
 
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
         raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
-    table = read_pairs(pairs, layer=layer)
+    table = read_pair_table(pairs, layer=layer)
     numbers = [r.row for r in table.rows]
     chosen = select_pairs(table, rows=parse_row_spec(rows, max(numbers, default=0)) if rows else None, best=best)
     if best is not None and not table.ranked:

@@ -36,7 +36,7 @@ from typing import Any, Sequence
 
 from ..errors import DataFileError, InputError
 
-__all__ = ["PairRow", "PairTable", "read_pairs", "select_pairs", "parse_row_spec", "COLUMN_ALIASES"]
+__all__ = ["PairRow", "PairTable", "read_pair_table", "select_pairs", "parse_row_spec", "COLUMN_ALIASES"]
 
 
 def _site_aliases(tag: str, end: str) -> dict[str, list[str]]:
@@ -162,7 +162,7 @@ def _number(value: Any) -> float | None:
     return float(text)  # ValueError for garbage, reported by the caller
 
 
-def read_pairs(path: str | os.PathLike, *, layer: str | None = None) -> PairTable:
+def read_pair_table(path: str | os.PathLike, *, layer: str | None = None) -> PairTable:
     """Read a CSV or GDAL vector table of site pairs.
 
     Raises InputError when a required column is missing (naming the
@@ -310,3 +310,13 @@ def select_pairs(table: PairTable, *, rows: Sequence[int] | None = None, best: i
             chosen = sorted(chosen, key=lambda r: r.problem is not None)
         chosen = chosen[:best]
     return chosen
+
+
+def __getattr__(name: str):
+    # The old name, kept for code written before the rename (issue 12); warns once per use.
+    if name == "read_pairs":
+        import warnings
+
+        warnings.warn(f"{__name__}.read_pairs is now {read_pair_table.__name__}", DeprecationWarning, stacklevel=2)
+        return read_pair_table
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -12,13 +12,16 @@ result and its ``-sites`` file are replaced together or not at all.
 
 from __future__ import annotations
 
+import importlib.util
 import os
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from ..availability import availability_note
 from ..errors import InputError
+from .columns import FLAG_COLUMNS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairStatus, Verdict
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
 __all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
@@ -28,40 +31,15 @@ OUTPUT_SUFFIXES = {".gpkg": "GPKG", ".geojson": "GeoJSON", ".json": "GeoJSON", "
 #: Rows per write batch.
 WRITE_BATCH = 50_000
 
-#: Columns of the line layer, in order (site extras follow as a_<col>, b_<col>).
-LINK_COLUMNS = (
-    "rank", "site_a", "site_b", "verdict", "fade_margin_db", "distance_km",
-    "azimuth_a_to_b_deg", "azimuth_b_to_a_deg", "lat_a", "lon_a", "lat_b", "lon_b",
-    "ground_a_m", "ground_b_m", "agl_a_m", "agl_b_m", "antenna_a_amsl_m", "antenna_b_amsl_m",
-    "worst_f1_fraction", "worst_clearance_m", "worst_point_km", "line_of_sight",
-    "wc_worst_f1_fraction", "wc_worst_clearance_m", "wc_worst_point_km", "wc_line_of_sight",
-    "meets_criterion", "free_space_db", "diffraction_db", "gases_db", "total_loss_db",
-    "eirp_dbm", "rx_level_dbm", "noise_floor_dbm", "snr_db",
-    "wc_diffraction_db", "wc_total_loss_db", "wc_rx_level_dbm", "wc_snr_db", "wc_fade_margin_db",
-    "availability_pct", "meets_availability", "rain_outage_min_per_year", "multipath_min_per_year",
-    "multipath_worst_month_min", "availability_note",
-    "method", "k", "k_worst", "samples", "spacing_m", "mast_raise_m", "problem",
-)
-#: Columns of the point layer, in order (extra site columns follow): pairs per
-#: verdict (profiler.screening.Verdict, value with "_" for "-", then "_links").
-SITE_COLUMNS = (
-    "name", "lat", "lon", "antenna_agl_m", "pairs", "viable_links", "marginal_links",
-    "budget_short_links", "clearance_short_links", "obstructed_links", "error_links",
-    "best_fade_margin_db", "best_partner",
-)
-_BOOL = {"line_of_sight", "wc_line_of_sight", "meets_criterion"}
-
 
 def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:
     """Row order by fade margin, best first; ties and unprofiled pairs by pair index."""
     fade = cols["fade_margin_db"]
-    key = np.where(np.isfinite(fade) & (cols["status"] == 0), -fade, np.inf)
+    key = np.where(np.isfinite(fade) & (cols["status"] == PairStatus.PROFILED), -fade, np.inf)
     return np.lexsort((cols["pair"], key))
 
 
 def _site_stats(n_sites: int, cols: dict, codes: np.ndarray, names: np.ndarray) -> dict[str, np.ndarray]:
-    from ..screening import Verdict
-
     a, b = cols["a"], cols["b"]
     stats: dict[str, np.ndarray] = {"pairs": np.bincount(a, minlength=n_sites) + np.bincount(b, minlength=n_sites)}
     for verdict in Verdict:
@@ -92,11 +70,11 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
     a, b = cols["a"], cols["b"]
     n = a.size
     data: dict[str, Any] = {}
-    failed = cols["status"] != 0  # error rows: flags are unknown (NULL), not False
+    failed = cols["status"] != PairStatus.PROFILED  # error rows: flags are unknown (NULL), not False
     for name in LINK_COLUMNS:
         if name in cols:
             v = cols[name]
-            data[name] = _flags(v, failed) if name in _BOOL else v
+            data[name] = _flags(v, failed) if name in FLAG_COLUMNS else v
     data.update(
         site_a=sites.names[a], site_b=sites.names[b],
         verdict=np.asarray(verdict_names, dtype=object)[codes],
@@ -139,8 +117,6 @@ def _availability_data(cols: dict, failed: np.ndarray) -> dict[str, Any]:
     if "availability_status" not in cols:
         return {}
     import pandas as pd
-
-    from ..availability import availability_note
 
     meets = cols["meets_availability"]
     verdict = pd.array(np.where((meets == 2) | failed, None, meets == 1), dtype="boolean")
@@ -238,20 +214,19 @@ def check_outputs_spare_inputs(out: str | os.PathLike, inputs) -> None:
 
 _FAST_SQLITE = {"OGR_SQLITE_SYNCHRONOUS": "OFF", "OGR_SQLITE_JOURNAL": "OFF"}
 
-try:  # pyarrow lets GDAL write whole batches at once (about twice as fast)
-    import pyarrow  # noqa: F401
 
-    _HAVE_ARROW = True
-except ImportError:  # pragma: no cover - pyarrow is a dependency; tolerate its absence
-    _HAVE_ARROW = False
+def _have_arrow() -> bool:
+    """True when pyarrow is installed: it lets GDAL write whole batches at once (about twice as fast).
+
+    Looked up, not imported, so importing this module stays light.
+    """
+    return importlib.util.find_spec("pyarrow") is not None
 
 
 def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings) -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
-
-    from ..screening import VERDICTS
 
     verdict_names = [VERDICTS[k].value for k in sorted(VERDICTS)]
     order = rank_order(keys)
@@ -276,7 +251,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
         else:
             gdf = gpd.GeoDataFrame(frame, geometry=_lines(frame), crs="EPSG:4326")
             pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
-                                    use_arrow=_HAVE_ARROW)
+                                    use_arrow=_have_arrow())
         first = False
         del frame
     stats = _site_stats(len(sites), keys, codes, sites.names)
@@ -298,7 +273,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
 
         gdf = gpd.GeoDataFrame(site_frame, geometry=shapely.points(sites.lon_deg, sites.lat_deg), crs="EPSG:4326")
         pyogrio.write_dataframe(gdf, tmp_sites, layer="sites", driver=driver, append=driver == "GPKG",
-                                use_arrow=_HAVE_ARROW)
+                                use_arrow=_have_arrow())
     _fsync(tmp_links)
     crash_point("links written")
     renames = [(tmp_links, out)]

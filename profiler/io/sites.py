@@ -28,7 +28,7 @@ import numpy as np
 from ..errors import DataFileError, InputError
 from ..validation import check_number, check_numbers, normalise_lon, position_problems
 
-__all__ = ["SiteTable", "BadRow", "read_sites", "read_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
+__all__ = ["SiteTable", "BadRow", "read_sites", "read_name_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
 
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
 
@@ -374,7 +374,7 @@ def _optional(frame: Any, column: str | None, what: str, limit: str, decimal_com
     return values
 
 
-def read_pairs(
+def read_name_pairs(
     path: str | os.PathLike, names: np.ndarray, *, a_col: str | None = None, b_col: str | None = None
 ) -> tuple[np.ndarray, np.ndarray, list[BadRow]]:
     """Read a pairs file (CSV, two columns of site names) against the usable sites.
@@ -439,3 +439,13 @@ def read_pairs(
             reason = f"same pair as row {first_row[int(key[k])]}"
         bad.append(BadRow(p.name, k + 2, label, reason))
     return a[keep], b[keep], bad
+
+
+def __getattr__(name: str):
+    # The old name, kept for code written before the rename (issue 12); warns once per use.
+    if name == "read_pairs":
+        import warnings
+
+        warnings.warn(f"{__name__}.read_pairs is now {read_name_pairs.__name__}", DeprecationWarning, stacklevel=2)
+        return read_name_pairs
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -143,12 +143,12 @@ def interrupted(tmp_path, sites, monkeypatch):
             raise KeyboardInterrupt
         return real(model, task)
 
-    monkeypatch.setattr(screening, "evaluate_chunk", stopping)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", stopping)
     out = tmp_path / "r.csv"
     args = _screen(sites, out)
     result = CliRunner().invoke(cli, args)
     assert result.exit_code == 130, result.output
-    monkeypatch.setattr(screening, "evaluate_chunk", real)
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", real)
     staging = tmp_path / "r.csv.partial"
     assert json.loads((staging / "progress.json").read_text())["rows"] == 27
     return args, out, staging

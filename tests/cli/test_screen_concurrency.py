@@ -22,7 +22,7 @@ RADIO = ["--freq-ghz", "5.8", "--gain-a-dbi", "23", "--gain-b-dbi", "23"]
 
 _HELD = """
 import os, sys, time
-import profiler.screening as s
+import profiler.screening.executors as s
 real = s.evaluate_chunk
 def held(model, task):
     if task.first_pair > 0:

@@ -1,0 +1,153 @@
+"""The verdicts of a screened pair and the one table of screening columns.
+
+Both the run (:mod:`profiler.screening`) and the writer
+(:mod:`profiler.io.screen_output`) read this module; neither imports the
+other's names for them.  :data:`LINK_TABLE` lists every column once, in the
+order of the links layer; the staged columns (:data:`STAGED_COLUMNS`), the
+written ones (:data:`LINK_COLUMNS`) and the figures the engine gives
+(:data:`ENGINE_COLUMNS`) are views of it.
+"""
+
+from __future__ import annotations
+
+import enum
+from dataclasses import dataclass
+
+__all__ = [
+    "Verdict", "VERDICTS", "PairStatus", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
+    "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS",
+]
+
+
+class Verdict(str, enum.Enum):
+    """What stands between a screened pair and a working link (definitions in the README).
+
+    Checked in this order, the first that applies wins: ``error`` (could not
+    be profiled), ``obstructed`` (no line of sight at the design k: terrain,
+    buildings or trees cut the ray), ``clearance-short`` (line of sight, but
+    the clearance criterion fails at the design or worst-case k),
+    ``budget-short`` (the path meets the criterion but the fade margin is
+    below 0 dB at the design k: the link does not close), ``marginal``
+    (closes, margin below the minimum asked) and ``viable`` (criterion met,
+    margin at least the minimum).  Path verdicts come before budget ones
+    because a mast fixes the first and gains or power the second.
+    """
+
+    VIABLE = "viable"
+    MARGINAL = "marginal"
+    BUDGET_SHORT = "budget-short"
+    CLEARANCE_SHORT = "clearance-short"
+    OBSTRUCTED = "obstructed"
+    ERROR = "error"
+
+    def __str__(self) -> str:
+        return self.value
+
+    @property
+    def code(self) -> int:
+        """The int8 code a verdict is stored as (its position in the enum)."""
+        return _VERDICT_ORDER.index(self)
+
+    @property
+    def column(self) -> str:
+        """Name of the per-site count column of this verdict (``budget_short_links``...)."""
+        return self.value.replace("-", "_") + "_links"
+
+
+_VERDICT_ORDER = tuple(Verdict)
+#: Verdict of each int8 code.
+VERDICTS = {k: v for k, v in enumerate(_VERDICT_ORDER)}
+
+
+class PairStatus(enum.IntEnum):
+    """The staged ``status`` of a pair: profiled, or not (its problem says why)."""
+
+    PROFILED = 0
+    NOT_PROFILED = 1
+
+
+@dataclass(frozen=True)
+class Column:
+    """One screening column.
+
+    ``source``: ``engine`` (a figure of :func:`profiler.link.analyse_links`
+    for the pair), ``availability`` (computed once per chunk), ``pair``
+    (indices and status), ``write`` (made when writing, from the sites, the
+    settings or the verdict).  ``staged`` is the dtype kept in the staging
+    folder (None: not staged); ``written`` says whether it is a column of the
+    links layer; ``flag`` marks yes/no columns (NULL in error rows);
+    ``kept_on_error`` marks figures that come from the two positions alone
+    and so stay in rows that could not be profiled.
+    """
+
+    name: str
+    source: str
+    staged: str | None = None
+    written: bool = True
+    flag: bool = False
+    kept_on_error: bool = False
+
+
+def _engine(name: str, dtype: str = "f8", **kw) -> Column:
+    return Column(name, "engine", dtype, **kw)
+
+
+def _avail(name: str, dtype: str = "f8", written: bool = True) -> Column:
+    return Column(name, "availability", dtype, written=written)
+
+
+def _write(name: str) -> Column:
+    return Column(name, "write")
+
+
+#: Every column, in the order of the links layer (site extras follow there as a_<col>, b_<col>);
+#: the columns only staged come last.
+LINK_TABLE: tuple[Column, ...] = (
+    _write("rank"), _write("site_a"), _write("site_b"), _write("verdict"),
+    _engine("fade_margin_db"), _engine("distance_km", kept_on_error=True),
+    _engine("azimuth_a_to_b_deg", kept_on_error=True), _engine("azimuth_b_to_a_deg", kept_on_error=True),
+    _write("lat_a"), _write("lon_a"), _write("lat_b"), _write("lon_b"),
+    _engine("ground_a_m"), _engine("ground_b_m"), _write("agl_a_m"), _write("agl_b_m"),
+    _engine("antenna_a_amsl_m"), _engine("antenna_b_amsl_m"),
+    _engine("worst_f1_fraction"), _engine("worst_clearance_m"), _engine("worst_point_km"),
+    _engine("line_of_sight", "u1", flag=True),
+    _engine("wc_worst_f1_fraction"), _engine("wc_worst_clearance_m"), _engine("wc_worst_point_km"),
+    _engine("wc_line_of_sight", "u1", flag=True),
+    _engine("meets_criterion", "u1", flag=True),
+    _engine("free_space_db"), _engine("diffraction_db"), _engine("gases_db"), _engine("total_loss_db"),
+    _engine("eirp_dbm"), _engine("rx_level_dbm"), _engine("noise_floor_dbm"), _engine("snr_db"),
+    _engine("wc_diffraction_db"), _engine("wc_total_loss_db"), _engine("wc_rx_level_dbm"), _engine("wc_snr_db"),
+    _engine("wc_fade_margin_db"),
+    # meets_availability is 2 where there is no verdict (written as empty).
+    _avail("availability_pct"), _avail("meets_availability", "u1"), _avail("rain_outage_min_per_year"),
+    _avail("multipath_min_per_year"), _avail("multipath_worst_month_min"), _write("availability_note"),
+    _write("method"), _write("k"), _write("k_worst"),
+    _engine("samples", "i4", kept_on_error=True), _engine("spacing_m", kept_on_error=True),
+    _engine("mast_raise_m"), _write("problem"),
+    Column("pair", "pair", "i8", written=False, kept_on_error=True),
+    Column("a", "pair", "i8", written=False, kept_on_error=True),
+    Column("b", "pair", "i8", written=False, kept_on_error=True),
+    Column("status", "pair", "i1", written=False, kept_on_error=True),
+    # Codes of profiler.availability.availability_note, turned into the note when writing.
+    _avail("availability_status", "i1", written=False), _avail("rain_range", "i1", written=False),
+    _avail("multipath_status", "i1", written=False),
+)
+
+#: Staged result columns and their dtypes.
+STAGED_COLUMNS: dict[str, str] = {c.name: c.staged for c in LINK_TABLE if c.staged is not None}
+#: Columns of the line layer, in order (site extras follow as a_<col>, b_<col>).
+LINK_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.written)
+#: Figures the link engine gives each pair.
+ENGINE_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "engine")
+#: Figures of the availability estimate (once per chunk).
+AVAILABILITY_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "availability")
+#: Yes/no columns, NULL in the rows that could not be profiled.
+FLAG_COLUMNS = frozenset(c.name for c in LINK_TABLE if c.flag)
+#: Columns an error row keeps: they come from the two positions alone, not from the terrain.
+KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
+
+#: Columns of the point layer, in order (extra site columns follow): pairs per verdict.
+SITE_COLUMNS: tuple[str, ...] = (
+    "name", "lat", "lon", "antenna_agl_m", "pairs", *(v.column for v in Verdict),
+    "best_fade_margin_db", "best_partner",
+)
