@@ -1,0 +1,88 @@
+"""The Python face of the package: ``import profiler`` is light, its names are the real ones, its guide runs."""
+
+from __future__ import annotations
+
+import doctest
+import importlib
+import os
+import subprocess
+import sys
+
+import pytest
+
+import profiler
+
+from .conftest import REPO
+
+HEAVY = ("numpy", "pandas", "geopandas", "rasterio", "pyproj", "shapely", "matplotlib", "scipy", "numba",
+         "dask", "pyarrow", "pyogrio", "click", "rich")
+
+
+def _in_fresh_interpreter(code: str) -> str:
+    env = dict(os.environ)
+    env["PYTHONPATH"] = str(REPO) + os.pathsep + env.get("PYTHONPATH", "")
+    return subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                          cwd=str(REPO), env=env).stdout.strip()
+
+
+def test_import_profiler_imports_no_heavy_package():
+    code = f"import sys, profiler; print(','.join(m for m in {HEAVY!r} if m in sys.modules))"
+    assert _in_fresh_interpreter(code) == ""
+
+
+def test_one_name_brings_only_what_it_needs():
+    # errors.py is pure Python: taking an error class must not load numpy.
+    code = "import sys, profiler; profiler.InputError; print('numpy' in sys.modules)"
+    assert _in_fresh_interpreter(code) == "False"
+
+
+@pytest.mark.parametrize("name", sorted(set(profiler._EXPORTS)))
+def test_each_name_is_the_object_at_its_own_import_path(name):
+    module = importlib.import_module(profiler._EXPORTS[name])
+    assert getattr(profiler, name) is getattr(module, name)
+    assert name in profiler.__all__ and name in dir(profiler)
+
+
+def test_the_main_names_of_the_issue_are_offered():
+    wanted = {"ElevationModel", "Site", "Settings", "LinkBatch", "analyse_link", "analyse_links", "Radio",
+              "ClimateSettings", "availability_for_links", "screen", "Verdict", "solve_heights", "errors"}
+    assert wanted <= set(profiler.__all__)
+    assert profiler.errors is importlib.import_module("profiler.errors")
+
+
+def test_an_unknown_name_is_an_attribute_error():
+    with pytest.raises(AttributeError, match="no attribute 'not_a_name'"):
+        profiler.not_a_name  # noqa: B018
+
+
+def test_helpers_of_the_face_stay_out_of_dir():
+    listed = dir(profiler)
+    assert "importlib" not in listed and "TYPE_CHECKING" not in listed
+    assert "__version__" in listed
+
+
+def test_the_guide_names_every_section_and_runs_its_example():
+    doc = profiler.__doc__ or ""
+    for heading in ("Terrain", "One link, or many", "Availability", "Antenna heights", "Screening many sites",
+                    "Errors", "Demo data"):
+        assert f"\n{heading}\n" in doc
+    result = doctest.testmod(profiler, verbose=False, report=True)
+    assert result.attempted >= 8
+    assert result.failed == 0
+
+
+def test_the_guide_example_agrees_with_the_demo_link_file():
+    """The docstring's link is examples/demo-1-clear.toml: same record figures by the CLI's own path."""
+    from profiler.cli.link import run_link
+    from profiler.cli.options import resolve_link
+
+    record = run_link(resolve_link(str(REPO / "examples" / "demo-1-clear.toml"), {}))
+    assert f"{record['distance_km']:.3f}" == "6.044"
+    assert f"{record['clearance']['worst_f1_fraction']:+.2f}" == "+0.81"
+    assert f"{record['budget']['fade_margin_db']:+.1f}" == "+20.6"
+
+
+def test_demo_path_finds_the_demo_terrain_in_a_clone():
+    path = profiler.demo_path("data", "demo", "terrain.tif")
+    assert path.is_file()
+    assert path == REPO / "data" / "demo" / "terrain.tif"
