@@ -29,16 +29,14 @@ DISTRIBUTION_OF = {"distributed": "dask"}
 
 
 def _build_tools_problem() -> str | None:
-    """Why the offline wheel build cannot run here, or None."""
+    """Why the offline wheel build cannot run here, or None (pyproject's build-system wants setuptools 77)."""
     if importlib.util.find_spec("setuptools") is None:
         return "setuptools is not installed"
     import setuptools
 
-    major, minor = (int(p) for p in setuptools.__version__.split(".")[:2])
-    if (major, minor) < (68, 0):
-        return f"setuptools {setuptools.__version__} is older than 68"
-    if (major, minor) < (70, 1) and importlib.util.find_spec("wheel") is None:
-        return "the wheel package is not installed"
+    major = int(setuptools.__version__.split(".")[0])
+    if major < 77:
+        return f"setuptools {setuptools.__version__} is older than 77"
     return None
 
 
