@@ -72,7 +72,7 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
-__version__ = "0.1.0"
+from ._version import __version__
 
 #: Public name -> module that defines it (its import path, which stays valid).
 _EXPORTS: dict[str, str] = {
