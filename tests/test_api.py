@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import doctest
 import importlib
+import json
 import os
 import subprocess
 import sys
@@ -71,15 +72,21 @@ def test_the_guide_names_every_section_and_runs_its_example():
     assert result.failed == 0
 
 
-def test_the_guide_example_agrees_with_the_demo_link_file():
-    """The docstring's link is examples/demo-1-clear.toml: same record figures by the CLI's own path."""
-    from profiler.cli.link import run_link
-    from profiler.cli.options import resolve_link
-
-    record = run_link(resolve_link(str(REPO / "examples" / "demo-1-clear.toml"), {}))
-    assert f"{record['distance_km']:.3f}" == "6.044"
-    assert f"{record['clearance']['worst_f1_fraction']:+.2f}" == "+0.81"
-    assert f"{record['budget']['fade_margin_db']:+.1f}" == "+20.6"
+def test_the_guide_example_gives_the_recorded_figures_of_the_demo_link_file():
+    """The guide's link is examples/demo-1-clear.toml: the API gives the golden record's figures exactly."""
+    golden = json.loads((REPO / "tests" / "golden" / "links.json").read_text())["demo-1-clear"]
+    with profiler.ElevationModel([profiler.demo_path("data", "demo", "terrain.tif")]) as model:
+        a = profiler.Site("Orrin Water Tank", lat_deg=-30.426077, lon_deg=-20.973967, antenna_agl_m=20)
+        b = profiler.Site("Brackwell Silo", lat_deg=-30.403493, lon_deg=-20.916715, antenna_agl_m=15)
+        radio = profiler.Radio(freq_ghz=5.8, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
+        record = profiler.analyse_link(model, a, b, radio, profiler.Settings(k=4 / 3, k_worst=2 / 3)).record(0)
+    record = json.loads(json.dumps(record))
+    for key in ("distance_km", "azimuth_a_to_b_deg", "clearance", "loss_db", "budget", "worst_case",
+                "meets_criterion", "criterion", "availability"):
+        assert record[key] == golden[key], key
+    for end in ("a", "b"):  # the link file also records how each height was given
+        for key, value in record["sites"][end].items():
+            assert golden["sites"][end][key] == value, (end, key)
 
 
 def test_demo_path_finds_the_demo_terrain_in_a_clone():
