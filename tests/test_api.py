@@ -93,3 +93,19 @@ def test_demo_path_finds_the_demo_terrain_in_a_clone():
     path = profiler.demo_path("data", "demo", "terrain.tif")
     assert path.is_file()
     assert path == REPO / "data" / "demo" / "terrain.tif"
+
+
+def test_the_type_checkers_names_are_the_exported_names():
+    """The ``if TYPE_CHECKING:`` imports of profiler/__init__.py list exactly the lazy names, from the same modules."""
+    import ast
+
+    tree = ast.parse((REPO / "profiler" / "__init__.py").read_text())
+    block = next(node for node in tree.body
+                 if isinstance(node, ast.If) and getattr(node.test, "id", "") == "TYPE_CHECKING")
+    seen = {}
+    for node in block.body:
+        assert isinstance(node, ast.ImportFrom) and node.level == 1
+        for alias in node.names:
+            seen[alias.name] = f"profiler.{node.module}" if node.module else "submodule"
+    assert {name: where for name, where in seen.items() if where != "submodule"} == profiler._EXPORTS
+    assert {name for name, where in seen.items() if where == "submodule"} == set(profiler._SUBMODULES)
