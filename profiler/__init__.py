@@ -75,7 +75,7 @@ from typing import TYPE_CHECKING, Any
 from ._version import __version__
 
 #: Public name -> module that defines it (its import path, which stays valid).
-_EXPORTS: dict[str, str] = {
+_EXPORTS = {
     # terrain
     "ElevationModel": "profiler.terrain",
     "open_elevation": "profiler.terrain",
@@ -141,6 +141,9 @@ def __getattr__(name: str) -> Any:
     return value
 
 
+_MODULE_DUNDERS = ("__doc__", "__file__", "__loader__", "__name__", "__package__", "__path__", "__spec__")
+
+
 def __dir__() -> list[str]:
-    """The public names and the module's dunders (not its helpers)."""
-    return sorted(set(__all__) | {n for n in globals() if n.startswith("__")})
+    """The public names and the module's own dunders (not the helpers of this face)."""
+    return sorted({*__all__, *(n for n in _MODULE_DUNDERS if n in globals())})
