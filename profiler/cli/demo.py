@@ -7,12 +7,14 @@ from pathlib import Path
 
 import click
 
+from ..demo_files import demo_path
 from .options import friendly_errors
 
 __all__ = ["demo", "demo_link_files", "DEMO_DIR"]
 
-#: The repository's examples folder, home of the demo link files.
-DEMO_DIR = Path(__file__).resolve().parents[2] / "examples"
+#: The examples folder, home of the demo link files: inside the installed
+#: package when installed from a wheel, else at the top of the repository.
+DEMO_DIR = demo_path("examples")
 
 
 def demo_link_files() -> list[Path]:
@@ -33,8 +35,8 @@ def demo(as_json: bool) -> None:
     files = demo_link_files()
     if not files:
         raise DataFileError(
-            f"no demo link files in {DEMO_DIR}; run terrahop from a clone of the repository "
-            "(pip install -e .)"
+            f"no demo link files in {DEMO_DIR}; reinstall terrahop from its wheel or run it "
+            "from a clone of the repository"
         )
     records = [run_link(resolve_link(str(f), {})) for f in files]
     if as_json:
