@@ -38,7 +38,7 @@ import numpy as np
 
 from .errors import DataError, DataFileError, InputError
 from .geodesy import WGS84
-from .profile import Profiles
+from .profile import ClutterKind, Profiles
 from .terrain import ElevationModel
 
 __all__ = [
@@ -54,10 +54,11 @@ __all__ = [
     "SurroundedProfiles",
     "apply_surroundings",
     "RoofInfo",
+    "surface_finest_cell_m",
 ]
 
 #: Clutter kind codes, as in ``Profiles.clutter_kind`` (0 means none).
-KIND_CODES = {"building": 1, "trees": 2, "surface model": 3}
+KIND_CODES = {k.label: int(k) for k in ClutterKind if k is not ClutterKind.NONE}
 _KIND_ALIASES = {"building": "building", "buildings": "building", "tree": "trees", "trees": "trees"}
 
 #: Attribute names tried, in order, when the planner names none (case-insensitive).
@@ -502,7 +503,7 @@ class Surroundings:
         terrain = path_spacings_m(model, lat_deg, lon_deg, lat_b_deg, lon_b_deg)
         if self.surface is None:
             return terrain
-        return np.minimum(terrain, _finest_cell_m(self.surface) / 2.0)
+        return np.minimum(terrain, surface_finest_cell_m(self.surface) / 2.0)
 
     def roof_at(self, lon_deg: float, lat_deg: float, ground_m: float) -> RoofInfo | None:
         """The highest building whose footprint holds the point, or None."""
@@ -555,7 +556,7 @@ class Surroundings:
         return apply_surroundings(profiles, model, self)
 
 
-def _finest_cell_m(model: ElevationModel) -> float:
+def surface_finest_cell_m(model: ElevationModel) -> float:
     """Smallest ground cell size of any raster of ``model``, measured at its centre, metres."""
     from pyproj import CRS, Transformer
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import enum
 from dataclasses import dataclass, field
 from functools import cached_property
 
@@ -14,7 +15,7 @@ from .terrain import ElevationModel
 
 __all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "finest_cells_m",
            "path_spacings_m", "check_spacing_m", "sample_limit_problem", "spacing_warning",
-           "CLUTTER_KINDS", "MIN_SPACING_M", "MAX_SAMPLES_PER_PATH", "MAX_SAMPLES_PER_BATCH",
+           "CLUTTER_KINDS", "ClutterKind", "MIN_SPACING_M", "MAX_SAMPLES_PER_PATH", "MAX_SAMPLES_PER_BATCH",
            "FALLBACK_SPACING_M"]
 
 #: Finest sample spacing accepted, m: below it the raster, not the sampling, limits
@@ -28,8 +29,34 @@ MAX_SAMPLES_PER_BATCH = 2_000_000
 #: Spacing used where no raster cell size is known along a path, m.
 FALLBACK_SPACING_M = 15.0
 
-#: Codes of ``Profiles.clutter_kind``.
-CLUTTER_KINDS = {0: "none", 1: "building", 2: "trees", 3: "surface model"}
+class ClutterKind(enum.IntEnum):
+    """What stands on the ground at a sample: the codes of ``Profiles.clutter_kind``.
+
+    ``label`` is the word of the JSON records and crossing lists, ``legend``
+    the word of the sheets' legend.  The one definition of clutter kinds.
+    """
+
+    NONE = 0
+    BUILDING = 1
+    TREES = 2
+    SURFACE_MODEL = 3
+
+    @property
+    def label(self) -> str:
+        return _CLUTTER_LABELS[self]
+
+    @property
+    def legend(self) -> str:
+        return _CLUTTER_LEGENDS[self]
+
+
+_CLUTTER_LABELS = {ClutterKind.NONE: "none", ClutterKind.BUILDING: "building", ClutterKind.TREES: "trees",
+                   ClutterKind.SURFACE_MODEL: "surface model"}
+_CLUTTER_LEGENDS = {ClutterKind.NONE: "none", ClutterKind.BUILDING: "buildings", ClutterKind.TREES: "trees",
+                    ClutterKind.SURFACE_MODEL: "surface model"}
+
+#: Codes of ``Profiles.clutter_kind`` and their record words (kept for callers of the old name).
+CLUTTER_KINDS = {int(k): k.label for k in ClutterKind}
 
 
 @dataclass(frozen=True)
@@ -41,7 +68,7 @@ class Profiles:
     the height of buildings and trees above it (0 where none).  ``problems``
     holds, per path, None or a sentence saying why the path cannot be used.
     ``clutter_kind`` (int8, same shape) says what the clutter is: 0 none,
-    1 building, 2 trees, 3 surface model (see :data:`CLUTTER_KINDS`).
+    1 building, 2 trees, 3 surface model (see :class:`ClutterKind`).
     Samples need not be evenly spaced: obstruction edges are inserted.
     """
 
