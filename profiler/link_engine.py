@@ -16,7 +16,7 @@ import numpy as np
 from . import __version__
 from .availability import ClimateSettings, availability_for_links
 from .budget import Radio, link_budget
-from .errors import DataError, InputError
+from .errors import DataError, InputError, Problem
 from .geometry import clearance
 from .link_batch import LinkBatch
 from .link_types import AtK, Settings, Site, SiteColumns, site_arrays
@@ -302,6 +302,9 @@ def analyse_link(
         mounts_a=None if mount_a is None else [mount_a],
         mounts_b=None if mount_b is None else [mount_b],
     )
-    if batch.problems[0] is not None:
-        raise DataError(batch.problems[0])
+    problem = batch.problems[0]
+    if isinstance(problem, Problem):
+        raise problem.error(DataError)
+    if problem is not None:
+        raise DataError(problem)
     return batch

@@ -16,7 +16,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .errors import DataError, InputError
+from .errors import PARAMETER, DataError, InputError
 from .obstructions import RoofInfo, Surroundings
 from .terrain import ElevationModel
 from .vertical import GeoidConversion, ellipsoidal_to_raster_datum, raster_vertical_crs
@@ -144,7 +144,7 @@ def place_sites(
             if surroundings is None or not any(l.kind == "building" for l in surroundings.layers):
                 raise InputError(
                     f"{where}: an antenna height above the roof needs a building layer "
-                    "(--obstructions FILE); or give the height above ground"
+                    f"({PARAMETER}); or give the height above ground", parameter="surroundings",
                 )
             if roof is None:
                 raise InputError(

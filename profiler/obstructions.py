@@ -36,9 +36,9 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from .errors import DataError, DataFileError, InputError
+from .errors import PARAMETER, DataError, DataFileError, InputError
 from .geodesy import WGS84
-from .profile import ClutterKind, Profiles
+from .profile import ClutterKind, Profiles, nodata_problem
 from .terrain import ElevationModel
 
 __all__ = [
@@ -270,7 +270,8 @@ def read_obstruction_layer(spec: LayerSpec) -> ObstructionLayer:
     if tall.size:
         raise DataError(
             f"{label}: feature {labels[tall[0]]} is {height[tall[0]]:g} m above ground in {hf}; "
-            "if that is the elevation of its top, name the attribute with --top-field instead"
+            f"if that is the elevation of its top, name the attribute with {PARAMETER} instead",
+            parameter="top_field",
         )
     wgs84 = gdf.to_crs("EPSG:4326") if not gdf.crs.equals("EPSG:4326") else gdf
     return ObstructionLayer(
@@ -625,9 +626,9 @@ def _insert_samples(
     for j in bad:
         p = int(path[j])
         if problems and problems[p] is None:
-            problems[p] = (
+            problems[p] = nodata_problem(
                 f"no elevation data (nodata) at {distance_m[j] / 1000:.3f} km from site a "
-                f"({lat_new[j]:.6f}, {lon_new[j]:.6f}); fill the hole or pass --nodata-fill-m HEIGHT"
+                f"({lat_new[j]:.6f}, {lon_new[j]:.6f}); fill the hole or pass {PARAMETER}"
             )
     ground = lay_out(values["ground_m"])
     return replace(

@@ -9,7 +9,7 @@ from functools import cached_property
 import numpy as np
 from numpy.typing import ArrayLike
 
-from .errors import InputError
+from .errors import PARAMETER, InputError, Problem
 from .geodesy import PathLines, path_nodes, sample_paths
 from .terrain import ElevationModel
 
@@ -277,6 +277,12 @@ def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
         )
 
 
+def nodata_problem(template: str) -> Problem:
+    """A path's nodata problem: the record keeps the command-line wording (``--nodata-fill-m HEIGHT``),
+    the error raised from it names the ``nodata_fill_m`` argument."""
+    return Problem(template, "nodata_fill_m", "HEIGHT", template.replace(PARAMETER, "--nodata-fill-m HEIGHT"))
+
+
 def _problem(label, lat, lon, dist, ground, covered, n) -> str | None:
     if not covered[0]:
         return f"{label}: site a ({lat[0]:.6f}, {lon[0]:.6f}) lies outside the elevation rasters"
@@ -292,9 +298,9 @@ def _problem(label, lat, lon, dist, ground, covered, n) -> str | None:
     holes = np.flatnonzero(np.isnan(ground[:n]))
     if holes.size:
         j = holes[0]
-        return (
+        return nodata_problem(
             f"{label}: no elevation data (nodata) at {dist[j] / 1000:.3f} km from site a "
             f"({lat[j]:.6f}, {lon[j]:.6f}), {holes.size} sample(s) affected; "
-            "fill the hole in the raster or pass --nodata-fill-m HEIGHT to use a stated height"
+            f"fill the hole in the raster or pass {PARAMETER} to use a stated height"
         )
     return None

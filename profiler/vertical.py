@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import DataError, InputError
+from .errors import PARAMETER, DataError, InputError
 from .terrain import ElevationModel
 
 __all__ = [
@@ -76,8 +76,9 @@ def raster_vertical_crs(model: ElevationModel, given: str | None = None):
     if given_crs is None:
         raise InputError(
             "the elevation rasters do not state their vertical datum, so an ellipsoidal (GNSS) "
-            "height cannot be converted; say which it is with --vertical-crs (e.g. EPSG:5773 for "
-            "EGM96 heights, EPSG:3855 for EGM2008) or give the antenna height above ground"
+            f"height cannot be converted; say which it is with {PARAMETER} (e.g. EPSG:5773 for "
+            "EGM96 heights, EPSG:3855 for EGM2008) or give the antenna height above ground",
+            parameter="vertical_crs",
         )
     return given_crs
 
@@ -211,14 +212,15 @@ def name_datum(stated: str | None, given: str | None = None) -> DatumName:
     if given:
         given_crs = _vertical_crs(str(given))
         if given_crs is None:
-            raise InputError(f"--vertical-crs {given!r} is not a vertical CRS known to PROJ; "
-                             "give e.g. EPSG:5773 (EGM96 height) or EPSG:3855 (EGM2008 height)")
+            raise InputError(f"{PARAMETER} {given!r} is not a vertical CRS known to PROJ; "
+                             "give e.g. EPSG:5773 (EGM96 height) or EPSG:3855 (EGM2008 height)",
+                             parameter="vertical_crs")
     if names:
         name = names[0] if len(names) == 1 else "; ".join(names)
         if given_crs is not None and given_crs.name not in names:
             raise InputError(
-                f"the elevation rasters state their heights are {name}, but --vertical-crs {given!r} "
-                f"({given_crs.name}) was given; drop the option or fix the raster"
+                f"the elevation rasters state their heights are {name}, but {PARAMETER} {given!r} "
+                f"({given_crs.name}) was given; drop the option or fix the raster", parameter="vertical_crs",
             )
         crs = given_crs if given_crs is not None else _vertical_crs(names[0])
         sea = len(names) == 1 and crs is not None and _is_sea_level(crs)

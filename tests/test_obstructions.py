@@ -240,7 +240,7 @@ def test_invalid_geometry_is_refused_naming_the_feature(tmp_path):
         (["tall"], "is not a number"),
         ([-3.0], "negative height"),
         ([None], "has no height"),
-        ([1500.0], "--top-field"),
+        ([1500.0], "name the attribute with top_field instead"),
     ],
 )
 def test_bad_heights_are_refused(tmp_path, values, message):

@@ -32,7 +32,7 @@ def _link(model, mount):
 def test_unknown_raster_datum_is_refused(tmp_path):
     """Always runs: without a stated datum an ellipsoidal height is refused, never mixed in."""
     with ElevationModel([flat_dtm(tmp_path / "flat.tif")]) as model:
-        with pytest.raises(InputError, match=r"do not state their vertical datum.*--vertical-crs"):
+        with pytest.raises(InputError, match=r"do not state their vertical datum.*with vertical_crs \("):
             _link(model, Mount("ellipsoid", 130.0))
         with pytest.raises(InputError, match="not a vertical CRS"):
             raster_vertical_crs(model, "EPSG:32727")

@@ -46,7 +46,7 @@ def friendly_errors(func: Callable) -> Callable:
         try:
             return func(*args, **kwargs)
         except TerrahopError as exc:
-            raise click.ClickException(str(exc)) from None
+            raise click.ClickException(exc.render(flag_form)) from None
         except BrokenPipeError as exc:
             if stdout_reader_gone():
                 quiet_broken_pipe()
@@ -56,6 +56,16 @@ def friendly_errors(func: Callable) -> Callable:
             raise click.ClickException(f"{exc.__class__.__name__}: {exc}") from None
 
     return wrapper
+
+
+#: Python arguments (an error's ``parameter``) whose command-line form is not ``--`` plus the name with dashes.
+_FLAG_OF = {"surroundings": "--obstructions FILE", "dn1_n_per_km": "--dn1"}
+
+
+def flag_form(parameter: str, value_word: str = "") -> str:
+    """How the command line names a setting in a message: ``--nodata-fill-m HEIGHT``."""
+    flag = _FLAG_OF.get(parameter, "--" + parameter.replace("_", "-"))
+    return f"{flag} {value_word}" if value_word else flag
 
 
 #: Exit code when the reader of our output went away (128 + SIGPIPE, as a shell reports it).

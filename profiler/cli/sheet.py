@@ -9,7 +9,7 @@ from typing import Any
 
 import click
 
-from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
+from .options import analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data
 
 __all__ = ["sheet", "build_sheet_contents"]
 
@@ -62,7 +62,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
                 if gap is not None:
                     raise InputError(f"row {r.row}: {gap}")
             except InputError as exc:
-                problem = str(exc)
+                problem = exc.render(flag_form)
         if problem is not None:
             skipped.append(f"{pairs}: {problem}")
             continue
