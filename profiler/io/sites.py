@@ -206,42 +206,13 @@ def read_sites(
     ``default_agl_m`` (None: :data:`DEFAULT_AGL_M`).  Returns the usable
     sites and the skipped rows; ``SiteTable.columns`` says where each role came from.
     """
-    import pandas as pd
-
     if default_agl_m is not None:
         check_number(default_agl_m, "antenna_agl_m", "--agl-m")
     p = Path(path)
     source = p.name
     if not p.exists():
         raise DataFileError(f"sites file not found: {p}")
-    geometry = None
-    decimal_comma = False
-    if p.suffix.lower() in CSV_SUFFIXES:
-        sep = _sniff_separator(p)
-        decimal_comma = sep != ","
-        _check_field_counts(p, sep)
-        try:
-            frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True,
-                                encoding="utf-8-sig", index_col=False)
-        except (pd.errors.ParserError, UnicodeDecodeError) as exc:
-            hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
-                    if sep == "," and isinstance(exc, pd.errors.ParserError) else "")
-            raise InputError(f"{p}: not a readable CSV table ({str(exc).strip()}){hint}") from None
-        except pd.errors.EmptyDataError:
-            raise InputError(f"{p}: the sites file is empty") from None
-        rows = np.arange(len(frame)) + 2  # header on line 1
-    else:
-        import geopandas as gpd
-
-        try:
-            frame = gpd.read_file(p, layer=layer)
-        except Exception as exc:  # pyogrio raises its own error types
-            raise DataFileError(f"cannot read {p} as a point layer: {exc}") from None
-        if frame.crs is None:
-            raise InputError(f"{p}: the layer has no coordinate reference system; assign one and try again")
-        geometry = frame.geometry.to_crs("EPSG:4326")
-        frame = pd.DataFrame(frame.drop(columns=frame.geometry.name))
-        rows = np.arange(len(frame)) + 1
+    frame, geometry, rows, decimal_comma = _read_frame(p, layer)
     columns = [str(c) for c in frame.columns]
     frame.columns = columns
     name_c = _find(columns, "name", name_col, source, required=True)
@@ -256,30 +227,16 @@ def read_sites(
             if reasons[k] is None:
                 reasons[k] = reason_of(k)
 
+    where = {"name": name_c}
     if geometry is None:
         lat_c = _find(columns, "lat", lat_col, source, required=True)
         lon_c = _find(columns, "lon", lon_col, source, required=True)
-        lat = _numbers(frame[lat_c], decimal_comma)
-        lon = _numbers(frame[lon_c], decimal_comma)
-        raw_lat, raw_lon = frame[lat_c].to_numpy(), frame[lon_c].to_numpy()
-        flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
-        flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
+        lat, lon = _csv_positions(frame, lat_c, lon_c, decimal_comma, flag)
         used = {name_c, lat_c, lon_c}
-    else:
-        kinds = geometry.geom_type.to_numpy()
-        empty = geometry.isna().to_numpy() | geometry.is_empty.to_numpy()
-        flag(empty, lambda k: "has no geometry")
-        flag(~empty & (kinds != "Point"), lambda k: f"geometry is a {kinds[k]}, not a point")
-        point = ~empty & (kinds == "Point")
-        lat = np.full(n, np.nan)
-        lon = np.full(n, np.nan)
-        lat[point] = geometry[point].y.to_numpy()
-        lon[point] = geometry[point].x.to_numpy()
-        used = {name_c}
-    where = {"name": name_c}
-    if geometry is None:
         where.update(lat=lat_c, lon=lon_c)
     else:
+        lat, lon = _layer_positions(geometry, flag)
+        used = {name_c}
         where.update(lat="the point geometry", lon="the point geometry")
     # One position rule for every entry point (profiler.validation); 0..360 folded to -180..180.
     position = position_problems(lat, lon)
@@ -288,19 +245,9 @@ def read_sites(
     lon = normalise_lon(lon)
     names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
     flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
+    agl, where["agl"] = _antenna_heights(frame, agl_c, default_agl_m, decimal_comma, flag)
     if agl_c is not None:
-        agl = _numbers(frame[agl_c], decimal_comma)
-        raw = frame[agl_c].to_numpy()
-        flag(~np.isfinite(agl), lambda k: f"antenna height {raw[k]!r} is not a number")
-        agl_range = check_numbers(np.where(np.isfinite(agl), agl, 0.0), "antenna_agl_m")
-        flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: agl_range[k])
         used.add(agl_c)
-        where["agl"] = agl_c
-    else:
-        height = DEFAULT_AGL_M if default_agl_m is None else float(default_agl_m)
-        agl = np.full(n, height)
-        given = "--agl-m" if default_agl_m is not None else "default"
-        where["agl"] = f"{given} {height:g} m for every site (no height column)"
     gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
     if gain_c is not None:
         used.add(gain_c)
@@ -309,14 +256,7 @@ def read_sites(
     if mast_c is not None:
         used.add(mast_c)
         where["max_mast"] = mast_c
-    first_row: dict[str, int] = {}
-    for k, nm in enumerate(names):
-        if reasons[k] is not None:
-            continue
-        if nm in first_row:
-            reasons[k] = f"duplicate name (first on row {first_row[nm]})"
-        else:
-            first_row[nm] = int(rows[k])
+    _flag_duplicates(names, rows, reasons)
     bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reasons[k])
            for k in range(n) if reasons[k] is not None]
     keep = np.array([r is None for r in reasons], dtype=bool)
@@ -335,6 +275,89 @@ def read_sites(
         columns=where,
     )
     return table, bad
+
+
+def _read_frame(p: Path, layer: str | None) -> tuple[Any, Any, np.ndarray, bool]:
+    """(table of text, WGS84 point geometry or None, file row of each record, decimal commas) of a sites file."""
+    import pandas as pd
+
+    if p.suffix.lower() in CSV_SUFFIXES:
+        sep = _sniff_separator(p)
+        _check_field_counts(p, sep)
+        try:
+            frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True,
+                                encoding="utf-8-sig", index_col=False)
+        except (pd.errors.ParserError, UnicodeDecodeError) as exc:
+            hint = ("; numbers with decimal commas need columns separated by semicolons or tabs"
+                    if sep == "," and isinstance(exc, pd.errors.ParserError) else "")
+            raise InputError(f"{p}: not a readable CSV table ({str(exc).strip()}){hint}") from None
+        except pd.errors.EmptyDataError:
+            raise InputError(f"{p}: the sites file is empty") from None
+        return frame, None, np.arange(len(frame)) + 2, sep != ","  # header on line 1
+    import geopandas as gpd
+
+    try:
+        frame = gpd.read_file(p, layer=layer)
+    except Exception as exc:  # pyogrio raises its own error types
+        raise DataFileError(f"cannot read {p} as a point layer: {exc}") from None
+    if frame.crs is None:
+        raise InputError(f"{p}: the layer has no coordinate reference system; assign one and try again")
+    geometry = frame.geometry.to_crs("EPSG:4326")
+    frame = pd.DataFrame(frame.drop(columns=frame.geometry.name))
+    return frame, geometry, np.arange(len(frame)) + 1, False
+
+
+def _csv_positions(frame: Any, lat_c: str, lon_c: str, decimal_comma: bool, flag) -> tuple[np.ndarray, np.ndarray]:
+    """Latitudes and longitudes (degrees) from two text columns; rows that are not numbers flagged."""
+    lat = _numbers(frame[lat_c], decimal_comma)
+    lon = _numbers(frame[lon_c], decimal_comma)
+    raw_lat, raw_lon = frame[lat_c].to_numpy(), frame[lon_c].to_numpy()
+    flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
+    flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
+    return lat, lon
+
+
+def _layer_positions(geometry: Any, flag) -> tuple[np.ndarray, np.ndarray]:
+    """Latitudes and longitudes (degrees) of point geometries; empty and non-point features flagged."""
+    n = len(geometry)
+    kinds = geometry.geom_type.to_numpy()
+    empty = geometry.isna().to_numpy() | geometry.is_empty.to_numpy()
+    flag(empty, lambda k: "has no geometry")
+    flag(~empty & (kinds != "Point"), lambda k: f"geometry is a {kinds[k]}, not a point")
+    point = ~empty & (kinds == "Point")
+    lat = np.full(n, np.nan)
+    lon = np.full(n, np.nan)
+    lat[point] = geometry[point].y.to_numpy()
+    lon[point] = geometry[point].x.to_numpy()
+    return lat, lon
+
+
+def _antenna_heights(frame: Any, agl_c: str | None, default_agl_m: float | None, decimal_comma: bool,
+                     flag) -> tuple[np.ndarray, str]:
+    """(antenna heights above ground m, where they came from): a column, or one height for every site."""
+    n = len(frame)
+    if agl_c is not None:
+        agl = _numbers(frame[agl_c], decimal_comma)
+        raw = frame[agl_c].to_numpy()
+        flag(~np.isfinite(agl), lambda k: f"antenna height {raw[k]!r} is not a number")
+        agl_range = check_numbers(np.where(np.isfinite(agl), agl, 0.0), "antenna_agl_m")
+        flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: agl_range[k])
+        return agl, agl_c
+    height = DEFAULT_AGL_M if default_agl_m is None else float(default_agl_m)
+    given = "--agl-m" if default_agl_m is not None else "default"
+    return np.full(n, height), f"{given} {height:g} m for every site (no height column)"
+
+
+def _flag_duplicates(names: np.ndarray, rows: np.ndarray, reasons: list[str | None]) -> None:
+    """Mark each later row whose name an earlier usable row already has."""
+    first_row: dict[str, int] = {}
+    for k, nm in enumerate(names):
+        if reasons[k] is not None:
+            continue
+        if nm in first_row:
+            reasons[k] = f"duplicate name (first on row {first_row[nm]})"
+        else:
+            first_row[nm] = int(rows[k])
 
 
 def _check_field_counts(p: Path, sep: str) -> None:
