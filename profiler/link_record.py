@@ -14,7 +14,9 @@ import numpy as np
 from .link_types import AtK, Site
 from .losses.smooth_earth import resolve_ground, resolve_polarisation
 from .losses.terrain_diffraction import resolve_method
-from .profile import FALLBACK_SPACING_M, ClutterKind
+from .clutter import ClutterKind
+from .profile import FALLBACK_SPACING_M
+from .vertical import planner_datum_text, stated_datums
 
 if TYPE_CHECKING:
     from .link_batch import LinkBatch
@@ -97,10 +99,8 @@ def _add_surroundings(batch: "LinkBatch", record: dict, i: int) -> None:
             if placements[i].warning:
                 warnings.append(placements[i].warning)
             geoid = placements[i].geoid
-            if geoid is not None and geoid.vertical_crs not in record["inputs"]["vertical_datum"]:
-                record["inputs"]["vertical_datum"] = (
-                    f"{geoid.vertical_crs} (stated by the planner; the rasters do not say)"
-                )
+            if geoid is not None and geoid.vertical_crs not in stated_datums(record["inputs"]["vertical_datum"]):
+                record["inputs"]["vertical_datum"] = planner_datum_text(geoid.vertical_crs)
     if batch.surroundings is not None:
         p = batch.profiles
         j = int(batch.design.clearance.worst_index[i])

@@ -16,7 +16,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from .errors import PARAMETER, DataError, DataFileError, InputError
-from .profile import ClutterKind
+from .clutter import ClutterKind
 
 __all__ = [
     "KIND_CODES",
@@ -32,7 +32,9 @@ __all__ = [
 
 #: Clutter kind codes, as in ``Profiles.clutter_kind`` (0 means none).
 KIND_CODES = {k.label: int(k) for k in ClutterKind if k is not ClutterKind.NONE}
-_KIND_ALIASES = {"building": "building", "buildings": "building", "tree": "trees", "trees": "trees"}
+_BUILDING, _TREES = ClutterKind.BUILDING.label, ClutterKind.TREES.label
+#: Words accepted for the kind of an obstruction layer -> its clutter kind's label.
+_KIND_ALIASES = {"building": _BUILDING, "buildings": _BUILDING, "tree": _TREES, "trees": _TREES}
 
 #: Attribute names tried, in order, when the planner names none (case-insensitive).
 DEFAULT_HEIGHT_FIELDS = ("height_m", "height")

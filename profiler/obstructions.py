@@ -52,6 +52,7 @@ from .obstruction_layers import (
 )
 from .profile import Profiles, nodata_problem
 from .terrain import ElevationModel
+from .vertical import raster_datum
 
 __all__ = [
     "KIND_CODES",
@@ -271,9 +272,8 @@ class Surroundings:
         """Refuse a surface model whose stated vertical datum differs from the terrain's."""
         if self.surface is None:
             return
-        unknown = "as the raster (not stated in the file)"
-        ground = {s.vertical_datum for s in model.sources} - {unknown}
-        surface = {s.vertical_datum for s in self.surface.sources} - {unknown}
+        ground = {raster_datum(s.vertical_datum) for s in model.sources} - {None}
+        surface = {raster_datum(s.vertical_datum) for s in self.surface.sources} - {None}
         if ground and surface and ground != surface:
             raise DataError(
                 f"the surface model's heights are in {', '.join(sorted(surface))} but the terrain's in "

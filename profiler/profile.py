@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import enum
 from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike
 
+from .clutter import ClutterKind
 from .errors import PARAMETER, InputError, Problem
 from .geodesy import PathLines, path_nodes, sample_paths
 from .terrain import ElevationModel
@@ -28,32 +28,6 @@ MAX_SAMPLES_PER_PATH = 1_000_000
 MAX_SAMPLES_PER_BATCH = 2_000_000
 #: Spacing used where no raster cell size is known along a path, m.
 FALLBACK_SPACING_M = 15.0
-
-class ClutterKind(enum.IntEnum):
-    """What stands on the ground at a sample: the codes of ``Profiles.clutter_kind``.
-
-    ``label`` is the word of the JSON records and crossing lists, ``legend``
-    the word of the sheets' legend.  The one definition of clutter kinds.
-    """
-
-    NONE = 0
-    BUILDING = 1
-    TREES = 2
-    SURFACE_MODEL = 3
-
-    @property
-    def label(self) -> str:
-        return _CLUTTER_LABELS[self]
-
-    @property
-    def legend(self) -> str:
-        return _CLUTTER_LEGENDS[self]
-
-
-_CLUTTER_LABELS = {ClutterKind.NONE: "none", ClutterKind.BUILDING: "building", ClutterKind.TREES: "trees",
-                   ClutterKind.SURFACE_MODEL: "surface model"}
-_CLUTTER_LEGENDS = {ClutterKind.NONE: "none", ClutterKind.BUILDING: "buildings", ClutterKind.TREES: "trees",
-                    ClutterKind.SURFACE_MODEL: "surface model"}
 
 #: Codes of ``Profiles.clutter_kind`` and their record words (kept for callers of the old name).
 CLUTTER_KINDS = {int(k): k.label for k in ClutterKind}

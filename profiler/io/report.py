@@ -137,7 +137,7 @@ def format_link_summary(r: dict) -> str:
         lines += _mount_lines(s)
     lines += [
         f"heights            metres {datum.phrase()}"
-        + ("" if datum.source != "unknown" else "; name it with --vertical-crs"),
+        + ("" if datum.known else "; name it with --vertical-crs"),
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
         f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
         f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from .. import __version__
-from ..profile import ClutterKind
+from ..clutter import ClutterKind
 
 __all__ = [
     "CLUTTER_KINDS",

@@ -25,7 +25,8 @@ from .notes import (
     span_text as _span_text,
 )
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
-from .table import Row, above_datum_label, distance_text, format_k, parameter_rows, vertical_datum_text
+from ..vertical import datum_of_record
+from .table import Row, above_datum_label, distance_text, format_k, parameter_rows
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
            "sheet_paths"]
@@ -151,9 +152,8 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
 
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
-    datum = vertical_datum_text(r)
-    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else \
-        datum.split(" (stated by the planner")[0]
+    datum = datum_of_record(r)
+    short = datum.name if datum.known else "datum of the raster, not stated in the file"
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
     from .table import height_text
 
