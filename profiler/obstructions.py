@@ -50,7 +50,7 @@ from .obstruction_layers import (
     parse_layer_spec,
     read_obstruction_layer,
 )
-from .profile import Profiles, nodata_problem
+from .profile import Profiles, nodata_problem, path_spacings_m
 from .terrain import ElevationModel
 from .vertical import raster_datum
 
@@ -283,8 +283,6 @@ class Surroundings:
     def default_spacing_m(self, model: ElevationModel, lon_deg: np.ndarray, lat_deg: np.ndarray,
                           lat_b_deg: np.ndarray, lon_b_deg: np.ndarray) -> np.ndarray:
         """Half the finest terrain cell on each path a-b, or of the surface model if finer, metres."""
-        from .profile import path_spacings_m
-
         terrain = path_spacings_m(model, lat_deg, lon_deg, lat_b_deg, lon_b_deg)
         if self.surface is None:
             return terrain

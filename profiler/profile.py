@@ -10,7 +10,7 @@ from numpy.typing import ArrayLike
 
 from .clutter import ClutterKind
 from .errors import PARAMETER, InputError, Problem
-from .geodesy import PathLines, path_nodes, sample_paths
+from .geodesy import PathLines, path_lines, path_nodes, sample_paths
 from .terrain import ElevationModel
 
 __all__ = ["Profiles", "build_profiles", "default_spacing_m", "default_spacings_m", "finest_cells_m",
@@ -232,8 +232,6 @@ def build_profiles(
 
 def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
     """InputError if a path or the whole batch would hold more samples than allowed."""
-    from .geodesy import path_lines
-
     length = path_lines(lat_a, lon_a, lat_b, lon_b).length_m
     with np.errstate(over="ignore", invalid="ignore"):
         counts = np.ceil(length / spacing) + 1  # float: no overflow before the check

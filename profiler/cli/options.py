@@ -14,7 +14,7 @@ from typing import Any, Callable
 
 import click
 
-from ..errors import TerrahopError
+from ..errors import InputError, TerrahopError
 
 __all__ = [
     "friendly_errors",
@@ -118,7 +118,7 @@ def parse_lat_lon(text: str, what: str) -> tuple[float, float]:
         lat, lon = float(parts[0]), float(parts[1])
     except ValueError:
         raise click.BadParameter(f"{what} must be LAT,LON in decimal degrees, got {text!r}") from None
-    from ..validation import normalise_positions, position_problem
+    from ..validation import normalise_positions, position_problem  # lazy: numpy
 
     problem = position_problem(lat, lon)
     if problem is not None:
@@ -142,8 +142,7 @@ DIFFRACTION_METHOD_NAMES = ("delta-bullington", "bullington", "deygout", "epstei
 def _diffraction_callback(ctx: click.Context, param: click.Parameter, value: str | None):
     if value is None:
         return None
-    from ..errors import InputError
-    from ..losses.terrain_diffraction import resolve_method
+    from ..losses.terrain_diffraction import resolve_method  # lazy: numpy, numba
 
     try:
         return resolve_method(value)

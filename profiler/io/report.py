@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from ..vertical import datum_of_record
+
 __all__ = ["format_link_summary"]
 
 
@@ -118,8 +120,6 @@ def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
         return f"{r['name']}: cannot analyse: {r['error']}"
-    from ..vertical import datum_of_record
-
     a, b = r["sites"]["a"], r["sites"]["b"]
     radio = r["inputs"]["radio"]
     datum = datum_of_record(r)

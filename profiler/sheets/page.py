@@ -14,6 +14,8 @@ from pathlib import Path
 from typing import Any, Sequence
 
 from .content import SheetContent
+from .drawing import curvature_note, draw_profile, vertical_exaggeration
+from .minimap import draw_minimap
 from .notes import (
     CONT_COLUMNS as _CONT_COLUMNS,
     CONT_ROWS as _CONT_ROWS,
@@ -26,7 +28,7 @@ from .notes import (
 )
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
 from ..vertical import datum_of_record
-from .table import Row, above_datum_label, distance_text, format_k, parameter_rows
+from .table import Row, above_datum_label, distance_text, format_k, height_text, parameter_rows
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
            "sheet_paths"]
@@ -148,15 +150,11 @@ def _hline(fig: Any, lay: _Layout, x0: float, x1: float, y: float, lw: float = 0
 
 
 def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
-    from .drawing import curvature_note, draw_profile, vertical_exaggeration
-
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
     datum = datum_of_record(r)
     short = datum.name if datum.known else "datum of the raster, not stated in the file"
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
-    from .table import height_text
-
     renderer = fig.canvas.get_renderer()
     for tag, x_mm, ha in (("a", 22, "left"), ("b", 194, "right")):
         s = r["sites"][tag]
@@ -228,8 +226,6 @@ def _table(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
 
 
 def _minimap(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
-    from .minimap import draw_minimap
-
     x0, y0, w, h = 8.0, 15.0, 68.0, 60.0
     fig.text(*lay.xy(x0, y0 + h + 1.2), "Location", fontsize=lay.fs(8.5), fontweight="bold",
              color=COLOURS["ink"], va="bottom")
