@@ -180,9 +180,9 @@ def analyse_links(
     radio.validate()
     settings.validate()
     names = list(names) if names is not None else [f"{a.name} - {b.name}" for a, b in zip(sites_a, sites_b)]
-    placements_a = placements_b = None
     if surroundings is not None:
         surroundings.check_datum(model)
+    placements_a = placements_b = None
     if mounts_a is not None or mounts_b is not None:
         sites_a, placements_a = place_sites(model, sites_a, mounts_a, surroundings, "site a")
         sites_b, placements_b = place_sites(model, sites_b, mounts_b, surroundings, "site b")
@@ -203,14 +203,8 @@ def analyse_links(
     antenna_a = np.nan_to_num(ground_a) + agl_a
     antenna_b = np.nan_to_num(ground_b) + agl_b
     fsl = free_space_loss_db(profiles.length_m, radio.freq_ghz)
-    with np.errstate(invalid="ignore"):
-        surface = _finite_surface(profiles)  # shared by both k-factors
-        crit = settings.criterion
-        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface,
-                                   crit.min_f1_fraction)
-        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface,
-                                  crit.min_f1_fraction_worst)
-    meets = crit.met(design.clearance.worst_f1_fraction, worst.clearance.worst_f1_fraction)
+    design, worst = _at_both_k(profiles, antenna_a, antenna_b, radio, settings)
+    meets = settings.criterion.met(design.clearance.worst_f1_fraction, worst.clearance.worst_f1_fraction)
     availability = availability_for_links(
         design.budget.fade_margin_db, profiles.length_m, radio.freq_ghz, antenna_a, antenna_b,
         (lat_a + lat_b) / 2.0, profiles.valid, settings.climate,
@@ -227,6 +221,19 @@ def analyse_links(
         surroundings=surroundings, crossings=crossings, placements_a=placements_a, placements_b=placements_b,
         clutter_warnings=clutter_warnings, availability=availability,
     )
+
+
+def _at_both_k(profiles: Profiles, antenna_a: np.ndarray, antenna_b: np.ndarray, radio: Radio,
+               settings: Settings) -> tuple[AtK, AtK]:
+    """Clearance, losses and budget at the design and at the worst-case k-factor."""
+    crit = settings.criterion
+    with np.errstate(invalid="ignore"):
+        surface = _finite_surface(profiles)  # shared by both k-factors
+        design = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k, settings, surface,
+                                   crit.min_f1_fraction)
+        worst = evaluate_profiles(profiles, antenna_a, antenna_b, radio, settings.k_worst, settings, surface,
+                                  crit.min_f1_fraction_worst)
+    return design, worst
 
 
 def _checked_sites(sites_a: Sequence[Site], sites_b: Sequence[Site], names: list[str]) -> tuple[Any, Any]:

@@ -222,7 +222,7 @@ def read_sites(
     n = len(frame)
     reasons: list[str | None] = [None] * n
 
-    def flag(mask: np.ndarray, reason_of) -> None:
+    def flag(mask: np.ndarray, reason_of) -> None:  # the first reason found for a row is kept
         for k in np.flatnonzero(mask):
             if reasons[k] is None:
                 reasons[k] = reason_of(k)
@@ -246,16 +246,13 @@ def read_sites(
     names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
     flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
     agl, where["agl"] = _antenna_heights(frame, agl_c, default_agl_m, decimal_comma, flag)
-    if agl_c is not None:
-        used.add(agl_c)
+    used |= {agl_c} - {None}
     gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
-    if gain_c is not None:
-        used.add(gain_c)
-        where["gain"] = gain_c
     mast = _optional(frame, mast_c, "maximum mast height", "max_mast_m", decimal_comma, flag)
-    if mast_c is not None:
-        used.add(mast_c)
-        where["max_mast"] = mast_c
+    for role, column in (("gain", gain_c), ("max_mast", mast_c)):
+        if column is not None:
+            used.add(column)
+            where[role] = column
     _flag_duplicates(names, rows, reasons)
     bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reasons[k])
            for k in range(n) if reasons[k] is not None]
@@ -263,16 +260,9 @@ def read_sites(
     extra_cols = [c for c in columns if c not in used]
     extra = frame.loc[keep, extra_cols].reset_index(drop=True)
     table = SiteTable(
-        source=source,
-        names=np.asarray(names[keep], dtype=object),
-        lat_deg=lat[keep],
-        lon_deg=lon[keep],
-        antenna_agl_m=agl[keep],
-        gain_dbi=None if gain is None else gain[keep],
-        max_mast_m=None if mast is None else mast[keep],
-        rows=rows[keep],
-        extra=extra,
-        columns=where,
+        source=source, names=np.asarray(names[keep], dtype=object), lat_deg=lat[keep], lon_deg=lon[keep],
+        antenna_agl_m=agl[keep], gain_dbi=None if gain is None else gain[keep],
+        max_mast_m=None if mast is None else mast[keep], rows=rows[keep], extra=extra, columns=where,
     )
     return table, bad
 
