@@ -1,13 +1,14 @@
 """The JSON record of one analysed link (keys as in the design notes).
 
-Reads a :class:`profiler.link_batch.LinkBatch`; writes nothing to disk.
+Reads a :class:`profiler.link_batch.LinkBatch` (typed ``Any`` here so that
+the batch may import this writer without a circle); writes nothing to disk.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import asdict
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 
@@ -18,13 +19,10 @@ from .clutter import ClutterKind
 from .profile import FALLBACK_SPACING_M
 from .vertical import planner_datum_text, stated_datums
 
-if TYPE_CHECKING:
-    from .link_batch import LinkBatch
-
 __all__ = ["link_record", "link_warnings"]
 
 
-def link_record(batch: "LinkBatch", i: int) -> dict:
+def link_record(batch: Any, i: int) -> dict:
     """JSON-ready result of link i of ``batch``; ``{"name", "error"}`` when its path could not be profiled."""
     if batch.problems[i] is not None:
         return {"name": batch.names[i], "error": batch.problems[i]}
@@ -51,7 +49,7 @@ def link_record(batch: "LinkBatch", i: int) -> dict:
     return record
 
 
-def _inputs_record(batch: "LinkBatch", i: int) -> dict:
+def _inputs_record(batch: Any, i: int) -> dict:
     """The ``inputs`` object of link i: radio, k-factors, sampling, criterion, method, ground, climate."""
     settings = batch.settings
     ground = resolve_ground(settings.ground)
@@ -76,7 +74,7 @@ def _inputs_record(batch: "LinkBatch", i: int) -> dict:
     }
 
 
-def _sampling_inputs(batch: "LinkBatch", i: int) -> dict:
+def _sampling_inputs(batch: Any, i: int) -> dict:
     """Where the spacing came from, the finest raster cell on the path and the spacing advised."""
     p = batch.profiles
     cell = float(p.finest_cell_m[i]) if p.finest_cell_m is not None else float("nan")
@@ -89,7 +87,7 @@ def _sampling_inputs(batch: "LinkBatch", i: int) -> dict:
     }
 
 
-def _add_surroundings(batch: "LinkBatch", record: dict, i: int) -> None:
+def _add_surroundings(batch: Any, record: dict, i: int) -> None:
     """Site mounts, clutter and warnings of link i (rooftop and urban links)."""
     warnings = list(record.get("warnings", []))
     warnings += list(batch.clutter_warnings[i]) if batch.clutter_warnings else []
@@ -116,7 +114,7 @@ def _add_surroundings(batch: "LinkBatch", record: dict, i: int) -> None:
         record["warnings"] = warnings
 
 
-def link_warnings(batch: "LinkBatch", i: int) -> list[str]:
+def link_warnings(batch: Any, i: int) -> list[str]:
     """Validity warnings of link i: design k first, then any new at the worst-case k."""
     out = list(batch.design.warnings[i]) if batch.design.warnings else []
     note = batch.profiles.sampling_warnings[i] if batch.profiles.sampling_warnings else None
