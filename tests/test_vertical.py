@@ -81,3 +81,16 @@ def test_planner_stated_datum_is_reported(tmp_path):
     with ElevationModel([flat_dtm(tmp_path / "flat.tif")]) as model:
         record = _link(model, Mount("ellipsoid", 130.0, vertical_crs="EPSG:5773")).record(0)
     assert record["inputs"]["vertical_datum"].startswith("EGM96 height (stated by the planner")
+
+
+def test_datum_is_a_value_none_when_unknown():
+    from profiler.vertical import UNSTATED, DatumSource, datum_of_record, name_datum, raster_datum
+
+    unknown = name_datum(UNSTATED)
+    assert unknown.name is None and unknown.source is DatumSource.UNKNOWN and not unknown.known
+    assert raster_datum(UNSTATED) is None and raster_datum("EGM96 height") == "EGM96 height"
+    planner = datum_of_record({"inputs": {"vertical_datum": "EGM96 height (stated by the planner; the rasters "
+                                                            "do not say)", "vertical_datum_sea_level": True}})
+    assert planner.name == "EGM96 height" and planner.source is DatumSource.PLANNER
+    assert planner.record() == "EGM96 height (stated by the planner; the rasters do not say)"
+    assert datum_of_record({"inputs": {"vertical_datum": UNSTATED}}).name is None
