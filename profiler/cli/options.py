@@ -67,7 +67,7 @@ def friendly_errors(func: Callable) -> Callable:
 
 #: Python arguments (an error's ``parameter``) whose command-line form is not ``--`` plus the name
 #: with dashes (climate flags: :data:`CLIMATE_FLAGS`).
-_FLAG_OF = {"surroundings": "--obstructions FILE"}
+_FLAG_OF = {"surroundings": "--obstructions FILE", "default_agl_m": "--agl-m"}
 
 
 def flag_form(parameter: str, value_word: str = "") -> str:

@@ -25,7 +25,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..errors import DataFileError, InputError
+from ..errors import PARAMETER, DataFileError, InputError
 from ..validation import check_number, check_numbers, normalise_lon, position_problems
 
 __all__ = ["SiteTable", "BadRow", "read_sites", "read_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
@@ -45,9 +45,6 @@ DEFAULT_COLUMNS: dict[str, tuple[str, ...]] = {
 #: Antenna height above ground used for every site when the file has no height column, m.
 DEFAULT_AGL_M = 10.0
 
-#: The option naming the column of each role (for messages).
-_ROLE_OPTIONS = {"name": "--name-col", "lat": "--lat-col", "lon": "--lon-col", "agl": "--agl-col",
-                 "gain": "--gain-col", "max_mast": "--max-mast-col"}
 _ROLE_WORDS = {"name": "name", "lat": "latitude", "lon": "longitude", "agl": "antenna height",
                "gain": "antenna gain", "max_mast": "mast limit"}
 
@@ -129,14 +126,15 @@ def _find(columns: Sequence[str], role: str, given: str | None, source: str, req
         raise InputError(
             f"{source}: no column named {' or '.join(DEFAULT_COLUMNS[role][:2])} for the site "
             f"{_ROLE_WORDS[role]}, but column {near!r} looks like one (Shapefiles cut names at 10 characters); "
-            f"name it with {_ROLE_OPTIONS[role]} {near}"
-            + (", or give --agl-m to use one height for every site" if role == "agl" else "")
+            f"name it with {PARAMETER}"
+            + (", or give --agl-m to use one height for every site" if role == "agl" else ""),
+            parameter=f"{role}_col", value_word=near,
         )
     if required:
         raise InputError(
             f"{source}: cannot tell which column holds the site {role}; tried "
-            f"{', '.join(DEFAULT_COLUMNS[role])}; name it with --{role}-col "
-            f"(columns are: {', '.join(columns)})"
+            f"{', '.join(DEFAULT_COLUMNS[role])}; name it with {PARAMETER} "
+            f"(columns are: {', '.join(columns)})", parameter=f"{role}_col",
         )
     return None
 
@@ -207,7 +205,10 @@ def read_sites(
     sites and the skipped rows; ``SiteTable.columns`` says where each role came from.
     """
     if default_agl_m is not None:
-        check_number(default_agl_m, "antenna_agl_m", "--agl-m")
+        try:
+            check_number(default_agl_m, "antenna_agl_m", PARAMETER)
+        except InputError as exc:
+            raise InputError(exc.template, parameter="default_agl_m") from None
     p = Path(path)
     source = p.name
     if not p.exists():

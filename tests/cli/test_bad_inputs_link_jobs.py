@@ -64,3 +64,12 @@ def test_a_bad_value_in_the_link_file_names_the_file_and_key(tmp_path):
     bad.write_text(CLEAR.read_text().replace("tx_power_dbm = 20", "tx_power_dbm = 500")
                    .replace("../data/demo/terrain.tif", str(DEMO_DEM)))
     assert_refused(["link", bad], ["bad.toml [radio] tx_power_dbm", "transmitter power"], inputs=[bad, DEMO_DEM])
+
+
+def test_screen_site_file_errors_name_the_flag(tmp_path):
+    sites = tmp_path / "s.csv"
+    sites.write_text("name,y,x\nA,1,2\nB,1,3\n")
+    base = ["screen", sites, "--dem", DEMO_DEM, "--freq-ghz", "5", "-o", tmp_path / "out.csv"]
+    _refused_with_flag(base, ["name it with --lat-col"], [sites, DEMO_DEM], "lat_col")
+    sites.write_text("name,lat,lon\nA,1,2\nB,1,3\n")
+    _refused_with_flag(base + ["--agl-m", "-5"], ["--agl-m:", "antenna height"], [sites, DEMO_DEM], "default_agl_m")
