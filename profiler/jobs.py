@@ -27,7 +27,7 @@ from typing import Any, Iterator
 from .availability import ClimateSettings
 from .budget import Radio
 from .errors import PARAMETER, InputError
-from .io.linkfile import LinkSpec, read_link_file
+from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
 from .link_batch import LinkBatch
 from .link_engine import analyse_link
 from .link_types import Criterion, Settings, Site
@@ -71,8 +71,6 @@ MOUNT_KEYS = {
     "antenna_amsl_m": ("amsl", "elevation"),
     "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
 }
-#: Vertical units accepted for --vertical-unit and [terrain] vertical_unit.
-VERTICAL_UNIT_CHOICES = ("m", "ft", "us-ft")
 
 
 @dataclass(frozen=True)

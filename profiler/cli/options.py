@@ -15,6 +15,7 @@ from typing import Any, Callable
 import click
 
 from ..errors import InputError, TerrahopError
+from ..io.linkfile import VERTICAL_UNIT_CHOICES
 
 __all__ = [
     "friendly_errors",
@@ -191,7 +192,7 @@ def _compose(*decorators: Callable) -> Callable:
 terrain_options = _compose(
     _option("--dem", "dem", multiple=True, metavar="RASTER",
             help="Elevation raster (GeoTIFF, VRT, any GDAL format, any CRS). Repeat for several tiles; the first given wins where they overlap."),
-    _option("--vertical-unit", type=click.Choice(["m", "ft", "us-ft"]), default=None,
+    _option("--vertical-unit", type=click.Choice(VERTICAL_UNIT_CHOICES), default=None,
             help="Unit of the raster heights [default: the band's unit metadata, else m]."),
     _option("--nodata-fill-m", type=float, default=None, metavar="HEIGHT",
             help="Use this height (m) where the raster has nodata on the path, instead of refusing the path."),
@@ -353,8 +354,7 @@ def analyse_resolved(job: Any, model: Any, surroundings: Any, *, mount_a: Any = 
 
 
 _FROM_JOBS = {"ResolvedLink": "LinkJob", "resolve_climate": "resolve_climate", "parse_number": "parse_number",
-              "open_surroundings_of": "open_surroundings", "MOUNT_KEYS": "MOUNT_KEYS",
-              "VERTICAL_UNIT_CHOICES": "VERTICAL_UNIT_CHOICES"}
+              "open_surroundings_of": "open_surroundings", "MOUNT_KEYS": "MOUNT_KEYS"}
 
 
 def __getattr__(name: str) -> Any:
