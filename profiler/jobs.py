@@ -2,7 +2,7 @@
 
 Usable from Python as from the command line (no click here)::
 
-    job = resolve_link_job("examples/demo_clear.toml", {"freq_ghz": 11.0})
+    job = resolve_link_job("examples/demo-1-clear.toml", {"freq_ghz": 11.0})
     with open_job_data(job) as (model, surroundings):
         batch = analyse_job(job, model, surroundings)
 
