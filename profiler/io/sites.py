@@ -204,11 +204,7 @@ def read_sites(
     ``default_agl_m`` (None: :data:`DEFAULT_AGL_M`).  Returns the usable
     sites and the skipped rows; ``SiteTable.columns`` says where each role came from.
     """
-    if default_agl_m is not None:
-        try:
-            check_number(default_agl_m, "antenna_agl_m", PARAMETER)
-        except InputError as exc:
-            raise InputError(exc.template, parameter="default_agl_m") from None
+    _check_default_agl(default_agl_m)
     p = Path(path)
     source = p.name
     if not p.exists():
@@ -266,6 +262,16 @@ def read_sites(
         max_mast_m=None if mast is None else mast[keep], rows=rows[keep], extra=extra, columns=where,
     )
     return table, bad
+
+
+def _check_default_agl(default_agl_m: float | None) -> None:
+    """InputError (naming ``default_agl_m``) unless the one height for every site is in range."""
+    if default_agl_m is None:
+        return
+    try:
+        check_number(default_agl_m, "antenna_agl_m", PARAMETER)
+    except InputError as exc:
+        raise InputError(exc.template, parameter="default_agl_m") from None
 
 
 def _read_frame(p: Path, layer: str | None) -> tuple[Any, Any, np.ndarray, bool]:
