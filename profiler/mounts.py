@@ -16,9 +16,10 @@ from typing import Sequence
 
 import numpy as np
 
-from .errors import DataError, InputError
+from .errors import PARAMETER, DataError, InputError
 from .obstructions import RoofInfo, Surroundings
 from .terrain import ElevationModel
+from .validation import check_number
 from .vertical import GeoidConversion, ellipsoidal_to_raster_datum, raster_vertical_crs
 
 __all__ = ["REFERENCES", "Mount", "Placement", "place_sites"]
@@ -51,8 +52,6 @@ class Mount:
         if not isinstance(self.height_m, (int, float)) or not math.isfinite(self.height_m):
             raise InputError(f"{where}: antenna height must be a finite number, got {self.height_m!r}")
         # Ranges shared with every entry point (profiler.validation.LIMITS).
-        from .validation import check_number
-
         limit = {"ground": "antenna_agl_m", "roof": "antenna_above_roof_m", "elevation": "antenna_amsl_m",
                  "ellipsoid": "antenna_ellipsoidal_m"}.get(self.reference)
         if limit is not None:
@@ -144,7 +143,7 @@ def place_sites(
             if surroundings is None or not any(l.kind == "building" for l in surroundings.layers):
                 raise InputError(
                     f"{where}: an antenna height above the roof needs a building layer "
-                    "(--obstructions FILE); or give the height above ground"
+                    f"({PARAMETER}); or give the height above ground", parameter="surroundings",
                 )
             if roof is None:
                 raise InputError(

@@ -1,5 +1,8 @@
 """Obstruction layers and surface models: the clutter standing on the ground along paths.
 
+Reading the layers is :mod:`profiler.obstruction_layers` (re-exported here);
+this module finds where paths cross them and adds the clutter to profiles.
+
 Two sources of clutter, usable together:
 
 * **Obstruction layers**: polygons of buildings or tree stands from a vector
@@ -28,21 +31,34 @@ are in the vertical datum of the elevation rasters.
 
 from __future__ import annotations
 
-import os
-import re
 from dataclasses import dataclass, replace
 from functools import cached_property
-from typing import Any, Sequence
+from typing import Any
 
 import numpy as np
 
-from .errors import DataError, DataFileError, InputError
+from .errors import PARAMETER, DataError, InputError
 from .geodesy import WGS84
-from .profile import Profiles
+from .obstruction_layers import (
+    DEFAULT_HEIGHT_FIELDS,
+    DEFAULT_TOP_FIELDS,
+    KIND_CODES,
+    MAX_HEIGHT_ABOVE_GROUND_M,
+    LayerSpec,
+    ObstructionLayer,
+    normalise_kind,
+    parse_layer_spec,
+    read_obstruction_layer,
+)
+from .profile import Profiles, nodata_problem, path_spacings_m
 from .terrain import ElevationModel
+from .vertical import raster_datum
 
 __all__ = [
     "KIND_CODES",
+    "DEFAULT_HEIGHT_FIELDS",
+    "DEFAULT_TOP_FIELDS",
+    "MAX_HEIGHT_ABOVE_GROUND_M",
     "LayerSpec",
     "parse_layer_spec",
     "normalise_kind",
@@ -54,261 +70,14 @@ __all__ = [
     "SurroundedProfiles",
     "apply_surroundings",
     "RoofInfo",
+    "surface_finest_cell_m",
 ]
-
-#: Clutter kind codes, as in ``Profiles.clutter_kind`` (0 means none).
-KIND_CODES = {"building": 1, "trees": 2, "surface model": 3}
-_KIND_ALIASES = {"building": "building", "buildings": "building", "tree": "trees", "trees": "trees"}
-
-#: Attribute names tried, in order, when the planner names none (case-insensitive).
-DEFAULT_HEIGHT_FIELDS = ("height_m", "height")
-DEFAULT_TOP_FIELDS = ("top_m",)
-
-#: A height above ground beyond this is taken for a mistake (an absolute top in the height field).
-MAX_HEIGHT_ABOVE_GROUND_M = 1000.0
 
 #: Distance tolerance when merging inserted samples with existing ones, metres.
 _SAME_POINT_M = 1e-3
 
 #: Search radius around a path's samples when picking candidate polygons, degrees (about 1 m).
 _CANDIDATE_RADIUS_DEG = 1e-5
-
-
-def normalise_kind(kind: str, where: str = "obstruction layer") -> str:
-    """'building'/'buildings' -> 'building', 'tree'/'trees' -> 'trees'; InputError otherwise."""
-    key = str(kind).strip().lower()
-    if key not in _KIND_ALIASES:
-        raise InputError(f"{where}: unknown obstruction kind {kind!r}; known kinds: "
-                         f"{', '.join(_KIND_ALIASES)}")
-    return _KIND_ALIASES[key]
-
-
-@dataclass(frozen=True)
-class LayerSpec:
-    """Which vector layer to read, what it holds and where its heights are."""
-
-    path: str
-    kind: str = "building"
-    layer: str | None = None
-    height_field: str | None = None
-    top_field: str | None = None
-
-    @property
-    def label(self) -> str:
-        return self.path + (f"#{self.layer}" if self.layer else "")
-
-
-def parse_layer_spec(
-    text: str, *, height_field: str | None = None, top_field: str | None = None
-) -> LayerSpec:
-    """Parse ``[KIND=]FILE[#LAYER]`` (KIND building or trees, default building)."""
-    text = str(text).strip()
-    if not text:
-        raise InputError("empty obstruction layer; give [KIND=]FILE[#LAYER]")
-    kind = "building"
-    head, sep, rest = text.partition("=")
-    if sep and head.strip().lower() in _KIND_ALIASES:
-        kind, text = normalise_kind(head), rest
-    elif sep and re.fullmatch(r"\s*[A-Za-z_-]+\s*", head) and not os.path.exists(text):
-        # KIND=FILE with a kind we do not know (e.g. lava=...): name the kinds, not a missing file.
-        normalise_kind(head, f"--obstructions {text}")
-    layer = None
-    if "#" in text and not os.path.exists(text):
-        text, _, layer = text.rpartition("#")
-        layer = layer or None
-    return LayerSpec(path=text, kind=kind, layer=layer, height_field=height_field, top_field=top_field)
-
-
-@dataclass(frozen=True, eq=False)
-class ObstructionLayer:
-    """Polygons of one kind with heights, geometry in WGS84 longitude/latitude.
-
-    ``height_m`` (above ground) and ``top_m`` (absolute, raster datum) are
-    per feature, NaN where not given; a feature with a height uses it, else its top.
-    """
-
-    spec: LayerSpec
-    crs_name: str
-    geometry: np.ndarray
-    height_m: np.ndarray
-    top_m: np.ndarray
-    feature_labels: tuple[str, ...]
-    height_field: str | None
-    top_field: str | None
-
-    @property
-    def kind(self) -> str:
-        return self.spec.kind
-
-    def __len__(self) -> int:
-        return len(self.geometry)
-
-    def describe(self) -> dict:
-        """Provenance of the layer for the JSON record."""
-        return {
-            "path": self.spec.path,
-            "layer": self.spec.layer,
-            "kind": self.kind,
-            "crs": self.crs_name,
-            "features": len(self),
-            "height_field": self.height_field,
-            "top_field": self.top_field,
-        }
-
-
-def _find_field(columns: Sequence[str], given: str | None, defaults: Sequence[str], what: str, label: str) -> str | None:
-    by_lower = {c.lower(): c for c in columns}
-    if given:
-        if given.lower() not in by_lower:
-            raise InputError(
-                f"{label}: no attribute {given!r} ({what}); its attributes are: "
-                f"{', '.join(columns) or 'none'}"
-            )
-        return by_lower[given.lower()]
-    for name in defaults:
-        if name in by_lower:
-            return by_lower[name]
-    return None
-
-
-def _numeric(values: Any, field_name: str, labels: Sequence[str], where: str) -> np.ndarray:
-    import pandas as pd
-
-    raw = pd.Series(values)
-    num = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
-    bad = np.flatnonzero(raw.notna().to_numpy() & ~np.isfinite(num))
-    if bad.size:
-        j = bad[0]
-        raise DataError(
-            f"{where}: feature {labels[j]}: {field_name} {raw.iloc[j]!r} is not a number of metres"
-            f" ({bad.size} feature(s) affected)"
-        )
-    return num
-
-
-def read_obstruction_layer(spec: LayerSpec) -> ObstructionLayer:
-    """Read one polygon layer and its heights; refuse what cannot be used, naming the feature.
-
-    Refused: a missing or unreadable file, a layer without CRS, no height
-    attribute, empty or non-numeric heights, negative heights, null, empty,
-    non-polygon or invalid geometries.
-    """
-    import geopandas as gpd
-    import pyogrio
-
-    path = spec.path
-    if not path.startswith("/vsi") and not os.path.exists(path):
-        raise DataFileError(f"obstruction layer not found: {path}")
-    try:
-        layers = [str(name) for name, _ in pyogrio.list_layers(path)]
-    except Exception as exc:  # pyogrio raises its own DataSourceError and others
-        raise DataFileError(f"cannot read {path} as a vector layer: {exc}") from None
-    if not layers:
-        raise DataError(f"{path} holds no vector layer")
-    if spec.layer is None:
-        if len(layers) > 1:
-            raise InputError(
-                f"{path} holds several layers ({', '.join(layers)}); choose one as "
-                f"{path}#LAYER (or layer = \"...\" in the link file)"
-            )
-        layer = layers[0]
-    elif spec.layer in layers:
-        layer = spec.layer
-    else:
-        raise InputError(f"{path} has no layer {spec.layer!r}; its layers are: {', '.join(layers)}")
-    label = f"{path}#{layer}" if len(layers) > 1 or spec.layer else path
-    try:
-        gdf = gpd.read_file(path, layer=layer, engine="pyogrio", fid_as_index=True)
-    except Exception as exc:
-        raise DataFileError(f"cannot read layer {layer!r} of {path}: {exc}") from None
-    if gdf.crs is None:
-        raise DataError(
-            f"obstruction layer {label} has no coordinate reference system; assign one "
-            "(e.g. ogr2ogr -a_srs EPSG:32633 out.gpkg in.shp) and try again"
-        )
-    columns = [c for c in gdf.columns if c != gdf.geometry.name]
-    name_col = _find_field(columns, None, ("name",), "name", label)
-    fids = [str(i) for i in gdf.index]
-    if name_col is not None:
-        names = gdf[name_col].tolist()
-        labels = tuple(
-            f"{n!s} (fid {f})" if n is not None and str(n) not in ("", "nan", "None") else f"fid {f}"
-            for n, f in zip(names, fids)
-        )
-    else:
-        labels = tuple(f"fid {f}" for f in fids)
-    geoms = np.asarray(gdf.geometry.array, dtype=object)
-    _check_geometries(geoms, labels, label)
-    hf = _find_field(columns, spec.height_field, DEFAULT_HEIGHT_FIELDS, "height above ground", label)
-    tf = _find_field(columns, spec.top_field, DEFAULT_TOP_FIELDS, "top elevation", label)
-    if hf is None and tf is None:
-        raise DataError(
-            f"obstruction layer {label} has no height attribute: expected a numeric column "
-            f"{' or '.join(DEFAULT_HEIGHT_FIELDS)} (height above ground, m) or "
-            f"{' or '.join(DEFAULT_TOP_FIELDS)} (elevation of the top, m, in the elevation "
-            "raster's vertical datum); name yours with --height-field or --top-field. "
-            f"Attributes found: {', '.join(columns) or 'none'}"
-        )
-    n = len(gdf)
-    height = _numeric(gdf[hf], hf, labels, label) if hf else np.full(n, np.nan)
-    top = _numeric(gdf[tf], tf, labels, label) if tf else np.full(n, np.nan)
-    missing = np.flatnonzero(~np.isfinite(height) & ~np.isfinite(top))
-    if missing.size:
-        fields_ = " and ".join(f for f in (hf, tf) if f)
-        raise DataError(
-            f"{label}: feature {labels[missing[0]]} has no height ({fields_} empty); "
-            f"{missing.size} feature(s) affected: fill them or remove them"
-        )
-    negative = np.flatnonzero(height < 0)
-    if negative.size:
-        raise DataError(
-            f"{label}: feature {labels[negative[0]]} has a negative height above ground "
-            f"({height[negative[0]]:g} m in {hf})"
-        )
-    tall = np.flatnonzero(height > MAX_HEIGHT_ABOVE_GROUND_M)
-    if tall.size:
-        raise DataError(
-            f"{label}: feature {labels[tall[0]]} is {height[tall[0]]:g} m above ground in {hf}; "
-            "if that is the elevation of its top, name the attribute with --top-field instead"
-        )
-    wgs84 = gdf.to_crs("EPSG:4326") if not gdf.crs.equals("EPSG:4326") else gdf
-    return ObstructionLayer(
-        spec=replace(spec, layer=layer if len(layers) > 1 else spec.layer),
-        crs_name=gdf.crs.name,
-        geometry=np.asarray(wgs84.geometry.array, dtype=object),
-        height_m=height,
-        top_m=top,
-        feature_labels=labels,
-        height_field=hf,
-        top_field=tf,
-    )
-
-
-def _check_geometries(geoms: np.ndarray, labels: Sequence[str], where: str) -> None:
-    import shapely
-
-    missing = np.flatnonzero(shapely.is_missing(geoms) | shapely.is_empty(geoms))
-    if missing.size:
-        raise DataError(
-            f"{where}: feature {labels[missing[0]]} has no geometry ({missing.size} feature(s)); "
-            "remove them or draw their footprints"
-        )
-    types = shapely.get_type_id(geoms)
-    wrong = np.flatnonzero(~np.isin(types, (3, 6)))  # Polygon, MultiPolygon
-    if wrong.size:
-        kind = shapely.get_type_id(geoms[wrong[0]])
-        names = {0: "point", 1: "line", 2: "ring", 4: "multipoint", 5: "multiline", 7: "collection"}
-        raise DataError(
-            f"{where}: feature {labels[wrong[0]]} is a {names.get(int(kind), 'non-polygon')}; "
-            "obstruction layers must hold polygons (footprints)"
-        )
-    invalid = np.flatnonzero(~shapely.is_valid(geoms))
-    if invalid.size:
-        reason = shapely.is_valid_reason(geoms[invalid[0]])
-        raise DataError(
-            f"{where}: feature {labels[invalid[0]]} has an invalid polygon ({reason}); "
-            f"{invalid.size} feature(s) affected: repair them (e.g. ogr2ogr -makevalid) and try again"
-        )
 
 
 @dataclass(frozen=True)
@@ -359,11 +128,39 @@ def find_crossings(
     A path touching a polygon at one point gives a stretch of zero length.
     """
     import shapely
-    from pyproj import Transformer
 
     empty = Crossings(np.zeros(0, int), np.zeros(0, int), np.zeros(0), np.zeros(0))
     if len(geometry) == 0 or len(length_m) == 0:
         return empty
+    path_of, feat_of = _candidates(sample_lat_deg, sample_lon_deg, n_samples, geometry, tree)
+    if path_of.size == 0:
+        return empty
+    out: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
+    paths: list[int] = []
+    starts = np.flatnonzero(np.r_[True, path_of[1:] != path_of[:-1]])
+    ends = np.r_[starts[1:], len(path_of)]
+    for s, e in zip(starts, ends):
+        p = int(path_of[s])
+        found = _path_crossings(float(lat_a_deg[p]), float(lon_a_deg[p]), lat_b_deg[p], lon_b_deg[p],
+                                float(length_m[p]), feat_of[s:e], geometry, shapely)
+        if found is not None:
+            out.append(found)
+            paths.append(p)
+    if not out:
+        return empty
+    return Crossings(
+        path=np.concatenate([np.full(len(f[0]), p) for p, f in zip(paths, out)]).astype(np.int64),
+        feature=np.concatenate([f[0] for f in out]).astype(np.int64),
+        from_m=np.concatenate([f[1] for f in out]),
+        to_m=np.concatenate([f[2] for f in out]),
+    )
+
+
+def _candidates(sample_lat_deg: np.ndarray, sample_lon_deg: np.ndarray, n_samples: np.ndarray,
+                geometry: np.ndarray, tree: Any) -> tuple[np.ndarray, np.ndarray]:
+    """(path, feature) pairs of polygons near each sampled path (STRtree query), sorted by path then feature."""
+    import shapely
+
     if tree is None:
         tree = shapely.STRtree(geometry)
     width = sample_lat_deg.shape[1]
@@ -373,51 +170,41 @@ def find_crossings(
     lines = shapely.linestrings(coords, indices=rows)
     pairs = tree.query(lines, predicate="dwithin", distance=_CANDIDATE_RADIUS_DEG)
     if pairs.shape[1] == 0:
-        return empty
+        return np.zeros(0, int), np.zeros(0, int)
     order = np.lexsort((pairs[1], pairs[0]))
-    path_of, feat_of = pairs[0][order], pairs[1][order]
-    out_path, out_feat, out_from, out_to = [], [], [], []
-    starts = np.flatnonzero(np.r_[True, path_of[1:] != path_of[:-1]])
-    ends = np.r_[starts[1:], len(path_of)]
-    for s, e in zip(starts, ends):
-        p = int(path_of[s])
-        feats = feat_of[s:e]
-        # A bare PROJ pipeline: building it skips the CRS database search (~100x faster than from_crs).
-        to_local = Transformer.from_pipeline(
-            "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
-            f"+step +proj=aeqd +lat_0={float(lat_a_deg[p])!r} +lon_0={float(lon_a_deg[p])!r} +ellps=WGS84"
-        )
+    return pairs[0][order], pairs[1][order]
 
-        def project(xy: np.ndarray, _t=to_local) -> np.ndarray:
-            x, y = _t.transform(xy[:, 0], xy[:, 1])
-            return np.column_stack([x, y])
 
-        xb, yb = to_local.transform(lon_b_deg[p], lat_b_deg[p])
-        segment = shapely.linestrings([[0.0, 0.0], [xb, yb]])
-        polys = shapely.transform(geometry[feats], project)
-        inter = shapely.intersection(segment, polys)
-        parts, which = shapely.get_parts(inter, return_index=True)
-        keep = ~shapely.is_empty(parts)
-        parts, which = parts[keep], which[keep]
-        if len(parts) == 0:
-            continue
-        xy, part_of = shapely.get_coordinates(parts, return_index=True)
-        r = np.hypot(xy[:, 0], xy[:, 1])
-        first = np.searchsorted(part_of, np.arange(len(parts)))
-        lo = np.minimum.reduceat(r, first)
-        hi = np.maximum.reduceat(r, first)
-        out_path.append(np.full(len(parts), p))
-        out_feat.append(feats[which])
-        out_from.append(np.clip(lo, 0.0, length_m[p]))
-        out_to.append(np.clip(hi, 0.0, length_m[p]))
-    if not out_path:
-        return empty
-    return Crossings(
-        path=np.concatenate(out_path).astype(np.int64),
-        feature=np.concatenate(out_feat).astype(np.int64),
-        from_m=np.concatenate(out_from),
-        to_m=np.concatenate(out_to),
+def _path_crossings(lat_a: float, lon_a: float, lat_b: Any, lon_b: Any, length_m: float, feats: np.ndarray,
+                    geometry: np.ndarray, shapely: Any) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """(feature, from_m, to_m) of the stretches of one path inside its candidate polygons; None if none."""
+    from pyproj import Transformer
+
+    # A bare PROJ pipeline: building it skips the CRS database search (~100x faster than from_crs).
+    to_local = Transformer.from_pipeline(
+        "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
+        f"+step +proj=aeqd +lat_0={lat_a!r} +lon_0={lon_a!r} +ellps=WGS84"
     )
+
+    def project(xy: np.ndarray) -> np.ndarray:
+        x, y = to_local.transform(xy[:, 0], xy[:, 1])
+        return np.column_stack([x, y])
+
+    xb, yb = to_local.transform(lon_b, lat_b)
+    segment = shapely.linestrings([[0.0, 0.0], [xb, yb]])
+    polys = shapely.transform(geometry[feats], project)
+    inter = shapely.intersection(segment, polys)
+    parts, which = shapely.get_parts(inter, return_index=True)
+    keep = ~shapely.is_empty(parts)
+    parts, which = parts[keep], which[keep]
+    if len(parts) == 0:
+        return None
+    xy, part_of = shapely.get_coordinates(parts, return_index=True)
+    r = np.hypot(xy[:, 0], xy[:, 1])
+    first = np.searchsorted(part_of, np.arange(len(parts)))
+    lo = np.minimum.reduceat(r, first)
+    hi = np.maximum.reduceat(r, first)
+    return feats[which], np.clip(lo, 0.0, length_m), np.clip(hi, 0.0, length_m)
 
 
 @dataclass(frozen=True)
@@ -485,9 +272,8 @@ class Surroundings:
         """Refuse a surface model whose stated vertical datum differs from the terrain's."""
         if self.surface is None:
             return
-        unknown = "as the raster (not stated in the file)"
-        ground = {s.vertical_datum for s in model.sources} - {unknown}
-        surface = {s.vertical_datum for s in self.surface.sources} - {unknown}
+        ground = {raster_datum(s.vertical_datum) for s in model.sources} - {None}
+        surface = {raster_datum(s.vertical_datum) for s in self.surface.sources} - {None}
         if ground and surface and ground != surface:
             raise DataError(
                 f"the surface model's heights are in {', '.join(sorted(surface))} but the terrain's in "
@@ -497,12 +283,10 @@ class Surroundings:
     def default_spacing_m(self, model: ElevationModel, lon_deg: np.ndarray, lat_deg: np.ndarray,
                           lat_b_deg: np.ndarray, lon_b_deg: np.ndarray) -> np.ndarray:
         """Half the finest terrain cell on each path a-b, or of the surface model if finer, metres."""
-        from .profile import path_spacings_m
-
         terrain = path_spacings_m(model, lat_deg, lon_deg, lat_b_deg, lon_b_deg)
         if self.surface is None:
             return terrain
-        return np.minimum(terrain, _finest_cell_m(self.surface) / 2.0)
+        return np.minimum(terrain, surface_finest_cell_m(self.surface) / 2.0)
 
     def roof_at(self, lon_deg: float, lat_deg: float, ground_m: float) -> RoofInfo | None:
         """The highest building whose footprint holds the point, or None."""
@@ -555,7 +339,7 @@ class Surroundings:
         return apply_surroundings(profiles, model, self)
 
 
-def _finest_cell_m(model: ElevationModel) -> float:
+def surface_finest_cell_m(model: ElevationModel) -> float:
     """Smallest ground cell size of any raster of ``model``, measured at its centre, metres."""
     from pyproj import CRS, Transformer
 
@@ -624,9 +408,9 @@ def _insert_samples(
     for j in bad:
         p = int(path[j])
         if problems and problems[p] is None:
-            problems[p] = (
+            problems[p] = nodata_problem(
                 f"no elevation data (nodata) at {distance_m[j] / 1000:.3f} km from site a "
-                f"({lat_new[j]:.6f}, {lon_new[j]:.6f}); fill the hole or pass --nodata-fill-m HEIGHT"
+                f"({lat_new[j]:.6f}, {lon_new[j]:.6f}); fill the hole or pass {PARAMETER}"
             )
     ground = lay_out(values["ground_m"])
     return replace(

@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from enum import IntEnum
 from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike
 
-from .errors import InputError
+from .clutter import ClutterKind
+from .errors import PARAMETER, InputError, Problem
 from .geodesy import PathLines, path_lines, path_nodes, sample_paths
 from .terrain import ElevationModel
 
@@ -29,21 +29,7 @@ MAX_SAMPLES_PER_BATCH = 2_000_000
 #: Spacing used where no raster cell size is known along a path, m.
 FALLBACK_SPACING_M = 15.0
 
-class ClutterKind(IntEnum):
-    """What the clutter at a sample is: the int8 codes of ``Profiles.clutter_kind``."""
-
-    NONE = 0
-    BUILDING = 1
-    TREES = 2
-    SURFACE_MODEL = 3
-
-    @property
-    def label(self) -> str:
-        """The word used in records: "none", "building", "trees", "surface model"."""
-        return self.name.lower().replace("_", " ")
-
-
-#: Word of each code of ``Profiles.clutter_kind`` (as in the link records).
+#: Codes of ``Profiles.clutter_kind`` and their record words (kept for callers of the old name).
 CLUTTER_KINDS = {int(k): k.label for k in ClutterKind}
 
 
@@ -56,7 +42,7 @@ class Profiles:
     the height of buildings and trees above it (0 where none).  ``problems``
     holds, per path, None or a sentence saying why the path cannot be used.
     ``clutter_kind`` (int8, same shape) says what the clutter is: 0 none,
-    1 building, 2 trees, 3 surface model (see :data:`CLUTTER_KINDS`).
+    1 building, 2 trees, 3 surface model (see :class:`ClutterKind`).
     Samples need not be evenly spaced: obstruction edges are inserted.
     """
 
@@ -263,6 +249,12 @@ def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
         )
 
 
+def nodata_problem(template: str) -> Problem:
+    """A path's nodata problem: the record keeps the command-line wording (``--nodata-fill-m HEIGHT``),
+    the error raised from it names the ``nodata_fill_m`` argument."""
+    return Problem(template, "nodata_fill_m", "HEIGHT", template.replace(PARAMETER, "--nodata-fill-m HEIGHT"))
+
+
 def _problem(label, lat, lon, dist, ground, covered, n) -> str | None:
     if not covered[0]:
         return f"{label}: site a ({lat[0]:.6f}, {lon[0]:.6f}) lies outside the elevation rasters"
@@ -278,9 +270,9 @@ def _problem(label, lat, lon, dist, ground, covered, n) -> str | None:
     holes = np.flatnonzero(np.isnan(ground[:n]))
     if holes.size:
         j = holes[0]
-        return (
+        return nodata_problem(
             f"{label}: no elevation data (nodata) at {dist[j] / 1000:.3f} km from site a "
             f"({lat[j]:.6f}, {lon[j]:.6f}), {holes.size} sample(s) affected; "
-            "fill the hole in the raster or pass --nodata-fill-m HEIGHT to use a stated height"
+            f"fill the hole in the raster or pass {PARAMETER} to use a stated height"
         )
     return None

@@ -10,21 +10,59 @@ silently.
 
 from __future__ import annotations
 
+import enum
 import os
 from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import DataError, InputError
-from .terrain import ElevationModel
+from .errors import PARAMETER, DataError, InputError
+from .terrain import DATUM_NOT_STATED, ElevationModel
 
 __all__ = [
     "GeoidConversion", "raster_vertical_crs", "ellipsoidal_to_raster_datum", "SYSTEM_GRID_DIRS",
-    "DatumName", "name_datum", "apply_datum_name", "datum_of_record", "UNSTATED",
+    "DatumName", "DatumSource", "name_datum", "apply_datum_name", "datum_of_record", "UNSTATED",
+    "PLANNER_NOTE", "raster_datum", "stated_datums", "planner_datum_text",
 ]
 
-#: How terrain.py describes a raster that does not state its vertical datum.
-UNSTATED = "as the raster (not stated in the file)"
+#: How terrain.py describes a raster that does not state its vertical datum (the record's text).
+UNSTATED = DATUM_NOT_STATED
+#: Written after a datum name in inputs.vertical_datum when the planner, not the rasters, named it.
+PLANNER_NOTE = " (stated by the planner; the rasters do not say)"
+
+
+class DatumSource(str, enum.Enum):
+    """Who stated the vertical datum: the rasters, the planner (``vertical_crs``), or nobody."""
+
+    RASTER = "raster"
+    PLANNER = "planner"
+    UNKNOWN = "unknown"
+
+
+def raster_datum(text: str) -> str | None:
+    """The datum name of one raster (``RasterSource.vertical_datum``), or None when the file states none."""
+    return None if text == DATUM_NOT_STATED else text
+
+
+def stated_datums(text: str | None) -> list[str]:
+    """The datum names in a provenance text (names joined by "; "), without the unstated ones."""
+    names = [n.strip() for n in (text or "").split(";")]
+    return [n for n in names if n and raster_datum(n) is not None]
+
+
+def planner_datum_text(name: str) -> str:
+    """inputs.vertical_datum for a datum the planner named and the rasters do not state."""
+    return f"{name}{PLANNER_NOTE}"
+
+
+def _parse_datum_text(text: str) -> tuple[str | None, DatumSource]:
+    """(name or None, who stated it) from the text of inputs.vertical_datum: the one reader of that text."""
+    text = text.strip()
+    if not text or raster_datum(text) is None or text.startswith("as the raster"):
+        return None, DatumSource.UNKNOWN
+    if text.endswith(PLANNER_NOTE):
+        return text[: -len(PLANNER_NOTE)], DatumSource.PLANNER
+    return text, DatumSource.RASTER
 
 #: Folders where operating-system packages put PROJ grids (Debian's proj-data
 #: installs egm96_15.gtx in /usr/share/proj); searched after pyproj's own.
@@ -76,8 +114,9 @@ def raster_vertical_crs(model: ElevationModel, given: str | None = None):
     if given_crs is None:
         raise InputError(
             "the elevation rasters do not state their vertical datum, so an ellipsoidal (GNSS) "
-            "height cannot be converted; say which it is with --vertical-crs (e.g. EPSG:5773 for "
-            "EGM96 heights, EPSG:3855 for EGM2008) or give the antenna height above ground"
+            f"height cannot be converted; say which it is with {PARAMETER} (e.g. EPSG:5773 for "
+            "EGM96 heights, EPSG:3855 for EGM2008) or give the antenna height above ground",
+            parameter="vertical_crs",
         )
     return given_crs
 
@@ -144,17 +183,21 @@ def ellipsoidal_to_raster_datum(lon_deg: float, lat_deg: float, ellipsoidal_m: f
 class DatumName:
     """The vertical datum heights are given in: its name, who stated it, and whether it is a sea level.
 
-    ``source`` is "raster" (the files say), "planner" (``--vertical-crs`` or
-    ``[terrain] vertical_crs``) or "unknown" (``name`` is then "").
+    ``source`` is a :class:`DatumSource`: the rasters, the planner
+    (``vertical_crs``, ``[terrain] vertical_crs``) or unknown (``name`` is then None).
     """
 
-    name: str
-    source: str
+    name: str | None
+    source: DatumSource
     sea_level: bool
+
+    @property
+    def known(self) -> bool:
+        return self.source is not DatumSource.UNKNOWN
 
     def phrase(self) -> str:
         """'above the datum EGM96 height (stated by the planner...)', for the end of a height."""
-        if self.source == "unknown":
+        if not self.known:
             return "above the datum of the elevation rasters (not stated in the files)"
         return f"above the datum {self.name}{self._origin()}"
 
@@ -163,11 +206,11 @@ class DatumName:
         return "above sea level" if self.sea_level else "above the datum"
 
     def _origin(self) -> str:
-        return " (stated by the planner; the rasters do not say)" if self.source == "planner" else ""
+        return PLANNER_NOTE if self.source is DatumSource.PLANNER else ""
 
     def record(self) -> str:
         """The text of the JSON key inputs.vertical_datum."""
-        if self.source == "unknown":
+        if not self.known:
             return UNSTATED
         return f"{self.name}{self._origin()}"
 
@@ -206,26 +249,27 @@ def name_datum(stated: str | None, given: str | None = None) -> DatumName:
     or :data:`UNSTATED`).  Raises InputError for a ``given`` that is not a
     vertical CRS, or one that contradicts the rasters.
     """
-    names = [n.strip() for n in (stated or "").split(";") if n.strip() and n.strip() != UNSTATED]
+    names = stated_datums(stated)
     given_crs = None
     if given:
         given_crs = _vertical_crs(str(given))
         if given_crs is None:
-            raise InputError(f"--vertical-crs {given!r} is not a vertical CRS known to PROJ; "
-                             "give e.g. EPSG:5773 (EGM96 height) or EPSG:3855 (EGM2008 height)")
+            raise InputError(f"{PARAMETER} {given!r} is not a vertical CRS known to PROJ; "
+                             "give e.g. EPSG:5773 (EGM96 height) or EPSG:3855 (EGM2008 height)",
+                             parameter="vertical_crs")
     if names:
         name = names[0] if len(names) == 1 else "; ".join(names)
         if given_crs is not None and given_crs.name not in names:
             raise InputError(
-                f"the elevation rasters state their heights are {name}, but --vertical-crs {given!r} "
-                f"({given_crs.name}) was given; drop the option or fix the raster"
+                f"the elevation rasters state their heights are {name}, but {PARAMETER} {given!r} "
+                f"({given_crs.name}) was given; drop the option or fix the raster", parameter="vertical_crs",
             )
         crs = given_crs if given_crs is not None else _vertical_crs(names[0])
         sea = len(names) == 1 and crs is not None and _is_sea_level(crs)
-        return DatumName(name, "raster", sea)
+        return DatumName(name, DatumSource.RASTER, sea)
     if given_crs is not None:
-        return DatumName(given_crs.name, "planner", _is_sea_level(given_crs))
-    return DatumName("", "unknown", False)
+        return DatumName(given_crs.name, DatumSource.PLANNER, _is_sea_level(given_crs))
+    return DatumName(None, DatumSource.UNKNOWN, False)
 
 
 def apply_datum_name(record: dict, given: str | None) -> DatumName:
@@ -234,13 +278,12 @@ def apply_datum_name(record: dict, given: str | None) -> DatumName:
     inputs = record.setdefault("inputs", {})
     stated = (record.get("provenance") or {}).get("vertical_datum", inputs.get("vertical_datum"))
     datum = name_datum(stated, given)
-    if datum.source == "unknown":
-        # a geoid conversion may already have named it (profiler.link)
-        current = str(inputs.get("vertical_datum") or "")
-        if current and current != UNSTATED and "stated by the planner" in current:
-            name = current.split(" (stated by the planner")[0]
+    if not datum.known:
+        # a geoid conversion may already have named it (profiler.link_record)
+        name, source = _parse_datum_text(str(inputs.get("vertical_datum") or ""))
+        if source is DatumSource.PLANNER:
             crs = _vertical_crs(name)
-            datum = DatumName(name, "planner", crs is not None and _is_sea_level(crs))
+            datum = DatumName(name, DatumSource.PLANNER, crs is not None and _is_sea_level(crs))
     inputs["vertical_datum"] = datum.record()
     inputs["vertical_datum_sea_level"] = datum.sea_level
     return datum
@@ -249,13 +292,11 @@ def apply_datum_name(record: dict, given: str | None) -> DatumName:
 def datum_of_record(record: dict) -> DatumName:
     """The DatumName a record states (after :func:`apply_datum_name`, or from its plain text)."""
     inputs = record.get("inputs", {})
-    text = str(inputs.get("vertical_datum") or "").strip()
-    if not text or text == UNSTATED or text.startswith("as the raster"):
-        return DatumName("", "unknown", False)
-    planner = "stated by the planner" in text
-    name = text.split(" (stated by the planner")[0]
+    name, source = _parse_datum_text(str(inputs.get("vertical_datum") or ""))
+    if name is None:
+        return DatumName(None, DatumSource.UNKNOWN, False)
     sea = inputs.get("vertical_datum_sea_level")
     if sea is None:
         crs = _vertical_crs(name)
         sea = crs is not None and _is_sea_level(crs)
-    return DatumName(name, "planner" if planner else "raster", bool(sea))
+    return DatumName(name, source, bool(sea))

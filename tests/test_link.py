@@ -170,3 +170,41 @@ def test_longitudes_in_0_360_are_folded_by_validate():
     assert Site("b", 90.0, 45.0, 10.0).validate().lon_deg == 0.0
     same = Site("c", 46.0, 10.0, 10.0)
     assert same.validate() is same  # in range: unchanged
+
+
+def test_to_dataframe_has_one_row_per_link_with_the_record_figures(ridge):
+    a = [Site("a", 46.0, 10.01, 10), Site("a", 46.02, 10.01, 10)]
+    b = [Site("far", 47.0, 11.0, 10), Site("b", 46.02, 10.09, 10)]
+    batch = analyse_links(ridge, a, b, RADIO)
+    df = batch.to_dataframe()
+    assert list(df["name"]) == list(batch.names) and len(df) == 2
+    assert "outside" in df["error"][0] and df["error"].isna()[1]
+    assert np.isnan(df["fade_margin_db"][0]) and not df["meets_criterion"][0]
+    r = batch.record(1)
+    assert df["distance_km"][1] == r["distance_km"]
+    assert df["fade_margin_db"][1] == r["budget"]["fade_margin_db"]
+    assert df["diffraction_loss_db"][1] == r["loss_db"]["diffraction"]
+    assert df["worst_f1_fraction_worst_k"][1] == r["worst_case"]["clearance"]["worst_f1_fraction"]
+    assert bool(df["meets_criterion"][1]) == r["meets_criterion"]
+
+
+def test_repr_is_one_short_line(ridge):
+    batch = analyse_links(ridge, [Site("a", 46.0, 10.01, 10)] * 3, [Site("b", 46.02, 10.02, 10)] * 3, RADIO)
+    text = repr(batch)
+    assert "\n" not in text and len(text) < 200
+    assert "3 links" in text and "3 meet the criterion" in text and "0 not profiled" in text
+
+
+def test_nodata_error_names_the_argument_and_the_cli_its_flag(raster_factory):
+    from profiler.cli.options import flag_form
+
+    arr = np.full((100, 100), 50.0, dtype="float32")
+    arr[:, 50] = -9999
+    m = ElevationModel([raster_factory("h.tif", arr, nodata=-9999.0, transform=from_origin(10.0, 46.05, 0.0005, 0.0005))])
+    with pytest.raises(DataError) as info:
+        analyse_link(m, Site("a", 46.02, 10.01, 10), Site("b", 46.02, 10.04, 10), RADIO)
+    assert info.value.parameter == "nodata_fill_m"
+    assert "pass nodata_fill_m=HEIGHT" in str(info.value) and "--" not in str(info.value)
+    assert "pass --nodata-fill-m HEIGHT" in info.value.render(flag_form)
+    batch = analyse_links(m, [Site("a", 46.02, 10.01, 10)], [Site("b", 46.02, 10.04, 10)], RADIO)
+    assert "pass --nodata-fill-m HEIGHT" in batch.record(0)["error"]  # the record keeps its wording

@@ -240,7 +240,7 @@ def test_invalid_geometry_is_refused_naming_the_feature(tmp_path):
         (["tall"], "is not a number"),
         ([-3.0], "negative height"),
         ([None], "has no height"),
-        ([1500.0], "--top-field"),
+        ([1500.0], "name the attribute with top_field instead"),
     ],
 )
 def test_bad_heights_are_refused(tmp_path, values, message):
@@ -288,3 +288,15 @@ def test_surface_in_another_vertical_datum_is_refused(tmp_path):
     with ElevationModel([dtm]) as model, ElevationModel([dsm]) as surface:
         with pytest.raises(DataError, match="one vertical datum"):
             _run(model, Surroundings(surface=surface))
+
+
+def test_clutter_kinds_have_one_definition():
+    from profiler.clutter import ClutterKind
+    from profiler.obstructions import KIND_CODES
+    from profiler.profile import CLUTTER_KINDS
+    from profiler.sheets.content import CLUTTER_KINDS as LEGEND
+
+    assert CLUTTER_KINDS == {0: "none", 1: "building", 2: "trees", 3: "surface model"}
+    assert KIND_CODES == {"building": 1, "trees": 2, "surface model": 3}
+    assert LEGEND == {1: "buildings", 2: "trees", 3: "surface model"}
+    assert all(ClutterKind(code).label == word for code, word in CLUTTER_KINDS.items())

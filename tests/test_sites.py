@@ -145,7 +145,7 @@ def test_tab_separated_txt_is_sniffed(tmp_path):
 def test_truncated_column_is_reported_not_defaulted(tmp_path):
     p = tmp_path / "cut.csv"
     p.write_text("name,lat,lon,antenna_ag\nA,46.1,10.1,25\nB,46.2,10.2,30\n")
-    with pytest.raises(InputError, match="'antenna_ag' looks like one.*--agl-col antenna_ag"):
+    with pytest.raises(InputError, match="'antenna_ag' looks like one.*agl_col=antenna_ag"):
         read_sites(p)
     sites, _ = read_sites(p, agl_col="antenna_ag")
     assert sites.antenna_agl_m.tolist() == [25.0, 30.0]
@@ -160,8 +160,9 @@ def test_columns_say_where_each_role_came_from(tmp_path):
     assert "antenna height from default 10 m for every site (no height column)" in text
     sites, _ = read_sites(p, default_agl_m=7.0)
     assert "--agl-m 7 m for every site" in sites.describe_columns()
-    with pytest.raises(InputError, match="--agl-m"):
+    with pytest.raises(InputError, match="default_agl_m: antenna height") as info:
         read_sites(p, default_agl_m=-5.0)
+    assert info.value.parameter == "default_agl_m"
 
 
 def test_longitudes_in_0_360_are_folded_and_heights_bounded(tmp_path):

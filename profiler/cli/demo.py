@@ -8,7 +8,9 @@ from pathlib import Path
 import click
 
 from ..demo_files import demo_path
-from .options import friendly_errors
+from ..errors import DataFileError
+from .link import run_link
+from .options import friendly_errors, resolve_link
 
 __all__ = ["demo", "demo_link_files", "DEMO_DIR"]
 
@@ -27,10 +29,7 @@ def demo_link_files() -> list[Path]:
 @friendly_errors
 def demo(as_json: bool) -> None:
     """Analyse the demo links on the invented demo terrain (no data needed)."""
-    from ..errors import DataFileError
-    from ..io.report import format_link_summary
-    from .link import run_link
-    from .options import resolve_link
+    from ..io.report import format_link_summary  # lazy: brings numpy; the CLI's import stays light
 
     files = demo_link_files()
     if not files:

@@ -6,14 +6,16 @@ import json
 
 import click
 
-from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
+from ..io.linkfile import read_link_file
+from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data, resolve_link
+from .screen import gain_warning_text
 
 __all__ = ["link", "run_link"]
 
 
 def run_link(resolved) -> dict:
     """Analyse a resolved link and return its JSON record (vertical datum named as known)."""
-    from ..vertical import apply_datum_name
+    from ..vertical import apply_datum_name  # lazy: brings numpy; the CLI's import stays light
 
     with opened_link_data(resolved) as (model, surroundings):
         record = analyse_resolved(resolved, model, surroundings).record(0)
@@ -25,9 +27,6 @@ def run_link(resolved) -> dict:
 
 def default_gain_warning(link_file: str | None, opts: dict) -> str | None:
     """Warning for antenna gains given neither as flags nor in the link file (0 dBi default), else None."""
-    from ..io.linkfile import read_link_file
-    from .screen import gain_warning_text
-
     section = read_link_file(link_file).radio if link_file else {}
     missing = [t for t in ("a", "b") if opts.get(f"gain_{t}_dbi") is None and f"gain_{t}_dbi" not in section]
     return gain_warning_text(missing, "--gain-a-dbi/--gain-b-dbi or [radio] gain_a_dbi/gain_b_dbi") if missing else None
@@ -43,8 +42,7 @@ def link(link_file: str | None, as_json: bool, **opts) -> None:
 
     LINK_FILE is an optional TOML link file; flags override its values.
     """
-    from ..io.report import format_link_summary
-    from .options import resolve_link
+    from ..io.report import format_link_summary  # lazy: brings numpy; the CLI's import stays light
 
     resolved = resolve_link(link_file, opts)
     record = run_link(resolved)

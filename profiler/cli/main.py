@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import contextlib
-import sys
 import warnings
 from typing import Iterator
 
@@ -13,6 +12,7 @@ from .. import __version__
 from .demo import demo
 from .heights import heights
 from .link import link
+from .options import quiet_broken_pipe
 from .screen import screen
 from .sheet import sheet
 
@@ -71,8 +71,6 @@ cli.add_command(screen)
 
 def main() -> None:
     """Console-script entry point."""
-    from .options import quiet_broken_pipe
-
     try:
         cli(prog_name="terrahop")
     except BrokenPipeError:  # the reader of stdout went away outside a command (e.g. --help | head)

@@ -9,7 +9,8 @@ import click
 
 from ..errors import InputError
 from ..io.columns import Verdict
-from .options import RADIO_FLAGS, analysis_options, climate_options, friendly_errors, terrain_options
+from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
+                      terrain_options)
 
 __all__ = ["screen", "resolve_radio_settings", "format_screen_summary", "format_skipped"]
 
@@ -135,7 +136,7 @@ _SCREEN_RADIO_HELP = {**RADIO_FLAGS, "freq_ghz": "Frequency, GHz (required)."}
 def _screen_radio_options(func):
     for name in reversed(list(_SCREEN_RADIO_HELP)):
         func = click.option(f"--{name.replace('_', '-')}", name, type=float, default=None,
-                            help=_SCREEN_RADIO_HELP[name])(func)
+                            help=_SCREEN_RADIO_HELP[name], cls=DefaultHelpOption)(func)
     return func
 
 

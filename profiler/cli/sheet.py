@@ -9,7 +9,11 @@ from typing import Any
 
 import click
 
-from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
+from ..errors import InputError
+from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
+from .options import (analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
+                      resolve_link)
+from .screen import SHOWN_BAD_ROWS
 
 __all__ = ["sheet", "build_sheet_contents"]
 
@@ -18,7 +22,6 @@ _SUFFIX_FORMATS = {".pdf": "pdf", ".png": "png", ".svg": "svg"}
 
 def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
     from ..sheets.build import sheet_contents
-    from .options import resolve_link
 
     contents: list = []
     checksums: dict[str, str] = {}
@@ -33,12 +36,9 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
 
 def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
                 opts: dict, title: Any) -> list:
-    from ..errors import InputError
-    from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
     from ..validation import same_place_problem
-    from .options import resolve_link
 
     if opts.get("site_a") is not None or opts.get("site_b") is not None:
         raise InputError("--site-a/--site-b cannot be combined with --pairs: the positions come from the table")
@@ -62,7 +62,7 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
                 if gap is not None:
                     raise InputError(f"row {r.row}: {gap}")
             except InputError as exc:
-                problem = str(exc)
+                problem = exc.render(flag_form)
         if problem is not None:
             skipped.append(f"{pairs}: {problem}")
             continue
@@ -101,8 +101,6 @@ def _vertical_crs(resolved: Any) -> str | None:
 
 def _echo_skipped(reasons: list[str]) -> None:
     """Why pairs were left out, on stderr: the first 20, then a count."""
-    from .screen import SHOWN_BAD_ROWS
-
     for reason in reasons[:SHOWN_BAD_ROWS]:
         click.echo(f"skipped: {reason}", err=True)
     if len(reasons) > SHOWN_BAD_ROWS:
@@ -110,8 +108,6 @@ def _echo_skipped(reasons: list[str]) -> None:
 
 
 def _agl(flag: float | None, column: float | None) -> float:
-    from ..errors import InputError
-
     if flag is not None:
         return float(flag)
     if column is None:
@@ -123,8 +119,6 @@ def _agl(flag: float | None, column: float | None) -> float:
 def build_sheet_contents(link_files: tuple[str, ...], opts: dict, title: Any, *, pairs: str | None = None,
                          layer: str | None = None, rows: str | None = None, best: int | None = None) -> list:
     """Sheet contents for link files (or flags alone), or for pairs picked from a table; numbered 1..N."""
-    from ..errors import InputError
-
     if pairs:
         if len(link_files) > 1:
             raise InputError("with --pairs give at most one link file (its terrain, radio and analysis "
@@ -139,8 +133,6 @@ def build_sheet_contents(link_files: tuple[str, ...], opts: dict, title: Any, *,
 
 
 def _output_format(out: str, fmt: str | None) -> str:
-    from ..errors import InputError
-
     if fmt:
         return fmt.lower()
     suffix = Path(out).suffix.lower()
@@ -186,7 +178,8 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     With --pairs TABLE the sites come from a table of pairs; at most one link
     file then supplies terrain, radio and analysis settings for every pair.
     """
-    from ..sheets import TitleBlock, write_sheets
+    from ..sheets import TitleBlock, write_sheets  # lazy: numpy and the sheet modules
+    from ..sheets.page import continuation_pages
 
     fmt = _output_format(out, fmt)
     title = TitleBlock(
@@ -195,8 +188,6 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     )
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
-    from ..sheets.page import continuation_pages
-
     n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
     pages = f"{n_pages} page{'s' if n_pages != 1 else ''}"
     if fmt == "pdf":

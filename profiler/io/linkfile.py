@@ -53,7 +53,10 @@ from typing import Any
 
 from ..errors import DataFileError, InputError
 
-__all__ = ["LinkSpec", "read_link_file", "SECTION_KEYS"]
+__all__ = ["LinkSpec", "read_link_file", "SECTION_KEYS", "VERTICAL_UNIT_CHOICES"]
+
+#: Vertical units accepted for [terrain] vertical_unit and --vertical-unit.
+VERTICAL_UNIT_CHOICES = ("m", "ft", "us-ft")
 
 SECTION_KEYS: dict[str, set[str]] = {
     "terrain": {"rasters", "vertical_unit", "nodata_fill_m", "surface", "vertical_crs"},

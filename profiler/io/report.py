@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from ..vertical import datum_of_record
+
 __all__ = ["format_link_summary"]
 
 
@@ -118,8 +120,6 @@ def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
         return f"{r['name']}: cannot analyse: {r['error']}"
-    from ..vertical import datum_of_record
-
     a, b = r["sites"]["a"], r["sites"]["b"]
     radio = r["inputs"]["radio"]
     datum = datum_of_record(r)
@@ -137,7 +137,7 @@ def format_link_summary(r: dict) -> str:
         lines += _mount_lines(s)
     lines += [
         f"heights            metres {datum.phrase()}"
-        + ("" if datum.source != "unknown" else "; name it with --vertical-crs"),
+        + ("" if datum.known else "; name it with --vertical-crs"),
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
         f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
         f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "

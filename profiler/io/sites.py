@@ -25,7 +25,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..errors import DataFileError, InputError
+from ..errors import PARAMETER, DataFileError, InputError
 from ..validation import check_number, check_numbers, normalise_lon, position_problems
 
 __all__ = ["SiteTable", "BadRow", "read_sites", "read_name_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
@@ -45,9 +45,6 @@ DEFAULT_COLUMNS: dict[str, tuple[str, ...]] = {
 #: Antenna height above ground used for every site when the file has no height column, m.
 DEFAULT_AGL_M = 10.0
 
-#: The option naming the column of each role (for messages).
-_ROLE_OPTIONS = {"name": "--name-col", "lat": "--lat-col", "lon": "--lon-col", "agl": "--agl-col",
-                 "gain": "--gain-col", "max_mast": "--max-mast-col"}
 _ROLE_WORDS = {"name": "name", "lat": "latitude", "lon": "longitude", "agl": "antenna height",
                "gain": "antenna gain", "max_mast": "mast limit"}
 
@@ -129,14 +126,15 @@ def _find(columns: Sequence[str], role: str, given: str | None, source: str, req
         raise InputError(
             f"{source}: no column named {' or '.join(DEFAULT_COLUMNS[role][:2])} for the site "
             f"{_ROLE_WORDS[role]}, but column {near!r} looks like one (Shapefiles cut names at 10 characters); "
-            f"name it with {_ROLE_OPTIONS[role]} {near}"
-            + (", or give --agl-m to use one height for every site" if role == "agl" else "")
+            f"name it with {PARAMETER}"
+            + (", or give --agl-m to use one height for every site" if role == "agl" else ""),
+            parameter=f"{role}_col", value_word=near,
         )
     if required:
         raise InputError(
             f"{source}: cannot tell which column holds the site {role}; tried "
-            f"{', '.join(DEFAULT_COLUMNS[role])}; name it with --{role}-col "
-            f"(columns are: {', '.join(columns)})"
+            f"{', '.join(DEFAULT_COLUMNS[role])}; name it with {PARAMETER} "
+            f"(columns are: {', '.join(columns)})", parameter=f"{role}_col",
         )
     return None
 
@@ -206,19 +204,82 @@ def read_sites(
     ``default_agl_m`` (None: :data:`DEFAULT_AGL_M`).  Returns the usable
     sites and the skipped rows; ``SiteTable.columns`` says where each role came from.
     """
-    import pandas as pd
-
-    if default_agl_m is not None:
-        check_number(default_agl_m, "antenna_agl_m", "--agl-m")
+    _check_default_agl(default_agl_m)
     p = Path(path)
     source = p.name
     if not p.exists():
         raise DataFileError(f"sites file not found: {p}")
-    geometry = None
-    decimal_comma = False
+    frame, geometry, rows, decimal_comma = _read_frame(p, layer)
+    columns = [str(c) for c in frame.columns]
+    frame.columns = columns
+    name_c = _find(columns, "name", name_col, source, required=True)
+    agl_c = _find(columns, "agl", agl_col, source, required=False, default_given=default_agl_m is not None)
+    gain_c = _find(columns, "gain", gain_col, source, required=False)
+    mast_c = _find(columns, "max_mast", max_mast_col, source, required=False)
+    n = len(frame)
+    reasons: list[str | None] = [None] * n
+
+    def flag(mask: np.ndarray, reason_of) -> None:  # the first reason found for a row is kept
+        for k in np.flatnonzero(mask):
+            if reasons[k] is None:
+                reasons[k] = reason_of(k)
+
+    where = {"name": name_c}
+    if geometry is None:
+        lat_c = _find(columns, "lat", lat_col, source, required=True)
+        lon_c = _find(columns, "lon", lon_col, source, required=True)
+        lat, lon = _csv_positions(frame, lat_c, lon_c, decimal_comma, flag)
+        used = {name_c, lat_c, lon_c}
+        where.update(lat=lat_c, lon=lon_c)
+    else:
+        lat, lon = _layer_positions(geometry, flag)
+        used = {name_c}
+        where.update(lat="the point geometry", lon="the point geometry")
+    # One position rule for every entry point (profiler.validation); 0..360 folded to -180..180.
+    position = position_problems(lat, lon)
+    flag(np.isfinite(lat) & np.isfinite(lon) & np.array([r is not None for r in position], dtype=bool),
+         lambda k: position[k])
+    lon = normalise_lon(lon)
+    names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
+    flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
+    agl, where["agl"] = _antenna_heights(frame, agl_c, default_agl_m, decimal_comma, flag)
+    used |= {agl_c} - {None}
+    gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
+    mast = _optional(frame, mast_c, "maximum mast height", "max_mast_m", decimal_comma, flag)
+    for role, column in (("gain", gain_c), ("max_mast", mast_c)):
+        if column is not None:
+            used.add(column)
+            where[role] = column
+    _flag_duplicates(names, rows, reasons)
+    bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reasons[k])
+           for k in range(n) if reasons[k] is not None]
+    keep = np.array([r is None for r in reasons], dtype=bool)
+    extra_cols = [c for c in columns if c not in used]
+    extra = frame.loc[keep, extra_cols].reset_index(drop=True)
+    table = SiteTable(
+        source=source, names=np.asarray(names[keep], dtype=object), lat_deg=lat[keep], lon_deg=lon[keep],
+        antenna_agl_m=agl[keep], gain_dbi=None if gain is None else gain[keep],
+        max_mast_m=None if mast is None else mast[keep], rows=rows[keep], extra=extra, columns=where,
+    )
+    return table, bad
+
+
+def _check_default_agl(default_agl_m: float | None) -> None:
+    """InputError (naming ``default_agl_m``) unless the one height for every site is in range."""
+    if default_agl_m is None:
+        return
+    try:
+        check_number(default_agl_m, "antenna_agl_m", PARAMETER)
+    except InputError as exc:
+        raise InputError(exc.template, parameter="default_agl_m") from None
+
+
+def _read_frame(p: Path, layer: str | None) -> tuple[Any, Any, np.ndarray, bool]:
+    """(table of text, WGS84 point geometry or None, file row of each record, decimal commas) of a sites file."""
+    import pandas as pd
+
     if p.suffix.lower() in CSV_SUFFIXES:
         sep = _sniff_separator(p)
-        decimal_comma = sep != ","
         _check_field_counts(p, sep)
         try:
             frame = pd.read_csv(p, dtype=str, keep_default_na=False, sep=sep, skipinitialspace=True,
@@ -229,86 +290,63 @@ def read_sites(
             raise InputError(f"{p}: not a readable CSV table ({str(exc).strip()}){hint}") from None
         except pd.errors.EmptyDataError:
             raise InputError(f"{p}: the sites file is empty") from None
-        rows = np.arange(len(frame)) + 2  # header on line 1
-    else:
-        import geopandas as gpd
+        return frame, None, np.arange(len(frame)) + 2, sep != ","  # header on line 1
+    import geopandas as gpd
 
-        try:
-            frame = gpd.read_file(p, layer=layer)
-        except Exception as exc:  # pyogrio raises its own error types
-            raise DataFileError(f"cannot read {p} as a point layer: {exc}") from None
-        if frame.crs is None:
-            raise InputError(f"{p}: the layer has no coordinate reference system; assign one and try again")
-        geometry = frame.geometry.to_crs("EPSG:4326")
-        frame = pd.DataFrame(frame.drop(columns=frame.geometry.name))
-        rows = np.arange(len(frame)) + 1
-    columns = [str(c) for c in frame.columns]
-    frame.columns = columns
-    name_c = _find(columns, "name", name_col, source, required=True)
-    agl_c = _find(columns, "agl", agl_col, source, required=False, default_given=default_agl_m is not None)
-    gain_c = _find(columns, "gain", gain_col, source, required=False)
-    mast_c = _find(columns, "max_mast", max_mast_col, source, required=False)
+    try:
+        frame = gpd.read_file(p, layer=layer)
+    except Exception as exc:  # pyogrio raises its own error types
+        raise DataFileError(f"cannot read {p} as a point layer: {exc}") from None
+    if frame.crs is None:
+        raise InputError(f"{p}: the layer has no coordinate reference system; assign one and try again")
+    geometry = frame.geometry.to_crs("EPSG:4326")
+    frame = pd.DataFrame(frame.drop(columns=frame.geometry.name))
+    return frame, geometry, np.arange(len(frame)) + 1, False
+
+
+def _csv_positions(frame: Any, lat_c: str, lon_c: str, decimal_comma: bool, flag) -> tuple[np.ndarray, np.ndarray]:
+    """Latitudes and longitudes (degrees) from two text columns; rows that are not numbers flagged."""
+    lat = _numbers(frame[lat_c], decimal_comma)
+    lon = _numbers(frame[lon_c], decimal_comma)
+    raw_lat, raw_lon = frame[lat_c].to_numpy(), frame[lon_c].to_numpy()
+    flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
+    flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
+    return lat, lon
+
+
+def _layer_positions(geometry: Any, flag) -> tuple[np.ndarray, np.ndarray]:
+    """Latitudes and longitudes (degrees) of point geometries; empty and non-point features flagged."""
+    n = len(geometry)
+    kinds = geometry.geom_type.to_numpy()
+    empty = geometry.isna().to_numpy() | geometry.is_empty.to_numpy()
+    flag(empty, lambda k: "has no geometry")
+    flag(~empty & (kinds != "Point"), lambda k: f"geometry is a {kinds[k]}, not a point")
+    point = ~empty & (kinds == "Point")
+    lat = np.full(n, np.nan)
+    lon = np.full(n, np.nan)
+    lat[point] = geometry[point].y.to_numpy()
+    lon[point] = geometry[point].x.to_numpy()
+    return lat, lon
+
+
+def _antenna_heights(frame: Any, agl_c: str | None, default_agl_m: float | None, decimal_comma: bool,
+                     flag) -> tuple[np.ndarray, str]:
+    """(antenna heights above ground m, where they came from): a column, or one height for every site."""
     n = len(frame)
-    reasons: list[str | None] = [None] * n
-
-    def flag(mask: np.ndarray, reason_of) -> None:
-        for k in np.flatnonzero(mask):
-            if reasons[k] is None:
-                reasons[k] = reason_of(k)
-
-    if geometry is None:
-        lat_c = _find(columns, "lat", lat_col, source, required=True)
-        lon_c = _find(columns, "lon", lon_col, source, required=True)
-        lat = _numbers(frame[lat_c], decimal_comma)
-        lon = _numbers(frame[lon_c], decimal_comma)
-        raw_lat, raw_lon = frame[lat_c].to_numpy(), frame[lon_c].to_numpy()
-        flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
-        flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
-        used = {name_c, lat_c, lon_c}
-    else:
-        kinds = geometry.geom_type.to_numpy()
-        empty = geometry.isna().to_numpy() | geometry.is_empty.to_numpy()
-        flag(empty, lambda k: "has no geometry")
-        flag(~empty & (kinds != "Point"), lambda k: f"geometry is a {kinds[k]}, not a point")
-        point = ~empty & (kinds == "Point")
-        lat = np.full(n, np.nan)
-        lon = np.full(n, np.nan)
-        lat[point] = geometry[point].y.to_numpy()
-        lon[point] = geometry[point].x.to_numpy()
-        used = {name_c}
-    where = {"name": name_c}
-    if geometry is None:
-        where.update(lat=lat_c, lon=lon_c)
-    else:
-        where.update(lat="the point geometry", lon="the point geometry")
-    # One position rule for every entry point (profiler.validation); 0..360 folded to -180..180.
-    position = position_problems(lat, lon)
-    flag(np.isfinite(lat) & np.isfinite(lon) & np.array([r is not None for r in position], dtype=bool),
-         lambda k: position[k])
-    lon = normalise_lon(lon)
-    names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
-    flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
     if agl_c is not None:
         agl = _numbers(frame[agl_c], decimal_comma)
         raw = frame[agl_c].to_numpy()
         flag(~np.isfinite(agl), lambda k: f"antenna height {raw[k]!r} is not a number")
         agl_range = check_numbers(np.where(np.isfinite(agl), agl, 0.0), "antenna_agl_m")
         flag(np.array([r is not None for r in agl_range], dtype=bool), lambda k: agl_range[k])
-        used.add(agl_c)
-        where["agl"] = agl_c
-    else:
-        height = DEFAULT_AGL_M if default_agl_m is None else float(default_agl_m)
-        agl = np.full(n, height)
-        given = "--agl-m" if default_agl_m is not None else "default"
-        where["agl"] = f"{given} {height:g} m for every site (no height column)"
-    gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
-    if gain_c is not None:
-        used.add(gain_c)
-        where["gain"] = gain_c
-    mast = _optional(frame, mast_c, "maximum mast height", "max_mast_m", decimal_comma, flag)
-    if mast_c is not None:
-        used.add(mast_c)
-        where["max_mast"] = mast_c
+        return agl, agl_c
+    height = DEFAULT_AGL_M if default_agl_m is None else float(default_agl_m)
+    given = "--agl-m" if default_agl_m is not None else "default"
+    return np.full(n, height), f"{given} {height:g} m for every site (no height column)"
+
+
+def _flag_duplicates(names: np.ndarray, rows: np.ndarray, reasons: list[str | None]) -> None:
+    """Mark each later row whose name an earlier usable row already has."""
     first_row: dict[str, int] = {}
     for k, nm in enumerate(names):
         if reasons[k] is not None:
@@ -317,24 +355,6 @@ def read_sites(
             reasons[k] = f"duplicate name (first on row {first_row[nm]})"
         else:
             first_row[nm] = int(rows[k])
-    bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reasons[k])
-           for k in range(n) if reasons[k] is not None]
-    keep = np.array([r is None for r in reasons], dtype=bool)
-    extra_cols = [c for c in columns if c not in used]
-    extra = frame.loc[keep, extra_cols].reset_index(drop=True)
-    table = SiteTable(
-        source=source,
-        names=np.asarray(names[keep], dtype=object),
-        lat_deg=lat[keep],
-        lon_deg=lon[keep],
-        antenna_agl_m=agl[keep],
-        gain_dbi=None if gain is None else gain[keep],
-        max_mast_m=None if mast is None else mast[keep],
-        rows=rows[keep],
-        extra=extra,
-        columns=where,
-    )
-    return table, bad
 
 
 def _check_field_counts(p: Path, sep: str) -> None:

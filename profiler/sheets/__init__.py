@@ -7,6 +7,7 @@ inside the functions that use it.
 
 from __future__ import annotations
 
+from .build import sheet_contents
 from .content import SheetContent, TitleBlock
 from .page import CAUTION, FORMATS, sheet_paths, write_sheets
 from .style import PAGE_SIZES_MM
@@ -14,9 +15,3 @@ from .style import PAGE_SIZES_MM
 __all__ = ["SheetContent", "TitleBlock", "CAUTION", "FORMATS", "PAGE_SIZES_MM", "sheet_paths", "write_sheets",
            "sheet_contents"]
 
-
-def sheet_contents(*args, **kwargs):
-    """See :func:`profiler.sheets.build.sheet_contents`."""
-    from .build import sheet_contents as _impl
-
-    return _impl(*args, **kwargs)

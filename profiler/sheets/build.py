@@ -10,7 +10,9 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from ..vertical import apply_datum_name
 from .content import SheetContent, TitleBlock, profile_drawing, source_provenance, surroundings_provenance
+from .minimap import read_map_grid
 
 __all__ = ["sheet_contents", "MAP_ASPECT"]
 
@@ -36,9 +38,6 @@ def sheet_contents(
     (``--vertical-crs``).  Sheet numbers are filled in by the caller once all
     links are known.
     """
-    from ..vertical import apply_datum_name
-    from .minimap import read_map_grid
-
     checksums = {} if checksums is None else checksums
     sources = []
     for s in model.sources:

@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 
 from .. import __version__
+from ..clutter import ClutterKind
 
 __all__ = [
     "CLUTTER_KINDS",
@@ -28,7 +29,7 @@ __all__ = [
 
 #: Kinds of obstruction a profile may carry per sample (``Profiles.clutter_kind``):
 #: code -> plain name used in the legend.  0 means none.
-CLUTTER_KINDS: dict[int, str] = {1: "buildings", 2: "trees", 3: "surface model"}
+CLUTTER_KINDS: dict[int, str] = {int(k): k.legend for k in ClutterKind if k is not ClutterKind.NONE}
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,7 @@ from typing import Any
 
 import numpy as np
 
+from ..geometry import fresnel_radius_m
 from .content import CLUTTER_KINDS, ProfileDrawing
 from .style import COLOURS
 from .table import DISTANCE_UNITS, HEIGHT_UNITS, distance_text, format_k, height_text
@@ -82,76 +83,130 @@ def profile_limits_m(d: ProfileDrawing) -> tuple[float, float, float]:
     return bottom, top, span
 
 
+@dataclass
+class _Frame:
+    """The drawing's arrays in display units (distance unit along, height unit up) and its type scale."""
+
+    u: float  # display height units per metre
+    ts: float  # line and type scale
+    fs: float  # base font size, points
+    x: np.ndarray  # sample distances
+    base: np.ndarray  # curved datum line at the design k
+    ground: np.ndarray
+    surface: np.ndarray  # ground plus clutter, design k
+    surface_w: np.ndarray  # ground plus clutter, worst-case k
+    line: np.ndarray
+    xs: np.ndarray  # dense grid for the ray and the Fresnel zone
+    line_s: np.ndarray
+    f1_s: np.ndarray
+    kd: str
+    kw: str
+
+
+def _frame(d: ProfileDrawing, units: str, type_scale: float) -> _Frame:
+    """Heights with the earth bulge in display units; the ray and F1 on a dense grid."""
+    u = 1.0 / HEIGHT_UNITS[units]
+    dist_per_m = DISTANCE_UNITS[units][1]
+    x = d.distance_m / dist_per_m
+    bottom_m, _, _ = profile_limits_m(d)
+    line = d.line_m * u
+    # The ray and the Fresnel zone are smooth: draw them on a dense grid, not only at terrain samples.
+    xs = np.linspace(0.0, x[-1], max(600, len(x)))
+    line_s = np.interp(xs, x, line)
+    if np.isfinite(d.freq_ghz):
+        f1_s = fresnel_radius_m(xs * dist_per_m, np.maximum(d.length_m - xs * dist_per_m, 0.0), d.freq_ghz) * u
+    else:
+        f1_s = np.interp(xs, x, d.f1_m * u)
+    return _Frame(
+        u=u, ts=type_scale, fs=7.0 * type_scale, x=x, base=(bottom_m + d.bulge_m) * u,
+        ground=(d.ground_m + d.bulge_m) * u, surface=(d.surface_m + d.bulge_m) * u,
+        surface_w=(d.surface_m + d.bulge_worst_m) * u, line=line, xs=xs, line_s=line_s, f1_s=f1_s,
+        kd=format_k(d.k), kw=format_k(d.k_worst),
+    )
+
+
 def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
                  type_scale: float = 1.0, datum_label: str = "") -> ProfileArtists:
     """Draw terrain, clutter, ray, Fresnel zone, masts and the worst point on ``ax``.
 
     Heights are shown in ``units`` ("m" or "ft"); distances from site a in km (or miles with "ft").
     """
+    f = _frame(d, units, type_scale)
+    legend: list = []
+    lines: dict = {}
+    _draw_terrain(ax, f, legend, lines)
+    clutter_artists = _draw_clutter(ax, d, f, legend)
+    _draw_worst_surface(ax, d, f, legend, lines)
+    _draw_fresnel(ax, d, f, legend, lines)
+    mast_labels, mast_tops = _draw_masts(ax, d, f, record, units, legend)
+    marker, worst_label = _draw_worst_point(ax, d, f, record, units, legend)
+    bottom_m, top_m, _ = profile_limits_m(d)
+    j = d.worst_index
+    ax.set_xlim(0.0, f.x[-1])
+    ax.set_ylim(bottom_m * f.u, top_m * f.u)
+    keep_out = _KeepOut(f.xs, f.line_s, f.f1_s, f.x, np.maximum(f.surface, f.surface_w), worst_label,
+                        (f.x[j], min(f.surface[j], f.line[j]), max(f.surface[j], f.line[j])))
+    _place_mast_labels(ax, mast_labels, mast_tops, keep_out)
+    _style_axes(ax, f, units, datum_label)
+    return ProfileArtists(legend, marker, worst_label, clutter_artists, (bottom_m * f.u, top_m * f.u), lines,
+                          mast_labels)
+
+
+def _draw_terrain(ax: Any, f: _Frame, legend: list, lines: dict) -> None:
+    """Terrain at the design k, filled down to the curved base line."""
+    from matplotlib.patches import Patch
+
+    ax.fill_between(f.x, f.base, f.ground, facecolor=COLOURS["ground_fill"], edgecolor="none", zorder=1)
+    lines["ground"], = ax.plot(f.x, f.ground, color=COLOURS["ground_edge"], lw=0.9 * f.ts, zorder=3)
+    lines["base"], = ax.plot(f.x, f.base, color=COLOURS["datum"], lw=0.7 * f.ts, zorder=3)
+    legend.append(Patch(facecolor=COLOURS["ground_fill"], edgecolor=COLOURS["ground_edge"], lw=0.8 * f.ts,
+                        label=f"terrain at design k = {f.kd}"))
+
+
+def _draw_clutter(ax: Any, d: ProfileDrawing, f: _Frame, legend: list) -> dict:
+    """Obstructions (buildings, trees, surface model) on top of the ground, one fill per kind."""
+    from matplotlib.patches import Patch
+
+    clutter_artists: dict = {}
+    has_clutter = d.clutter_m > 0
+    if not has_clutter.any():
+        return clutter_artists
+    if d.clutter_kind is None:
+        kinds = {"clutter": has_clutter}
+    else:
+        kinds = {}
+        for code in np.unique(d.clutter_kind[has_clutter]):
+            name = CLUTTER_KINDS.get(int(code), "clutter")
+            kinds[name] = kinds.get(name, np.zeros_like(has_clutter)) | (has_clutter & (d.clutter_kind == code))
+    for name, mask in kinds.items():
+        style = _CLUTTER_STYLE.get(name, _CLUTTER_STYLE["clutter"])
+        idx, zero = wall_samples(mask)
+        top = np.where(zero, f.ground[idx], f.surface[idx])
+        clutter_artists[name] = ax.fill_between(f.x[idx], f.ground[idx], top, where=mask[idx], zorder=2, **style)
+        label = "obstructions" if name == "clutter" else name
+        legend.append(Patch(label=label, **{k: v for k, v in style.items() if k != "linewidth"}))
+    return clutter_artists
+
+
+def _draw_worst_surface(ax: Any, d: ProfileDrawing, f: _Frame, legend: list, lines: dict) -> None:
+    """The worst-case surface, with the same vertical walls at obstruction edges."""
+    from matplotlib.lines import Line2D
+
+    idx, zero = wall_samples(d.clutter_m > 0)
+    surface_w_drawn = np.where(zero, ((d.ground_m + d.bulge_worst_m) * f.u)[idx], f.surface_w[idx])
+    lines["worst_k"], = ax.plot(f.x[idx], surface_w_drawn, color=COLOURS["worst_k"], lw=1.0 * f.ts,
+                                ls=(0, (4, 2)), zorder=4)
+    legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0 * f.ts, ls=(0, (4, 2)),
+                         label=f"terrain at worst-case k = {f.kw}"))
+    legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7 * f.ts, label=f"earth curvature, k = {f.kd}"))
+
+
+def _draw_fresnel(ax: Any, d: ProfileDrawing, f: _Frame, legend: list, lines: dict) -> None:
+    """First Fresnel zone around the straight line, the criterion boundary and the line itself."""
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
-    fs = 7.0 * type_scale
-    ts = type_scale
-    u = 1.0 / HEIGHT_UNITS[units]
-    dist_name, dist_per_m = DISTANCE_UNITS[units]
-    x = d.distance_m / dist_per_m
-    bottom_m, top_m, _ = profile_limits_m(d)
-    base = (bottom_m + d.bulge_m) * u
-    ground = (d.ground_m + d.bulge_m) * u
-    surface = (d.surface_m + d.bulge_m) * u
-    surface_w = (d.surface_m + d.bulge_worst_m) * u
-    line = d.line_m * u
-    f1 = d.f1_m * u
-    # The ray and the Fresnel zone are smooth: draw them on a dense grid, not only at terrain samples.
-    xs = np.linspace(0.0, x[-1], max(600, len(x)))
-    line_s = np.interp(xs, x, line)
-    if np.isfinite(d.freq_ghz):
-        from ..geometry import fresnel_radius_m
-
-        f1_s = fresnel_radius_m(xs * dist_per_m, np.maximum(d.length_m - xs * dist_per_m, 0.0), d.freq_ghz) * u
-    else:
-        f1_s = np.interp(xs, x, f1)
-    kd, kw = format_k(d.k), format_k(d.k_worst)
-    legend: list = []
-
-    # Terrain at the design k, filled down to the curved base line.
-    ax.fill_between(x, base, ground, facecolor=COLOURS["ground_fill"], edgecolor="none", zorder=1)
-    lines: dict = {}
-    lines["ground"], = ax.plot(x, ground, color=COLOURS["ground_edge"], lw=0.9 * ts, zorder=3)
-    lines["base"], = ax.plot(x, base, color=COLOURS["datum"], lw=0.7 * ts, zorder=3)
-    legend.append(Patch(facecolor=COLOURS["ground_fill"], edgecolor=COLOURS["ground_edge"], lw=0.8 * ts,
-                        label=f"terrain at design k = {kd}"))
-
-    # Obstructions (buildings, trees, surface model) on top of the ground.
-    clutter_artists: dict = {}
-    has_clutter = d.clutter_m > 0
-    if has_clutter.any():
-        if d.clutter_kind is None:
-            kinds = {"clutter": has_clutter}
-        else:
-            kinds = {}
-            for code in np.unique(d.clutter_kind[has_clutter]):
-                name = CLUTTER_KINDS.get(int(code), "clutter")
-                kinds[name] = kinds.get(name, np.zeros_like(has_clutter)) | (has_clutter & (d.clutter_kind == code))
-        for name, mask in kinds.items():
-            style = _CLUTTER_STYLE.get(name, _CLUTTER_STYLE["clutter"])
-            idx, zero = wall_samples(mask)
-            top = np.where(zero, ground[idx], surface[idx])
-            clutter_artists[name] = ax.fill_between(x[idx], ground[idx], top, where=mask[idx], zorder=2, **style)
-            label = "obstructions" if name == "clutter" else name
-            legend.append(Patch(label=label, **{k: v for k, v in style.items() if k != "linewidth"}))
-
-    # The worst-case surface, with the same vertical walls at obstruction edges.
-    idx, zero = wall_samples(has_clutter)
-    surface_w_drawn = np.where(zero, ((d.ground_m + d.bulge_worst_m) * u)[idx], surface_w[idx])
-    lines["worst_k"], = ax.plot(x[idx], surface_w_drawn, color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
-                                zorder=4)
-    legend.append(Line2D([], [], color=COLOURS["worst_k"], lw=1.0 * ts, ls=(0, (4, 2)),
-                         label=f"terrain at worst-case k = {kw}"))
-    legend.append(Line2D([], [], color=COLOURS["datum"], lw=0.7 * ts, label=f"earth curvature, k = {kd}"))
-
-    # First Fresnel zone around the straight line, and the criterion boundary.
+    ts, xs, line_s, f1_s = f.ts, f.xs, f.line_s, f.f1_s
     ax.fill_between(xs, line_s - f1_s, line_s + f1_s, facecolor=COLOURS["fresnel"], alpha=0.22, lw=0 * ts, zorder=2.5)
     lines["f1_upper"], = ax.plot(xs, line_s + f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
     lines["f1_lower"], = ax.plot(xs, line_s - f1_s, color=COLOURS["fresnel"], lw=0.6 * ts, zorder=4)
@@ -166,7 +221,13 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     lines["line"], = ax.plot(xs, line_s, color=COLOURS["line"], lw=1.4 * ts, zorder=6)
     legend.append(Line2D([], [], color=COLOURS["line"], lw=1.4 * ts, label="line between antenna centres"))
 
-    # Masts, each labelled with its antenna height above ground at mid-height.
+
+def _draw_masts(ax: Any, d: ProfileDrawing, f: _Frame, record: dict, units: str,
+                legend: list) -> tuple[list, list]:
+    """Masts, each labelled with its antenna height above ground (or roof) at mid-height."""
+    from matplotlib.lines import Line2D
+
+    ts, u, x = f.ts, f.u, f.x
     a_rec, b_rec = record["sites"]["a"], record["sites"]["b"]
     mast_labels: list = []
     mast_tops: list = []
@@ -184,14 +245,21 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
         ax.plot([xi], [top], marker="D", ms=4.5 * ts, color=COLOURS["mast"], zorder=8, clip_on=False)
         mast_labels.append(ax.annotate(
             label, xy=(xi, (g + top) / 2), xytext=(dx, 0),
-            textcoords="offset points", ha=ha, va="center", fontsize=fs * 0.95, color=COLOURS["ink"], zorder=9,
+            textcoords="offset points", ha=ha, va="center", fontsize=f.fs * 0.95, color=COLOURS["ink"], zorder=9,
             bbox=dict(boxstyle="square,pad=0.15", fc="white", ec="none", alpha=0.85),
         ))
         mast_tops.append((xi, g, top, dx))
     legend.append(Line2D([], [], color=COLOURS["mast"], lw=2.4 * ts, marker="D", ms=4 * ts,
                          label="mast and antenna"))
+    return mast_labels, mast_tops
 
-    # The worst point at the design k.
+
+def _draw_worst_point(ax: Any, d: ProfileDrawing, f: _Frame, record: dict, units: str,
+                      legend: list) -> tuple[Any, Any]:
+    """The worst point at the design k, its clearance line and its label: (marker, label)."""
+    from matplotlib.lines import Line2D
+
+    ts, x, surface, line = f.ts, f.x, f.surface, f.line
     j = d.worst_index
     c = record["clearance"]
     blocked = not c["line_of_sight"]
@@ -202,7 +270,7 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
                          mfc=COLOURS["worst_point"], mec="white", label="worst point and its clearance"))
     head = "OBSTRUCTED" if blocked else "worst point"
     text = (
-        f"{head} at k = {kd}: {distance_text(c['worst_distance_km'], units)} from a\n"
+        f"{head} at k = {f.kd}: {distance_text(c['worst_distance_km'], units)} from a\n"
         f"clearance {height_text(c['worst_clearance_m'], units, signed=True)} = {c['worst_f1_fraction']:+.2f} F1"
     )
     if blocked:
@@ -211,17 +279,17 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     xa = min(max(x[j] / length, 0.28), 0.72) if length > 0 else 0.5
     worst_label = ax.annotate(
         text, xy=(x[j], max(surface[j], line[j])), xytext=(xa, 0.955), textcoords="axes fraction",
-        ha="center", va="top", fontsize=fs, color=COLOURS["ink"], zorder=10,
+        ha="center", va="top", fontsize=f.fs, color=COLOURS["ink"], zorder=10,
         bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=COLOURS["worst_point"], lw=0.8 * ts),
         arrowprops=dict(arrowstyle="-|>", color=COLOURS["worst_point"], lw=0.8 * ts, shrinkA=0, shrinkB=4),
     )
+    return marker, worst_label
 
-    ax.set_xlim(0.0, length)
-    ax.set_ylim(bottom_m * u, top_m * u)
-    keep_out = _KeepOut(xs, line_s, f1_s, x, np.maximum(surface, surface_w), worst_label,
-                        (x[j], min(surface[j], line[j]), max(surface[j], line[j])))
-    _place_mast_labels(ax, mast_labels, mast_tops, keep_out)
-    ax.set_xlabel(f"Distance from site a, {dist_name}", fontsize=fs * 1.05, labelpad=2)
+
+def _style_axes(ax: Any, f: _Frame, units: str, datum_label: str) -> None:
+    """Axis labels, ticks, grid and spines."""
+    fs, ts = f.fs, f.ts
+    ax.set_xlabel(f"Distance from site a, {DISTANCE_UNITS[units][0]}", fontsize=fs * 1.05, labelpad=2)
     ylabel = f"Elevation, {units}"
     if datum_label:
         ylabel += f" ({datum_label})"
@@ -233,8 +301,6 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     ax.set_axisbelow(True)
     for spine in ax.spines.values():
         spine.set_linewidth(0.7)
-    return ProfileArtists(legend, marker, worst_label, clutter_artists, (bottom_m * u, top_m * u), lines,
-                          mast_labels)
 
 
 @dataclass
@@ -301,38 +367,6 @@ def _place_mast_labels(ax: Any, labels: list, masts: list, keep_out: _KeepOut) -
                 break
         else:
             label.set_visible(False)
-
-
-def _move_off_worst_point(ax: Any, labels: list, masts: list, worst: tuple[float, float, float]) -> None:
-    """Move a mast label that would cover the worst point: mid-mast, else above the antenna, else below the foot."""
-    renderer = ax.figure.canvas.get_renderer()
-    xw, y_lo, y_hi = worst
-    (px0, py0), (_, py1) = ax.transData.transform([(xw, y_lo), (xw, y_hi)])
-    pad = 9.0
-
-    def hits() -> bool:
-        box = label.get_window_extent(renderer)
-        return box.x0 - pad <= px0 <= box.x1 + pad and box.y0 - pad <= py1 and py0 <= box.y1 + pad
-
-    for label, (xi, foot, top, dx) in zip(labels, masts):
-        mid = (xi, (foot + top) / 2)
-        for xy, offset, va, rotation in (
-            ((xi, top), (dx, 6), "bottom", 0),
-            ((xi, foot), (dx, -5), "top", 0),
-            (mid, (dx * 0.6, 0), "center", 90),
-        ):
-            if not hits():
-                break
-            label.xy = xy
-            label.set_position(offset)
-            label.set_verticalalignment(va)
-            label.set_rotation(rotation)
-        if hits():  # nowhere free: back to mid-mast, drawn beneath the worst point
-            label.xy = mid
-            label.set_position((dx, 0))
-            label.set_verticalalignment("center")
-            label.set_rotation(0)
-            label.set_zorder(7.5)
 
 
 def vertical_exaggeration(ax: Any, units: str = "m") -> float:

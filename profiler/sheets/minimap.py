@@ -14,6 +14,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from ..terrain import raster_read_error
 from .style import COLOURS
 
 __all__ = ["MapGrid", "map_frame", "read_map_grid", "draw_minimap", "nice_scale_length_m"]
@@ -62,13 +63,8 @@ def read_map_grid(
     they overlap); ``aspect`` is the map's width / height.  Each raster is
     read only over the window the map covers.
     """
-    import rasterio
-    from affine import Affine
     from pyproj import CRS, Transformer
-    from rasterio.errors import WindowError
     from rasterio.transform import from_origin
-    from rasterio.warp import Resampling, reproject, transform_bounds
-    from rasterio.windows import Window, from_bounds
 
     lat = np.asarray(path_lat_deg, dtype=float)
     lon = np.asarray(path_lon_deg, dtype=float)
@@ -78,6 +74,29 @@ def read_map_grid(
     to_frame = Transformer.from_crs("EPSG:4326", dst_crs, always_xy=True)
     px, py = to_frame.transform(lon, lat)
     px, py = np.asarray(px, dtype=float), np.asarray(py, dtype=float)
+    (left, right, bottom, top), (width, height) = _map_extent(px, py, aspect, max_px, margin_fraction)
+    dst_transform = from_origin(left, top, (right - left) / width, (top - bottom) / height)
+    out = np.full((height, width), np.nan)
+    for s in sources:
+        part = _reprojected(s, dst_crs, dst_transform, (left, right, bottom, top), (width, height))
+        if part is None:
+            continue
+        fill = np.isnan(out) & ~np.isnan(part)
+        out[fill] = part[fill]
+    return MapGrid(
+        elevation_m=out,
+        extent_m=(left, right, bottom, top),
+        path_x_m=px,
+        path_y_m=py,
+        frame=frame,
+        centre_lat_deg=float(lat[mid]),
+        centre_lon_deg=float(lon[mid]),
+    )
+
+
+def _map_extent(px: np.ndarray, py: np.ndarray, aspect: float, max_px: int,
+                margin_fraction: float) -> tuple[tuple[float, float, float, float], tuple[int, int]]:
+    """((left, right, bottom, top) in frame metres, (width, height) in pixels) of a map around the path."""
     cx, cy = (px.min() + px.max()) / 2.0, (py.min() + py.max()) / 2.0
     length = float(np.hypot(px[-1] - px[0], py[-1] - py[0]))
     margin = max(margin_fraction * length, 300.0)
@@ -91,48 +110,46 @@ def read_map_grid(
         width, height = max_px, max(int(round(max_px / aspect)), 16)
     else:
         width, height = max(int(round(max_px * aspect)), 16), max_px
-    left, right, bottom, top = cx - half_w, cx + half_w, cy - half_h, cy + half_h
-    dst_transform = from_origin(left, top, (right - left) / width, (top - bottom) / height)
-    out = np.full((height, width), np.nan)
-    for s in sources:
-        with rasterio.open(s.path) as ds:
-            try:
-                b = transform_bounds(dst_crs, ds.crs, left, bottom, right, top, densify_pts=21)
-                win = from_bounds(*b, transform=ds.transform)
-                win = win.round_offsets(op="floor").round_lengths(op="ceil")
-                win = Window(win.col_off - 1, win.row_off - 1, win.width + 2, win.height + 2)
-                win = win.intersection(Window(0, 0, ds.width, ds.height))
-            except WindowError:
-                continue  # this raster does not reach the map
-            if win.width < 1 or win.height < 1:
-                continue
-            step = max(1, math.ceil(max(win.width / width, win.height / height) / 1.5))
-            shape = (max(1, math.ceil(win.height / step)), max(1, math.ceil(win.width / step)))
-            try:
-                block = ds.read(1, window=win, out_shape=shape, masked=True, resampling=Resampling.average)
-            except Exception as exc:  # noqa: BLE001 - rasterio/GDAL read errors: one line naming the file
-                from ..terrain import raster_read_error
+    return (cx - half_w, cx + half_w, cy - half_h, cy + half_h), (width, height)
 
-                raise raster_read_error(s.path, exc) from None
-            src_transform = ds.window_transform(win) @ Affine.scale(win.width / shape[1], win.height / shape[0])
-            src = block.astype(np.float64).filled(np.nan) * s.unit_factor_m
-            part = np.full((height, width), np.nan)
-            reproject(
-                src, part, src_transform=src_transform, src_crs=ds.crs, src_nodata=np.nan,
-                dst_transform=dst_transform, dst_crs=dst_crs, dst_nodata=np.nan,
-                resampling=Resampling.bilinear,
-            )
-        fill = np.isnan(out) & ~np.isnan(part)
-        out[fill] = part[fill]
-    return MapGrid(
-        elevation_m=out,
-        extent_m=(left, right, bottom, top),
-        path_x_m=px,
-        path_y_m=py,
-        frame=frame,
-        centre_lat_deg=float(lat[mid]),
-        centre_lon_deg=float(lon[mid]),
-    )
+
+def _reprojected(s: Any, dst_crs: Any, dst_transform: Any, bounds: tuple[float, float, float, float],
+                 size: tuple[int, int]) -> np.ndarray | None:
+    """One raster's heights (m) over the map grid, NaN where it has none; None if it does not reach the map."""
+    import rasterio
+    from affine import Affine
+    from rasterio.errors import WindowError
+    from rasterio.warp import Resampling, reproject, transform_bounds
+    from rasterio.windows import Window, from_bounds
+
+    left, right, bottom, top = bounds
+    width, height = size
+    with rasterio.open(s.path) as ds:
+        try:
+            b = transform_bounds(dst_crs, ds.crs, left, bottom, right, top, densify_pts=21)
+            win = from_bounds(*b, transform=ds.transform)
+            win = win.round_offsets(op="floor").round_lengths(op="ceil")
+            win = Window(win.col_off - 1, win.row_off - 1, win.width + 2, win.height + 2)
+            win = win.intersection(Window(0, 0, ds.width, ds.height))
+        except WindowError:
+            return None  # this raster does not reach the map
+        if win.width < 1 or win.height < 1:
+            return None
+        step = max(1, math.ceil(max(win.width / width, win.height / height) / 1.5))
+        shape = (max(1, math.ceil(win.height / step)), max(1, math.ceil(win.width / step)))
+        try:
+            block = ds.read(1, window=win, out_shape=shape, masked=True, resampling=Resampling.average)
+        except Exception as exc:  # noqa: BLE001 - rasterio/GDAL read errors: one line naming the file
+            raise raster_read_error(s.path, exc) from None
+        src_transform = ds.window_transform(win) @ Affine.scale(win.width / shape[1], win.height / shape[0])
+        src = block.astype(np.float64).filled(np.nan) * s.unit_factor_m
+        part = np.full((height, width), np.nan)
+        reproject(
+            src, part, src_transform=src_transform, src_crs=ds.crs, src_nodata=np.nan,
+            dst_transform=dst_transform, dst_crs=dst_crs, dst_nodata=np.nan,
+            resampling=Resampling.bilinear,
+        )
+    return part
 
 
 def nice_scale_length_m(span_m: float) -> float:

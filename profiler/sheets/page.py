@@ -8,15 +8,27 @@ layout is defined in millimetres on A4 and scaled to the other page sizes.
 
 from __future__ import annotations
 
-import math
 import re
 import textwrap
 from pathlib import Path
 from typing import Any, Sequence
 
 from .content import SheetContent
+from .drawing import curvature_note, draw_profile, vertical_exaggeration
+from .minimap import draw_minimap
+from .notes import (
+    CONT_COLUMNS as _CONT_COLUMNS,
+    CONT_ROWS as _CONT_ROWS,
+    continuation_pages,
+    drawing_notes,
+    feature_height as _feature_height,
+    obstruction_note as _obstruction_note,  # noqa: F401  (older name, used by tests)
+    source_lines,
+    span_text as _span_text,
+)
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
-from .table import Row, above_datum_label, distance_text, format_k, parameter_rows, vertical_datum_text
+from ..vertical import datum_of_record
+from .table import Row, above_datum_label, distance_text, format_k, height_text, parameter_rows
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
            "sheet_paths"]
@@ -33,13 +45,6 @@ CAUTION = (
 )
 
 _A4 = (297.0, 210.0)
-#: Rasters listed in full in the provenance block; more are named in one line.
-_MAX_SOURCES_LISTED = 3
-#: Obstructions named one by one in the drawing notes; all of them go on continuation pages when more.
-_MAX_CROSSED_LISTED = 3
-#: Obstructions listed per column, and columns per continuation page.
-_CONT_ROWS = 38
-_CONT_COLUMNS = 2
 
 
 class _Layout:
@@ -145,16 +150,11 @@ def _hline(fig: Any, lay: _Layout, x0: float, x1: float, y: float, lw: float = 0
 
 
 def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
-    from .drawing import curvature_note, draw_profile, vertical_exaggeration
-
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
-    datum = vertical_datum_text(r)
-    short = "datum of the raster, not stated in the file" if datum.startswith("of the elevation") else \
-        datum.split(" (stated by the planner")[0]
+    datum = datum_of_record(r)
+    short = datum.name if datum.known else "datum of the raster, not stated in the file"
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
-    from .table import height_text
-
     renderer = fig.canvas.get_renderer()
     for tag, x_mm, ha in (("a", 22, "left"), ("b", 194, "right")):
         s = r["sites"][tag]
@@ -226,8 +226,6 @@ def _table(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
 
 
 def _minimap(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
-    from .minimap import draw_minimap
-
     x0, y0, w, h = 8.0, 15.0, 68.0, 60.0
     fig.text(*lay.xy(x0, y0 + h + 1.2), "Location", fontsize=lay.fs(8.5), fontweight="bold",
              color=COLOURS["ink"], va="bottom")
@@ -252,24 +250,12 @@ def _minimap(fig: Any, c: SheetContent, lay: _Layout, units: str = "m") -> None:
 
 
 def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
-    r = c.record
+    """Drawing notes, data sources and the caution, in the middle column (text: profiler.sheets.notes)."""
     x0, w = 82.0, 114.0
     y = 76.2
     fig.text(*lay.xy(x0, y), "Drawing notes", fontsize=lay.fs(8.5), fontweight="bold", color=COLOURS["ink"],
              va="bottom")
-    unit_word = "metres" if units == "m" else "feet"
-    notes = [
-        f"Horizontal positions: WGS 84 (EPSG:4326), decimal degrees and degrees-minutes-seconds. "
-        f"Distances along the geodesic from site a. Heights in {unit_word} above the vertical datum "
-        f"{vertical_datum_text(r)}.",
-        f"Terrain sampled every {r['inputs'].get('sample_spacing_m', float('nan')):.1f} m "
-        f"({r['inputs'].get('samples', '-')} samples), bilinear between raster cells. "
-        f"Antenna heights are to the antenna centre. Site a transmits, site b receives.",
-    ]
-    notes.append(_obstruction_note(c, units))
-    for wmsg in r.get("warnings", []) or []:
-        notes.append(f"Warning: {wmsg}")
-    body = "\n".join(_wrap(t, w, 6.0, lay) for t in notes)
+    body = "\n".join(_wrap(t, w, 6.0, lay) for t in drawing_notes(c, units))
     t = fig.text(*lay.xy(x0, y - 1.3), body, fontsize=lay.fs(6.0), color=COLOURS["ink"], va="top", linespacing=1.25)
     renderer = fig.canvas.get_renderer()
     inv = fig.transFigure.inverted()
@@ -277,24 +263,7 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
 
     fig.text(*lay.xy(x0, y_next), "Data sources", fontsize=lay.fs(7.5), fontweight="bold",
              color=COLOURS["ink"], va="top")
-    lines = []
-    shown = c.sources if len(c.sources) <= _MAX_SOURCES_LISTED else c.sources[: _MAX_SOURCES_LISTED - 1]
-    for s in shown:
-        lines.append(f"{s['file']}  ·  {s['crs']}  ·  cell {s['cell_size']}  ·  vertical unit {s['vertical_unit']}")
-        lines.append(f"    vertical datum: {s['vertical_datum']}")
-        lines.append(f"    SHA-256 {s['sha256']}")
-    rest = c.sources[len(shown):]
-    if rest:
-        names = ", ".join(s["file"] for s in rest)
-        lines.append(f"and {len(rest)} more raster(s): {names}")
-    for s in c.other_sources[:_MAX_SOURCES_LISTED]:
-        lines.append(f"{s['file']}  ·  {s['what']}")
-        lines.append(f"    SHA-256 {s['sha256']}")
-    if len(c.other_sources) > _MAX_SOURCES_LISTED:
-        names = ", ".join(s["file"] for s in c.other_sources[_MAX_SOURCES_LISTED:])
-        lines.append(f"and {len(c.other_sources) - _MAX_SOURCES_LISTED} more file(s): {names}")
-    prov = r.get("provenance", {})
-    lines.append(f"Computed {prov.get('computed_at', '-')} with {prov.get('software_version', c.title.software)}.")
+    lines = source_lines(c)
     # Monospaced lines: wrap at the column width (DejaVu Sans Mono advances 0.602 em).
     per_line = max(20, int(lay.width_pt(w) / (0.602 * lay.fs(5.7))) - 1)
     lines = [part for line in lines for part in
@@ -308,8 +277,11 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
     while t2.get_window_extent(renderer).y0 < floor_px and size > lay.fs(3.6):
         size -= 0.25
         t2.set_fontsize(size)
+    _caution(fig, lay)
 
-    # The caution sits at the foot of the notes column.
+
+def _caution(fig: Any, lay: _Layout) -> None:
+    """The caution box at the foot of the notes column."""
     from matplotlib.patches import Rectangle
 
     cx, cy, cw, ch = 82.0, 8.0, 114.0, 19.0
@@ -319,58 +291,6 @@ def _notes(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
              color=COLOURS["ink"], va="top")
     fig.text(*lay.xy(cx + 2.5, cy + ch - 6.2), _wrap(CAUTION, cw - 5, 6.0, lay), fontsize=lay.fs(6.0),
              color=COLOURS["ink"], va="top", linespacing=1.25)
-
-
-def _feature_height(f: dict, units: str) -> str:
-    from .table import height_text
-
-    if f.get("height_m") is not None:
-        text = f"{height_text(f['height_m'], units)} high"
-        if f.get("allowance_m"):
-            text += f" + {height_text(f['allowance_m'], units)} allowance"
-        return text
-    if f.get("top_m") is not None:
-        return f"top at {height_text(f['top_m'], units)}"
-    return "height not given"
-
-
-def _span_text(f: dict, units: str) -> str:
-    """'0.176-0.394 km' (or mi): where along the path a feature is crossed."""
-    from .table import DISTANCE_UNITS
-
-    name, per_m = DISTANCE_UNITS[units]
-    k = 1000.0 / per_m
-    return f"{f.get('from_km', math.nan) * k:.3f}-{f.get('to_km', math.nan) * k:.3f} {name}"
-
-
-def _obstruction_note(c: SheetContent, units: str = "m") -> str:
-    from .content import CLUTTER_KINDS
-    from .table import height_text
-
-    crossed = (c.record.get("clutter") or {}).get("crossed") or []
-    if crossed:
-        parts = []
-        for f in crossed[:_MAX_CROSSED_LISTED]:
-            what = " ".join(str(v) for v in (f.get("kind", ""), f.get("feature", "")) if v not in ("", None))
-            span = _span_text(f, units)
-            parts.append(f"{what or 'obstruction'} at {span}, {_feature_height(f, units)}")
-        more = (f"; and {len(crossed) - _MAX_CROSSED_LISTED} more: all {len(crossed)} are listed on the "
-                f"continuation page{'s' if continuation_pages(c) > 1 else ''} of this sheet"
-                if len(crossed) > _MAX_CROSSED_LISTED else "")
-        return f"Obstructions crossed, from site a: {'; '.join(parts)}{more}. They count in the clearance."
-    d = c.drawing
-    present = d.clutter_m > 0
-    if not present.any():
-        return "Obstructions: none given; the profile is bare terrain (no buildings or trees)."
-    if d.clutter_kind is None:
-        kinds = "obstructions"
-    else:
-        names = [CLUTTER_KINDS.get(int(k), "other obstructions") for k in sorted(set(d.clutter_kind[present]))]
-        kinds = ", ".join(dict.fromkeys(names))
-    return (
-        f"Obstructions: {kinds} stand on the ground along {present.sum()} samples, up to "
-        f"{height_text(float(d.clutter_m.max()), units)} high, and count in the clearance."
-    )
 
 
 def _title_block(fig: Any, c: SheetContent, lay: _Layout) -> None:
@@ -412,15 +332,6 @@ def _title_block(fig: Any, c: SheetContent, lay: _Layout) -> None:
             tv = fig.text(*lay.xy(cx + 1.8, top - row_h + 2.0), value or "", fontsize=lay.fs(8.0),
                           color=COLOURS["ink"], va="baseline", fontweight="bold" if label == "Link" else "normal")
             _fit(tv, fig.bbox.width * (cell_w - 3.6) / _A4[0], renderer, lay.fs(5.0))
-
-
-def continuation_pages(content: SheetContent) -> int:
-    """Continuation pages a sheet needs to list every obstruction crossed (0 when the notes hold them)."""
-    crossed = (content.record.get("clutter") or {}).get("crossed") or []
-    if len(crossed) <= _MAX_CROSSED_LISTED:
-        return 0
-    per_page = _CONT_ROWS * _CONT_COLUMNS
-    return -(-len(crossed) // per_page)
 
 
 def render_continuation(content: SheetContent, page: str | PageSize = "a4", units: str = "m") -> list:

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 from ..units import FEET_TO_M
+from ..vertical import datum_of_record
 
 __all__ = [
     "Row",
@@ -103,18 +104,14 @@ def height_text(value_m: float, units: str = "m", signed: bool = False) -> str:
 
 def vertical_datum_text(record: dict) -> str:
     """Name of the vertical datum of the heights, or a plain statement that the raster gives none."""
-    from ..vertical import datum_of_record
-
     datum = datum_of_record(record)
-    if datum.source == "unknown":
+    if not datum.known:
         return "of the elevation raster (not stated in the file)"
     return datum.record()
 
 
 def above_datum_label(record: dict) -> str:
     """'above sea level' for a sea-level datum (EGM96, NAVD88...), else 'above the datum'."""
-    from ..vertical import datum_of_record
-
     return datum_of_record(record).short()
 
 

@@ -8,9 +8,9 @@ from hypothesis.extra.numpy import arrays
 from profiler.budget import Radio
 from profiler.geodesy import PathLines
 from profiler.geometry import clearance, earth_bulge_m
-from profiler.link import dominant_edge_loss_db
 from profiler.losses.diffraction import knife_edge_loss_db
 from profiler.losses.free_space import free_space_loss_db
+from profiler.losses.terrain_diffraction import diffraction_loss_db
 from profiler.profile import Profiles
 from profiler.terrain import bilinear_gather
 
@@ -32,11 +32,17 @@ def _profiles(surface: np.ndarray, length_m: float) -> Profiles:
     )
 
 
+def _dominant_edge_loss_db(p, antenna_a_amsl_m, antenna_b_amsl_m, freq_ghz, clear):
+    """Single knife edge at the point of largest v (ITU-R P.526-15 section 4.1), at ``clear.k``."""
+    return diffraction_loss_db("knife-edge", p.distance_m, p.surface_m, p.interior, antenna_a_amsl_m,
+                               antenna_b_amsl_m, p.length_m, float(freq_ghz), clear.k)
+
+
 def _evaluate(surface, length_m, ha, hb, f, k):
     p = _profiles(surface, length_m)
     c = clearance(p.distance_m, p.surface_m, p.interior, p.length_m, np.array([surface[0] + ha]),
                   np.array([surface[-1] + hb]), f, k)
-    loss = dominant_edge_loss_db(p, np.array([surface[0] + ha]), np.array([surface[-1] + hb]), f, c)
+    loss = _dominant_edge_loss_db(p, np.array([surface[0] + ha]), np.array([surface[-1] + hb]), f, c)
     return c, loss
 
 

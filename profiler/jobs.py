@@ -1,0 +1,369 @@
+"""A link job: one link file plus overrides, resolved into what the engine needs.
+
+Usable from Python as from the command line (no click here)::
+
+    job = resolve_link_job("examples/demo-1-clear.toml", {"freq_ghz": 11.0})
+    with open_job_data(job) as (model, surroundings):
+        batch = analyse_job(job, model, surroundings)
+
+``overrides`` maps option names to values; None means "not given".  The
+names are the command-line flags with underscores (``freq_ghz``, ``agl_a``,
+``site_a`` as a (lat, lon) pair, ``dem`` as a sequence of rasters ...,
+see :data:`OVERRIDES`); an override wins over the link file, the link file
+over the defaults.  Defaults are those of the Python types (:class:`Radio`,
+:class:`Settings`, :class:`ClimateSettings`) and :data:`DEFAULT_AGL_M`;
+:func:`default_text` gives them for help texts.  Errors about a value given
+as an override carry its name in ``parameter`` (the CLI names its flag).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import dataclasses
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Any, Iterator
+
+from .availability import ClimateSettings
+from .budget import Radio
+from .errors import PARAMETER, InputError
+from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
+from .link_batch import LinkBatch
+from .link_engine import analyse_link
+from .link_types import Criterion, Settings, Site
+from .losses.smooth_earth import resolve_polarisation
+from .mounts import Mount
+from .obstructions import LayerSpec, Surroundings, normalise_kind, parse_layer_spec, read_obstruction_layer
+from .terrain import ElevationModel
+from .validation import check_k_pair, check_number
+
+__all__ = [
+    "LinkJob",
+    "resolve_link_job",
+    "resolve_radio",
+    "resolve_settings",
+    "resolve_climate",
+    "open_surroundings",
+    "open_job_data",
+    "analyse_job",
+    "parse_number",
+    "default_text",
+    "RADIO_KEYS",
+    "CLIMATE_KEYS",
+    "MOUNT_KEYS",
+    "DEFAULT_AGL_M",
+    "VERTICAL_UNIT_CHOICES",
+]
+
+#: Antenna height above ground when neither an override nor the link file gives one, m (common practice).
+DEFAULT_AGL_M = 10.0
+#: Added to every tree height when not given, m.
+DEFAULT_TREE_ALLOWANCE_M = 0.0
+#: Radio overrides: the :class:`Radio` fields.
+RADIO_KEYS = tuple(f.name for f in dataclasses.fields(Radio))
+#: Climate overrides: the :class:`ClimateSettings` fields set by a number.
+CLIMATE_KEYS = ("rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km", "terrain_roughness_m",
+                "pressure_hpa", "temperature_c", "water_vapour_g_m3")
+#: Site keys and override prefixes giving an antenna height, and what each is measured from.
+MOUNT_KEYS = {
+    "antenna_agl_m": ("agl", "ground"),
+    "antenna_above_roof_m": ("above_roof", "roof"),
+    "antenna_amsl_m": ("amsl", "elevation"),
+    "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
+}
+
+
+@dataclass(frozen=True)
+class LinkJob:
+    """Everything needed to analyse one link, overrides merged over a link file."""
+
+    title: str
+    rasters: tuple[str, ...]
+    vertical_unit: str | None
+    nodata_fill_m: float | None
+    site_a: Site
+    site_b: Site
+    radio: Radio
+    settings: Settings
+    obstruction_layers: tuple = ()
+    surface_rasters: tuple[str, ...] = ()
+    tree_allowance_m: float = DEFAULT_TREE_ALLOWANCE_M
+    mount_a: Any = None
+    mount_b: Any = None
+    max_mast_a_m: float | None = None
+    max_mast_b_m: float | None = None
+
+
+def default_text(name: str) -> str:
+    """The default of setting ``name`` as a help text shows it ('20', '4/3', 'horizontal')."""
+    settings, criterion, climate = Settings(), Criterion(), ClimateSettings()
+    if name in ("k", "k_worst"):
+        return str(Fraction(getattr(settings, name)).limit_denominator(100))
+    for source in (criterion, settings, climate):
+        if name in {f.name for f in dataclasses.fields(source)}:
+            value = getattr(source, name)
+            return f"{value:g}" if isinstance(value, float) else str(value)
+    fields = {f.name: f.default for f in dataclasses.fields(Radio)}
+    plain = {"agl": DEFAULT_AGL_M, "tree_allowance_m": DEFAULT_TREE_ALLOWANCE_M}
+    value = fields.get(name, plain.get(name))
+    if value is None or value is dataclasses.MISSING:
+        raise KeyError(f"no default for {name!r}")
+    return f"{value:g}"
+
+
+def parse_number(value: Any, what: str) -> float:
+    """A number, or a fraction written as 'P/Q' (e.g. k = '4/3'); raise InputError otherwise."""
+    if isinstance(value, bool):
+        raise InputError(f"{what} must be a number, got {value!r}")
+    if isinstance(value, (int, float)):
+        return float(value)
+    text = str(value).strip()
+    try:
+        if "/" in text:
+            num, den = text.split("/", 1)
+            return float(num) / float(den)
+        return float(text)
+    except (ValueError, ZeroDivisionError):
+        raise InputError(f"{what} must be a number or a fraction like 4/3, got {value!r}") from None
+
+
+def _pick(override: Any, spec: dict, key: str, default: Any = None) -> Any:
+    if override is not None:
+        return override
+    return spec.get(key, default)
+
+
+def _checked(opts: dict[str, Any], section: dict[str, Any], key: str, *, opt: str, table: str,
+             name: str | None = None, default: Any = None, source: str = "link file") -> float | None:
+    """An override over a link-file key, checked by the shared value rule; None when neither is given.
+
+    The message names the override (``parameter``) when it gave the value, else the link file and its table.
+    """
+    if opts.get(opt) is not None:
+        tag = table.removeprefix("site_") if table.startswith("site_") else None
+        where = f"site {tag} ({PARAMETER})" if tag else PARAMETER
+        try:
+            return check_number(opts[opt], name or key, where)
+        except InputError as exc:
+            raise InputError(exc.template, parameter=opt) from None
+    if key in section:
+        return check_number(section[key], name or key, f"{source or 'link file'} [{table}] {key}")
+    if default is None:
+        return None
+    return check_number(default, name or key)
+
+
+def resolve_climate(
+    section: dict[str, Any], opts: dict[str, Any], polarisation: str | None = None, polarisation_given: bool = False,
+    source: str = "link file",
+) -> ClimateSettings:
+    """ClimateSettings from overrides over a link file's [climate] table; overrides win.
+
+    The antenna polarisation is the one of ``polarisation`` / ``[analysis]
+    polarisation``, shared with the diffraction methods.
+    """
+    values = {name: _checked(opts, section, name, opt=name, table="climate", source=source)
+              for name in CLIMATE_KEYS}
+    given = {k: v for k, v in values.items() if v is not None}
+    names = set(given) | ({"polarisation"} if polarisation_given else set())
+    if polarisation is not None:
+        given["polarisation"] = resolve_polarisation(polarisation)
+    return ClimateSettings(**given, given=frozenset(names))
+
+
+def resolve_radio(opts: dict[str, Any], section: dict[str, Any] | None = None, source: str = "link file") -> Radio:
+    """Radio settings from overrides over a link file's [radio] table; overrides win."""
+    section = section or {}
+    radio_values = {k: _checked(opts, section, k, opt=k, table="radio", source=source) for k in RADIO_KEYS}
+    if radio_values["freq_ghz"] is None:
+        raise InputError(f"frequency missing: give {PARAMETER} or [radio] freq_ghz in the link file",
+                         parameter="freq_ghz")
+    return Radio(**{k: v for k, v in radio_values.items() if v is not None}).validate()
+
+
+def resolve_settings(
+    opts: dict[str, Any], an: dict[str, Any] | None = None, climate_section: dict[str, Any] | None = None,
+    source: str = "link file",
+) -> Settings:
+    """Analysis settings (k, criterion, diffraction, climate) from overrides over a link file's tables."""
+    an = an or {}
+    defaults, criterion = Settings(), Criterion()
+    for key in ("diffraction_method", "polarisation", "ground"):
+        if key in an and not isinstance(an[key], str):
+            raise InputError(f"link file [analysis] {key} must be text, got {an[key]!r}")
+    polarisation_given = opts.get("polarisation") is not None or "polarisation" in an
+    polarisation = str(_pick(opts.get("polarisation"), an, "polarisation", defaults.polarisation))
+    climate = resolve_climate(climate_section or {}, opts, polarisation, polarisation_given, source)
+    k = parse_number(_pick(opts.get("k"), an, "k", defaults.k), "k")
+    k_worst = parse_number(_pick(opts.get("k_worst"), an, "k_worst", defaults.k_worst), "k_worst")
+    check_k_pair(k, k_worst)
+    spacing = _pick(opts.get("spacing_m"), an, "sample_spacing_m")
+    if isinstance(spacing, bool):
+        raise InputError(f"sample spacing must be a number of metres, got {spacing!r}")
+    try:
+        settings = Settings(
+            k=k,
+            k_worst=k_worst,
+            spacing_m=None if spacing is None else float(spacing),
+            criterion=Criterion(
+                min_f1_fraction=_checked(opts, an, "min_f1_fraction", opt="min_f1_fraction", table="analysis",
+                                         default=criterion.min_f1_fraction, source=source),
+                min_f1_fraction_worst=_checked(opts, an, "min_f1_fraction_worst", opt="min_f1_fraction_worst",
+                                               table="analysis", default=criterion.min_f1_fraction_worst,
+                                               source=source),
+            ),
+            diffraction_method=str(_pick(opts.get("diffraction"), an, "diffraction_method", defaults.diffraction_method)),
+            polarisation=polarisation,
+            ground=str(_pick(opts.get("ground"), an, "ground", defaults.ground)),
+            climate=climate,
+        ).validate()
+    except (TypeError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
+        raise InputError(f"analysis settings must be numbers ({exc})") from None
+    return settings
+
+
+def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = None) -> LinkJob:
+    """Merge a link file (if any) and overrides into a :class:`LinkJob`; overrides win."""
+    opts = dict(overrides or {})
+    spec = read_link_file(link_file) if link_file else LinkSpec(path="", title=None)
+    rasters = tuple(opts.get("dem") or ()) or tuple(spec.terrain.get("rasters", ()))
+    if not rasters:
+        raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file",
+                         parameter="dem", value_word="FILE")
+    a, b = _site(spec, opts, "a"), _site(spec, opts, "b")
+    radio = resolve_radio(opts, spec.radio, spec.path)
+    settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
+    return LinkJob(
+        title=spec.title or f"{a.name} - {b.name}",
+        rasters=rasters,
+        vertical_unit=_vertical_unit(opts, spec),
+        nodata_fill_m=_checked(opts, spec.terrain, "nodata_fill_m", opt="nodata_fill_m", table="terrain",
+                               source=spec.path),
+        site_a=a,
+        site_b=b,
+        radio=radio,
+        settings=settings,
+        **_resolve_urban(spec, opts),
+    )
+
+
+def _site(spec: LinkSpec, opts: dict[str, Any], tag: str) -> Site:
+    """Site a or b: position, name and antenna height above ground, overrides over [site_a]/[site_b]."""
+    s = getattr(spec, f"site_{tag}")
+    pos = opts.get(f"site_{tag}")
+    lat, lon = pos if pos is not None else (s.get("lat"), s.get("lon"))
+    if lat is None or lon is None:
+        raise InputError(f"site {tag}: position missing; give {PARAMETER} or [site_{tag}] lat/lon",
+                         parameter=f"site_{tag}", value_word="LAT,LON")
+    name = _pick(opts.get(f"name_{tag}"), s, "name", tag.upper())
+    agl = _checked(opts, s, "antenna_agl_m", opt=f"agl_{tag}", table=f"site_{tag}", default=DEFAULT_AGL_M,
+                   source=spec.path)
+    lat = check_number(lat, "latitude", f"site {tag}")
+    lon = check_number(lon, "longitude", f"site {tag}")
+    return Site(str(name), lat, lon, agl).validate(f"site {tag}")
+
+
+def _layers(spec: LinkSpec, opts: dict[str, Any]) -> tuple[LayerSpec, ...]:
+    """Obstruction layers: the ``obstructions`` override ([KIND=]FILE[#LAYER] texts) or [obstructions] layers."""
+    ob = spec.obstructions
+    height_field = _pick(opts.get("height_field"), ob, "height_field")
+    top_field = _pick(opts.get("top_field"), ob, "top_field")
+    if opts.get("obstructions"):
+        return tuple(parse_layer_spec(t, height_field=height_field, top_field=top_field)
+                     for t in opts["obstructions"])
+    return tuple(
+        LayerSpec(
+            path=e["file"],
+            kind=normalise_kind(e.get("kind", "building"), f"{spec.path}: [obstructions]"),
+            layer=e.get("layer"),
+            height_field=e.get("height_field", height_field),
+            top_field=e.get("top_field", top_field),
+        )
+        for e in ob.get("layers", [])
+    )
+
+
+def _mount(spec: LinkSpec, opts: dict[str, Any], tag: str, vertical_crs: str | None) -> Mount:
+    """The one antenna height of site ``tag``, from an override or its link-file section (10 m above ground)."""
+    section = getattr(spec, f"site_{tag}")
+    given = [(ref, opts[f"{flag}_{tag}"]) for flag, ref in MOUNT_KEYS.values()
+             if opts.get(f"{flag}_{tag}") is not None]
+    flags = ", ".join(f"--{flag.replace('_', '-')}-{tag}" for flag, _ in MOUNT_KEYS.values())
+    if len(given) > 1:
+        raise InputError(f"site {tag}: give one antenna height, not several ({flags})")
+    if not given:
+        given = [(ref, section[key]) for key, (_, ref) in MOUNT_KEYS.items() if key in section]
+        if len(given) > 1:
+            keys = ", ".join(k for k in MOUNT_KEYS if k in section)
+            raise InputError(f"{spec.path}: [site_{tag}] gives several antenna heights ({keys}); keep one")
+    ref, height = given[0] if given else ("ground", DEFAULT_AGL_M)
+    key = {"ground": "antenna_agl_m", "roof": "antenna_above_roof_m", "elevation": "antenna_amsl_m",
+           "ellipsoid": "antenna_ellipsoidal_m"}[ref]
+    height = check_number(height, key, f"site {tag}")
+    return Mount(ref, height, vertical_crs=vertical_crs).validate(f"site {tag}")
+
+
+def _max_mast(spec: LinkSpec, opts: dict[str, Any], tag: str) -> float | None:
+    value = _pick(opts.get(f"max_mast_{tag}"), getattr(spec, f"site_{tag}"), "max_mast_m")
+    if value is None:
+        return None
+    return check_number(value, "max_mast_m", f"site {tag}")
+
+
+def _resolve_urban(spec: LinkSpec, opts: dict[str, Any]) -> dict[str, Any]:
+    """Obstruction layers, surface rasters and antenna mounts from overrides over the link file."""
+    vertical_crs = _pick(opts.get("vertical_crs"), spec.terrain, "vertical_crs")
+    return {
+        "obstruction_layers": _layers(spec, opts),
+        "surface_rasters": tuple(opts.get("surface") or ()) or tuple(spec.terrain.get("surface", ())),
+        "tree_allowance_m": _checked(opts, spec.obstructions, "tree_allowance_m", opt="tree_allowance_m",
+                                     table="obstructions", default=DEFAULT_TREE_ALLOWANCE_M, source=spec.path),
+        "mount_a": _mount(spec, opts, "a", vertical_crs),
+        "mount_b": _mount(spec, opts, "b", vertical_crs),
+        "max_mast_a_m": _max_mast(spec, opts, "a"),
+        "max_mast_b_m": _max_mast(spec, opts, "b"),
+    }
+
+
+def _vertical_unit(opts: dict[str, Any], spec: LinkSpec) -> str | None:
+    """``vertical_unit`` over [terrain] vertical_unit; InputError for anything but m, ft or us-ft."""
+    value = _pick(opts.get("vertical_unit"), spec.terrain, "vertical_unit")
+    if value is None:
+        return None
+    if not isinstance(value, str) or value.strip().lower() not in VERTICAL_UNIT_CHOICES:
+        raise InputError(f"{spec.path or 'link file'}: [terrain] vertical_unit must be one of "
+                         f"{', '.join(VERTICAL_UNIT_CHOICES)}, got {value!r}")
+    return value.strip().lower()
+
+
+def open_surroundings(job: LinkJob) -> Surroundings | None:
+    """Read the obstruction layers and open the surface rasters of a job (None if it has neither)."""
+    if not job.obstruction_layers and not job.surface_rasters:
+        return None
+    layers = tuple(read_obstruction_layer(s) for s in job.obstruction_layers)
+    surface = (ElevationModel(job.surface_rasters, vertical_unit=job.vertical_unit)
+               if job.surface_rasters else None)
+    return Surroundings(layers=layers, surface=surface, tree_allowance_m=job.tree_allowance_m)
+
+
+@contextlib.contextmanager
+def open_job_data(job: LinkJob) -> Iterator[tuple[ElevationModel, Surroundings | None]]:
+    """Open the elevation model and the surroundings (layers, surface) of a job; close both after."""
+    surroundings = open_surroundings(job)
+    try:
+        with ElevationModel(job.rasters, vertical_unit=job.vertical_unit, nodata_fill_m=job.nodata_fill_m) as model:
+            yield model, surroundings
+    finally:
+        if surroundings is not None and surroundings.surface is not None:
+            surroundings.surface.close()
+
+
+def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings | None, *,
+                mount_a: Any = None, mount_b: Any = None) -> LinkBatch:
+    """Analyse one job on open data, as ``terrahop link`` does; mounts may be overridden."""
+    return analyse_link(
+        model, job.site_a, job.site_b, job.radio, job.settings, name=job.title,
+        surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
+    )
