@@ -13,7 +13,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from . import __version__
+from ._version import __version__
 from .availability import ClimateSettings, availability_for_links
 from .budget import Radio, link_budget
 from .errors import DataError, InputError, Problem

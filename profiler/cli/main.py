@@ -8,7 +8,7 @@ from typing import Iterator
 
 import click
 
-from .. import __version__
+from .._version import __version__
 from .demo import demo
 from .heights import heights
 from .link import link

@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from .. import __version__
+from .._version import __version__
 from ..clutter import ClutterKind
 
 __all__ = [
