@@ -96,8 +96,9 @@ AVAILABILITY_DOES_NOT_CLOSE = AvailabilityStatus.DOES_NOT_CLOSE
 AVAILABILITY_NOT_CLEAR_NOT_CLOSING = AvailabilityStatus.NOT_CLEAR_NOT_CLOSING
 AVAILABILITY_NO_GEOMETRY = AvailabilityStatus.NO_GEOMETRY
 
-#: Reason sentence of each status (figures are added per link where known).
-AVAILABILITY_REASONS = {
+#: Reason sentence of each status (figures are added per link where known).  Keyed by the
+#: enum members, looked up with the plain int codes of the result arrays (IntEnum hashes as int).
+AVAILABILITY_REASONS: dict[int, str] = {
     AVAILABILITY_NO_PROFILE: "no profile for this path",
     AVAILABILITY_FREQ_OUTSIDE: "the frequency is outside 1-100 GHz, the range of the ITU-R P.838-3 / "
                                "P.530-17 rain method",
@@ -114,8 +115,8 @@ RAIN_BELOW_RANGE_TEXT = ("rain outage below 0.001 % of the year, outside the 0.0
                          "ITU-R P.530-17 section 2.4.1: availability above 99.999 %")
 RAIN_ABOVE_RANGE_TEXT = ("rain outage above 1 % of the year, outside the 0.001-1 % range of "
                          "ITU-R P.530-17 section 2.4.1: availability below 99 %")
-#: Multipath status: why its figures are missing.
-MULTIPATH_REASONS = {
+#: Multipath status: why its figures are missing (keyed like AVAILABILITY_REASONS).
+MULTIPATH_REASONS: dict[int, str] = {
     MULTIPATH_OUTSIDE_FREQ: "the frequency lies outside 15/d-45 GHz (d in km), the range of ITU-R P.530-17 "
                             "section 2.3",
     MULTIPATH_P0_TOO_LARGE: "the occurrence factor p0 is too large for ITU-R P.530-17 section 2.3.2 "

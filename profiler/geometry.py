@@ -158,7 +158,7 @@ def clearance(
     lam = np.broadcast_to(wavelength_m(np.asarray(freq_ghz, dtype=float)), (n_paths,))
     reduced = clearance_reductions(
         distance_m, surface_m, interior, np.asarray(length_m, dtype=float), ha, hb, lam,
-        2.0 * effective_radius_m(k), shortfall_f1_fraction,
+        float(2.0 * effective_radius_m(k)), shortfall_f1_fraction,
     )
     if reduced is None:  # small batch: from the full arrays
         arr = _clearance_arrays(*inputs)

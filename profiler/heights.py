@@ -224,8 +224,9 @@ def _check_request(batch: LinkBatch, i: int, solve: str, max_mast_a_m: float, ma
             f"{heights:,.0f} heights to try, more than {MAX_GRID_HEIGHTS:,}; use a coarser --step-m "
             "or a lower mast limit"
         )
-    if batch.problems[i] is not None:
-        raise InputError(batch.problems[i])
+    problem = batch.problems[i]
+    if problem is not None:
+        raise InputError(problem)
 
 
 @dataclass(frozen=True)

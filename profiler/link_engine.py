@@ -290,6 +290,7 @@ def _provenance(model: ElevationModel) -> dict:
 
 def _with_surface_cells(profiles: Profiles, surface: Any, spacing_m: float | None, names: list[str]) -> Profiles:
     """Count a surface model's cells in the finest cell and the coarse-spacing warning of each path."""
+    assert profiles.finest_cell_m is not None  # build_profiles always fills it (NaN where unknown)
     finest = np.fmin(profiles.finest_cell_m, surface_finest_cell_m(surface))
     notes = tuple(
         spacing_warning(names[i], float(profiles.spacing_m[i]), float(finest[i])) if spacing_m is not None else None

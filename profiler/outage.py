@@ -28,7 +28,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from enum import IntEnum
-from typing import Literal
+from typing import Literal, overload
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -223,7 +223,9 @@ class _ClimateTerms:
 
 
 def _climate_terms(path: PathClimate) -> _ClimateTerms:
-    d, f, ha, hb = path.distance_m, path.freq_ghz, path.altitude_a_m, path.altitude_b_m
+    # PathClimate.__post_init__ stored these as float arrays; asarray only narrows the type (no copy).
+    d, f, ha, hb = (np.asarray(x, dtype=float)
+                    for x in (path.distance_m, path.freq_ghz, path.altitude_a_m, path.altitude_b_m))
     settings = path.settings
     elevation = path_elevation_deg(ha, hb, d)
     a001 = rain_attenuation_001_db(d, f, settings.rain_rate_mm_h, elevation, settings.tilt_deg)
@@ -267,8 +269,18 @@ def _multipath_pct(m_pos: np.ndarray, positive: np.ndarray, p0: np.ndarray, peak
     return np.where(ok, np.where(positive, pw, 100.0), np.nan)
 
 
+@overload
 def _components(
-    margin_db: np.ndarray, pc: _ClimateTerms, worst_month: bool = True, rain_mode: str = "bound",
+    margin_db: np.ndarray, pc: _ClimateTerms, worst_month: Literal[True] = ...,
+    rain_mode: Literal["bound", "clip"] = ...,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]: ...
+@overload
+def _components(
+    margin_db: np.ndarray, pc: _ClimateTerms, worst_month: Literal[False],
+    rain_mode: Literal["bound", "clip"] = ...,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, None]: ...
+def _components(
+    margin_db: np.ndarray, pc: _ClimateTerms, worst_month: bool = True, rain_mode: Literal["bound", "clip"] = "bound",
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray | None]:
     """(rain %, rain range side, multipath annual %, multipath worst-month % or None) at given margins.
 

@@ -238,8 +238,9 @@ def _check_sample_limits(labels, lat_a, lon_a, lat_b, lon_b, spacing) -> None:
     over = np.flatnonzero(~(counts <= MAX_SAMPLES_PER_PATH))
     if over.size:  # the first such path names the problem and the spacing that fits
         i = int(over[0])
-        raise InputError(sample_limit_problem(labels[i], float(length[i]), int(min(counts[i], 2**62)),
-                                              float(spacing[i])))
+        problem = sample_limit_problem(labels[i], float(length[i]), int(min(counts[i], 2**62)), float(spacing[i]))
+        assert problem is not None  # counts[i] is above MAX_SAMPLES_PER_PATH, so the sentence is given
+        raise InputError(problem)
     total = counts.size * (counts.max() if counts.size else 0)
     if total > MAX_SAMPLES_PER_BATCH:
         raise InputError(

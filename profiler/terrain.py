@@ -276,11 +276,11 @@ class ElevationModel:
         vertical_unit: str | None = None,
         nodata_fill_m: float | None = None,
     ) -> None:
-        paths = [os.fspath(p) for p in paths]
-        if not paths:
+        names: list[str] = [os.fspath(p) for p in paths]
+        if not names:
             raise InputError("no elevation raster given; pass at least one --dem FILE")
         self.sources: tuple[RasterSource, ...] = tuple(
-            _open_source(p, vertical_unit) for p in paths
+            _open_source(p, vertical_unit) for p in names
         )
         _check_one_datum(self.sources)
         if nodata_fill_m is not None:

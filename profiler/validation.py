@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -53,7 +53,12 @@ class Limit:
             return f"above {self.low:g} and at most {self.high:g}{unit}"
         return f"between {self.low:g} and {self.high:g}{unit}"
 
-    def holds(self, value: np.ndarray) -> np.ndarray:
+    @overload
+    def holds(self, value: np.ndarray) -> np.ndarray: ...
+    @overload
+    def holds(self, value: np.floating) -> np.bool_: ...
+    def holds(self, value: np.ndarray | np.floating) -> np.ndarray | np.bool_:
+        """Whether each value lies in the range (an array for an array, a numpy bool for a scalar)."""
         above = value > self.low if self.low_open else value >= self.low
         return above & (value <= self.high)
 

@@ -282,6 +282,7 @@ def apply_datum_name(record: dict, given: str | None) -> DatumName:
         # a geoid conversion may already have named it (profiler.link_record)
         name, source = _parse_datum_text(str(inputs.get("vertical_datum") or ""))
         if source is DatumSource.PLANNER:
+            assert name is not None  # _parse_datum_text names every planner-stated datum
             crs = _vertical_crs(name)
             datum = DatumName(name, DatumSource.PLANNER, crs is not None and _is_sea_level(crs))
     inputs["vertical_datum"] = datum.record()

@@ -265,7 +265,7 @@ def _columns(*arrays) -> tuple[np.ndarray, ...]:
 def diffraction_reductions(
     d1: np.ndarray, surface: np.ndarray, interior: np.ndarray, ha: np.ndarray, hb: np.ndarray,
     length: np.ndarray, lam: np.ndarray, k: np.ndarray, smooth: bool = True,
-) -> tuple[np.ndarray, ...]:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """``stim``, ``srim``, ``v_max``, ``i_max``, ``hstd``, ``hsrd`` of profiles (see
     :func:`diffraction_reductions_numpy`), compiled for large batches."""
     return _reductions_loop(

@@ -75,7 +75,7 @@ def _check_atmosphere(
     return f, p, t + _KELVIN_OFFSET, rho
 
 
-def _line_shape(f: np.ndarray, f0: np.ndarray, width: np.ndarray, delta: np.ndarray) -> np.ndarray:
+def _line_shape(f: np.ndarray, f0: np.ndarray, width: np.ndarray, delta: np.ndarray | float) -> np.ndarray:
     """Line shape factor F_i (ITU-R P.676-12 Annex 1, section 1), f and widths in GHz."""
     return (f / f0) * (
         (width - delta * (f0 - f)) / ((f0 - f) ** 2 + width**2)

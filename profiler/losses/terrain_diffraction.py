@@ -286,8 +286,8 @@ def smooth_surface_heights_m(
     ITU-R P.526-15 section 4.5.2: least-squares line through the profile,
     lowered under the highest obstacle, capped by the ground at each end.
     """
-    g = PathGeometry(distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m,
-                     freq_ghz, k)
+    g = PathGeometry.of((distance_m, surface_m, interior, antenna_a_amsl_m, antenna_b_amsl_m, path_length_m,
+                         freq_ghz, k))
     r = reduce_profiles(g, True)
     return r.hstd, r.hsrd
 
