@@ -26,8 +26,8 @@ class Radio:
 
     freq_ghz: float
     tx_power_dbm: float = 20.0
-    gain_a_dbi: float = 0.0
-    gain_b_dbi: float = 0.0
+    gain_a_dbi: float | np.ndarray = 0.0  # an array in screening: per-site gains from the sites file
+    gain_b_dbi: float | np.ndarray = 0.0
     loss_a_db: float = 0.0
     loss_b_db: float = 0.0
     bandwidth_mhz: float = 20.0

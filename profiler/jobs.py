@@ -22,7 +22,7 @@ import contextlib
 import dataclasses
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Any, Iterator
+from typing import Any, Iterator, overload
 
 from .availability import ClimateSettings
 from .budget import Radio
@@ -133,8 +133,14 @@ def _pick(override: Any, spec: dict, key: str, default: Any = None) -> Any:
     return spec.get(key, default)
 
 
+@overload
 def _checked(opts: dict[str, Any], section: dict[str, Any], key: str, *, opt: str, table: str,
-             name: str | None = None, default: Any = None, source: str = "link file") -> float | None:
+             name: str | None = None, default: float, source: str = "link file") -> float: ...
+@overload
+def _checked(opts: dict[str, Any], section: dict[str, Any], key: str, *, opt: str, table: str,
+             name: str | None = None, default: None = None, source: str = "link file") -> float | None: ...
+def _checked(opts: dict[str, Any], section: dict[str, Any], key: str, *, opt: str, table: str,
+             name: str | None = None, default: float | None = None, source: str = "link file") -> float | None:
     """An override over a link-file key, checked by the shared value rule; None when neither is given.
 
     The message names the override (``parameter``) when it gave the value, else the link file and its table.
@@ -164,7 +170,7 @@ def resolve_climate(
     """
     values = {name: _checked(opts, section, name, opt=name, table="climate", source=source)
               for name in CLIMATE_KEYS}
-    given = {k: v for k, v in values.items() if v is not None}
+    given: dict[str, Any] = {k: v for k, v in values.items() if v is not None}  # numbers, and polarisation text
     names = set(given) | ({"polarisation"} if polarisation_given else set())
     if polarisation is not None:
         given["polarisation"] = resolve_polarisation(polarisation)

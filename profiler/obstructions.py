@@ -272,8 +272,8 @@ class Surroundings:
         """Refuse a surface model whose stated vertical datum differs from the terrain's."""
         if self.surface is None:
             return
-        ground = {raster_datum(s.vertical_datum) for s in model.sources} - {None}
-        surface = {raster_datum(s.vertical_datum) for s in self.surface.sources} - {None}
+        ground = {d for s in model.sources if (d := raster_datum(s.vertical_datum)) is not None}
+        surface = {d for s in self.surface.sources if (d := raster_datum(s.vertical_datum)) is not None}
         if ground and surface and ground != surface:
             raise DataError(
                 f"the surface model's heights are in {', '.join(sorted(surface))} but the terrain's in "

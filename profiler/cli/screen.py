@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sys
 import time
+from typing import TYPE_CHECKING
 
 import click
 
@@ -11,6 +12,9 @@ from ..errors import InputError
 from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
                       terrain_options)
+
+if TYPE_CHECKING:  # rich is imported only when a bar is shown
+    from rich.progress import Progress, TaskID
 
 __all__ = ["screen", "resolve_radio_settings", "format_screen_summary", "format_skipped"]
 
@@ -91,8 +95,8 @@ class _Progress:
 
     def __init__(self, enabled: bool) -> None:
         self.enabled = enabled
-        self.bar = None
-        self.task = None
+        self.bar: Progress | None = None
+        self.task: TaskID | None = None
 
     def __enter__(self) -> "_Progress":
         return self

@@ -74,9 +74,9 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
         raise InputError(f"{pairs}: no usable pair among the {len(chosen)} selected row(s){first}")
     _echo_skipped(skipped)
     # Resolve terrain, radio and analysis settings once; the first pair stands in for the sites.
-    first = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg),
-                 site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
-    resolved = resolve_link(template, first)
+    first_opts = dict(opts, site_a=(sites_a[0].lat_deg, sites_a[0].lon_deg),
+                      site_b=(sites_b[0].lat_deg, sites_b[0].lon_deg))
+    resolved = resolve_link(template, first_opts)
     n = len(sites_a)
     # Heights above ground come per row from the table (or --agl-a/-b); only the other
     # references (above roof, elevation, ellipsoidal) are applied to every pair as mounts.

@@ -98,7 +98,7 @@ def _norm(name: str) -> str:
 
 
 def _match_columns(names: Sequence[str]) -> dict[str, str]:
-    by_norm = {}
+    by_norm: dict[str, str] = {}
     for n in names:
         by_norm.setdefault(_norm(n), n)
     found: dict[str, str] = {}
@@ -190,7 +190,8 @@ def read_pair_table(path: str | os.PathLike, *, layer: str | None = None) -> Pai
         raise InputError(f"{p}: the table has a header but no rows")
     rows = []
     for i, rec in enumerate(records):
-        rows.append(_make_row(i + 1, rec, found, geoms[i] if use_geometry else None))
+        # use_geometry already implies geoms is not None; the test repeats it for the type checker
+        rows.append(_make_row(i + 1, rec, found, geoms[i] if use_geometry and geoms is not None else None))
     return PairTable(path=str(p), rows=tuple(rows), columns=found)
 
 

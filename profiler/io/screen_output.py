@@ -109,7 +109,8 @@ def _flags(values: np.ndarray, failed: np.ndarray):
     """A yes/no column with NULL in the rows that could not be profiled."""
     import pandas as pd
 
-    return pd.array(np.where(failed, None, values.astype(bool)), dtype="boolean")
+    # numpy stubs reject None as the scalar of np.where; at run time it gives an object array with NULLs
+    return pd.array(np.where(failed, None, values.astype(bool)), dtype="boolean")  # type: ignore[call-overload]
 
 
 def _availability_data(cols: dict, failed: np.ndarray) -> dict[str, Any]:

@@ -21,7 +21,7 @@ import os
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Any, Literal, Sequence, overload
 
 import numpy as np
 
@@ -108,8 +108,15 @@ class SiteTable:
         )
 
 
+@overload
+def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: Literal[True],
+          default_given: bool = False) -> str: ...
+@overload
+def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool,
+          default_given: bool = False) -> str | None: ...
 def _find(columns: Sequence[str], role: str, given: str | None, source: str, required: bool,
           default_given: bool = False) -> str | None:
+    """The column for ``role``; a required role never returns None (InputError instead)."""
     if given is not None:
         if given not in columns:
             raise InputError(
@@ -243,7 +250,8 @@ def read_sites(
     names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
     flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
     agl, where["agl"] = _antenna_heights(frame, agl_c, default_agl_m, decimal_comma, flag)
-    used |= {agl_c} - {None}
+    if agl_c is not None:
+        used.add(agl_c)
     gain = _optional(frame, gain_c, "antenna gain", "gain_a_dbi", decimal_comma, flag)
     mast = _optional(frame, mast_c, "maximum mast height", "max_mast_m", decimal_comma, flag)
     for role, column in (("gain", gain_c), ("max_mast", mast_c)):
@@ -251,8 +259,8 @@ def read_sites(
             used.add(column)
             where[role] = column
     _flag_duplicates(names, rows, reasons)
-    bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reasons[k])
-           for k in range(n) if reasons[k] is not None]
+    bad = [BadRow(source, int(rows[k]), str(names[k]) if names[k] else "", reason)
+           for k, reason in enumerate(reasons) if reason is not None]
     keep = np.array([r is None for r in reasons], dtype=bool)
     extra_cols = [c for c in columns if c not in used]
     extra = frame.loc[keep, extra_cols].reset_index(drop=True)

@@ -22,7 +22,7 @@ import os
 import shutil
 import zlib
 from pathlib import Path
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence, TypeGuard
 
 import numpy as np
 
@@ -309,7 +309,7 @@ class Stage:
             raise self._damaged("progress.json is not a record")
         rows, chunks = state.get("rows"), state.get("chunks")
         pbytes, pcrc, crc = state.get("problems_bytes"), state.get("problems_crc"), state.get("crc")
-        if not all(_count(v) for v in (rows, chunks, pbytes, pcrc)) or not isinstance(crc, dict):
+        if not (_count(rows) and _count(chunks) and _count(pbytes) and _count(pcrc)) or not isinstance(crc, dict):
             raise self._damaged("progress.json lacks its counts")
         if rows > total_pairs or chunks > rows + 1:
             raise self._damaged(f"progress.json counts {rows} rows of {total_pairs} pairs")
@@ -411,7 +411,7 @@ class Stage:
         return [json.loads(line) for line in data.splitlines() if line.strip()]
 
 
-def _count(v: Any) -> bool:
+def _count(v: Any) -> TypeGuard[int]:
     return isinstance(v, int) and not isinstance(v, bool) and v >= 0
 
 

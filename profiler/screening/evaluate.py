@@ -109,7 +109,7 @@ def _evaluate_by_length(model: ElevationModel, task: ChunkTask, todo: np.ndarray
                         length_m: np.ndarray) -> None:
     """Evaluate pairs ``todo`` in sub-batches of similar sample counts, shortest first."""
     _, _, length = WGS84.inv(task.lon_a[todo], task.lat_a[todo], task.lon_b[todo], task.lat_b[todo])
-    spacing = task.settings.spacing_m
+    spacing: float | np.ndarray | None = task.settings.spacing_m
     if spacing is None:  # the spacing build_profiles will use: symmetric, from the whole path
         spacing = path_spacings_m(model, task.lat_a[todo], task.lon_a[todo], task.lat_b[todo], task.lon_b[todo])
     spacing = np.broadcast_to(np.asarray(spacing, dtype=float), todo.shape)
@@ -206,7 +206,7 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     sites_b = SiteColumns(task.names_b[idx], task.lat_b[idx].astype(float), task.lon_b[idx].astype(float),
                           task.agl_b[idx].astype(float))
     radio = task.radio
-    if task.gain_a is not None:
+    if task.gain_a is not None and task.gain_b is not None:  # both set or both None (make_task)
         # A blank gain cell is "not given": the radio's gain applies (profiler.io.sites).
         ga, gb = task.gain_a[idx], task.gain_b[idx]
         radio = dataclasses.replace(radio, gain_a_dbi=np.where(np.isnan(ga), radio.gain_a_dbi, ga),

@@ -205,18 +205,6 @@ def drop_sites(sites: SiteTable, plan: PairPlan, keep: np.ndarray) -> tuple[Site
     return sites.subset(keep), dataclasses.replace(plan, hubs=hubs, explicit=explicit)
 
 
-def _executor(model: ElevationModel, workers: int | None, scheduler: Any, remaining: int, chunk_pairs: int):
-    if scheduler is not None:
-        pool = _DaskPool(model, scheduler)
-        return pool, 2 * pool.workers + 2
-    n = (os.cpu_count() or 1) if workers is None else workers
-    if n < 1:
-        raise InputError(f"--workers must be 1 or more, got {n}")
-    if n == 1 or remaining <= chunk_pairs:
-        return _InProcess(model), 1
-    return _LocalPool(model, n), 2 * n + 1
-
-
 def resolve_hubs(sites: SiteTable, hub_names: Sequence[str]) -> tuple[int, ...]:
     """Indices of the named hub sites; InputError naming any that is unknown."""
     index = {str(nm): k for k, nm in enumerate(sites.names)}

@@ -143,8 +143,10 @@ def screen(
     """
     # Long only by its numpydoc docstring; the body is the few lines below.
     own_model = not isinstance(model, ElevationModel)
-    if own_model:
-        model = ElevationModel([model] if isinstance(model, (str, os.PathLike)) else list(model))
+    if isinstance(model, ElevationModel):
+        elevation = model
+    else:
+        elevation = ElevationModel([model] if isinstance(model, (str, os.PathLike)) else list(model))
     try:
         if isinstance(sites, (str, os.PathLike)):
             inputs = [*inputs, sites]  # a result must not land on the sites file
@@ -155,11 +157,11 @@ def screen(
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
                    progress=progress, inputs=inputs)
         if out is not None:
-            return _screen_to(sites, model, radio, settings, out, **run)
-        return frames_of_run(lambda path: _screen_to(sites, model, radio, settings, path, **run))
+            return _screen_to(sites, elevation, radio, settings, out, **run)
+        return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
     finally:
         if own_model:
-            model.close()
+            elevation.close()
 
 
 def _screen_to(

@@ -20,7 +20,7 @@ from .table import DISTANCE_UNITS, HEIGHT_UNITS, distance_text, format_k, height
 
 __all__ = ["ProfileArtists", "draw_profile", "wall_samples", "curvature_note", "vertical_exaggeration", "profile_limits_m"]
 
-_CLUTTER_STYLE = {
+_CLUTTER_STYLE: dict[str, dict[str, Any]] = {  # matplotlib keyword arguments (colours, hatch, widths)
     "buildings": dict(facecolor="#C9C9C9", edgecolor="#3D3D3D", hatch="////", linewidth=0.5),
     "trees": dict(facecolor=COLOURS["trees"], edgecolor="#00664A", hatch="oo", linewidth=0.5, alpha=0.55),
     "surface model": dict(facecolor=COLOURS["surface model"], edgecolor="#8A8200", linewidth=0.5, alpha=0.7),
@@ -38,7 +38,7 @@ class ProfileArtists:
     clutter: dict
     y_limits: tuple[float, float]
     lines: dict
-    mast_labels: list = None
+    mast_labels: list | None = None
 
 
 def wall_samples(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

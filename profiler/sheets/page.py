@@ -153,7 +153,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     r = c.record
     ax = fig.add_axes(lay.rect(22, 111, 172, 64))
     datum = datum_of_record(r)
-    short = datum.name if datum.known else "datum of the raster, not stated in the file"
+    short = datum.name if datum.known and datum.name is not None else "datum of the raster, not stated in the file"
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
     renderer = fig.canvas.get_renderer()
     for tag, x_mm, ha in (("a", 22, "left"), ("b", 194, "right")):
@@ -347,10 +347,10 @@ def render_continuation(content: SheetContent, page: str | PageSize = "a4", unit
     figs = []
     for k in range(n_pages):
         fig = Figure(figsize=size.size_in, dpi=100)
-        FigureCanvasAgg(fig)
+        canvas = FigureCanvasAgg(fig)
         fig.patch.set_facecolor("white")
         lay = _Layout(size)
-        renderer = fig.canvas.get_renderer()
+        renderer = canvas.get_renderer()
         title = fig.text(*lay.xy(8, 199.5), content.name, fontsize=lay.fs(13), fontweight="bold",
                          color=COLOURS["ink"], va="baseline")
         _fit(title, fig.bbox.width * (230 - 8) / _A4[0], renderer, lay.fs(9))
@@ -440,7 +440,8 @@ def write_sheets(
     size = page_size(page)
     paths = sheet_paths(out, fmt, [c.name for c in contents])
     paths[0].parent.mkdir(parents=True, exist_ok=True)
-    with matplotlib.rc_context(RC_PARAMS):
+    # matplotlib stubs type rcParams keys as a Literal of known names; ours are plain str
+    with matplotlib.rc_context(RC_PARAMS):  # type: ignore[arg-type]
         if fmt == "pdf":
             from matplotlib.backends.backend_pdf import PdfPages
 
