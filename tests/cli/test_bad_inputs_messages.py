@@ -134,14 +134,18 @@ def test_screen_garbled_scheduler_address(address, tmp_path):
     assert not (tmp_path / "r.csv.partial").exists()
 
 
-def test_screen_scheduler_nobody_listens(tmp_path):
+def test_screen_scheduler_nobody_listens(tmp_path, monkeypatch):
+    # In process with a 1 s bound; tests/cli/test_screen_cli.py checks the real 10 s bound in a subprocess.
     pytest.importorskip("distributed")
+    import profiler.screening.executors as executors
+
+    monkeypatch.setattr(executors, "SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         port = s.getsockname()[1]
     assert_refused(["screen", DEMO_SITES, "--dem", DEMO_DEM, "--freq-ghz", "5.8", "--out", tmp_path / "r.csv",
                     "--scheduler", f"127.0.0.1:{port}"], ["cannot connect", f"tcp://127.0.0.1:{port}"],
-                   inputs=[DEMO_SITES], subprocess=True)
+                   inputs=[DEMO_SITES])
 
 
 # --------------------------------------------------------------------------- skipped rows
