@@ -247,7 +247,9 @@ def read_sites(
     flag(np.isfinite(lat) & np.isfinite(lon) & np.array([r is not None for r in position], dtype=bool),
          lambda k: position[k])
     lon = normalise_lon(lon)
-    names = frame[name_c].astype(str).str.strip().to_numpy(dtype=object)
+    # Missing names (None/NaN in a layer's attribute table) read as "", never as the text "nan".
+    names = np.array(["" if _missing(v) else str(v).strip() for v in frame[name_c].to_numpy(dtype=object)],
+                     dtype=object)
     flag(np.array([not s or s.lower() == "nan" for s in names], dtype=bool), lambda k: "has no name")
     agl, where["agl"] = _antenna_heights(frame, agl_c, default_agl_m, decimal_comma, flag)
     if agl_c is not None:
@@ -287,6 +289,9 @@ def _read_frame(p: Path, layer: str | None) -> tuple[Any, Any, np.ndarray, bool]
     import pandas as pd
 
     if p.suffix.lower() in CSV_SUFFIXES:
+        if layer is not None:
+            raise InputError(f"{p}: a CSV table has no layers; --layer {layer!r} is for multi-layer files "
+                             "such as GeoPackage")
         sep = _sniff_separator(p)
         _check_field_counts(p, sep)
         try:
@@ -320,6 +325,11 @@ def _csv_positions(frame: Any, lat_c: str, lon_c: str, decimal_comma: bool, flag
     flag(~np.isfinite(lat), lambda k: f"latitude {raw_lat[k]!r} is not a number")
     flag(~np.isfinite(lon), lambda k: f"longitude {raw_lon[k]!r} is not a number")
     return lat, lon
+
+
+def _missing(value: Any) -> bool:
+    """A cell with no value: None or a float NaN."""
+    return value is None or (isinstance(value, float) and value != value)
 
 
 def _layer_positions(geometry: Any, flag) -> tuple[np.ndarray, np.ndarray]:
