@@ -94,6 +94,21 @@ def gaseous_loss_db(profiles: Profiles, freq_ghz: Any, climate: ClimateSettings 
 
 _GAMMA_CACHE_SIZE = 64
 
+#: Said on every link below 1 GHz, where gases are left out (see gaseous_loss_db).
+GASES_BELOW_RANGE_NOTE = (
+    f"gases not included: ITU-R P.676-12 Annex 1 covers {P676_MIN_FREQ_GHZ:g}-{P676_MAX_FREQ_GHZ:g} GHz; "
+    "below it gases take less than 0.006 dB/km (its value at 1 GHz, 15 degC, 7.5 g/m^3: 0.0054 dB/km)"
+)
+
+
+def _with_gas_notes(warnings: Any, freq_ghz: Any, length_m: Any) -> Any:
+    """Per-path warnings with the gases note added to the paths below 1 GHz."""
+    f = np.broadcast_to(np.asarray(freq_ghz, dtype=float), np.shape(length_m))
+    low = f < P676_MIN_FREQ_GHZ
+    if not low.any() or not warnings:
+        return warnings
+    return [tuple(w) + ((GASES_BELOW_RANGE_NOTE,) if low[i] else ()) for i, w in enumerate(warnings)]
+
 
 @functools.lru_cache(maxsize=_GAMMA_CACHE_SIZE)
 def _gases_db_km(freq_ghz: float, pressure_hpa: float, temperature_c: float, water_vapour_g_m3: float) -> float:
@@ -132,6 +147,7 @@ def evaluate_profiles(
         profiles, antenna_a_amsl_m, antenna_b_amsl_m, radio.freq_ghz, k, settings, surface
     )
     gases = gaseous_loss_db(profiles, radio.freq_ghz, settings.climate)
+    warnings = _with_gas_notes(warnings, radio.freq_ghz, profiles.length_m)
     total = free_space_loss_db(profiles.length_m, radio.freq_ghz) + diffraction + gases
     return AtK(k, clear, diffraction, gases, total, link_budget(radio, total), by_method, warnings)
 
