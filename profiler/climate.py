@@ -8,6 +8,7 @@ and the atmosphere for gases (ITU-R P.676).  Checked when made.
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass, field, fields
+from typing import Any
 
 import numpy as np
 
@@ -135,7 +136,7 @@ class ClimateSettings:
         """Polarisation tilt tau, degrees (ITU-R P.838-3)."""
         return polarisation_tilt_deg(self.polarisation)
 
-    def as_dict(self) -> dict[str, float | str]:
+    def as_dict(self) -> dict[str, Any]:
         """Plain mapping of every setting (for JSON ``inputs``)."""
         out = asdict(self)
         out.pop("given")
@@ -184,11 +185,11 @@ class ClimateValues:
 
     def inputs(self, settings: ClimateSettings, i: int) -> dict:
         """``inputs.climate`` of path i: the settings with its own values and their origins."""
-        out = settings.as_dict()
+        out: dict[str, Any] = settings.as_dict()
         out["rain_rate_mm_h"] = float(self.rain_rate_mm_h[i])
         out["dn1_n_per_km"] = float(self.dn1_n_per_km[i])
         out["terrain_roughness_m"] = float(self.terrain_roughness_m[i])
-        sources = dict(out.get("sources", {}))
+        sources: dict[str, str] = dict(out.get("sources", {}))
         sources.update(rain_rate_mm_h=self.rain_origin, dn1_n_per_km=self.dn1_origin,
                        terrain_roughness_m=self.sa_origin(i))
         out["source"] = settings.source

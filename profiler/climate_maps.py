@@ -50,6 +50,18 @@ class ClimateSourceWarning(TerrahopWarning):
     """A climate value could not be taken from its source; the default is used."""
 
 
+_WARNED: set[str] = set()
+
+
+def _warn_once(message: str, category: type[Warning], *, repeat: bool) -> None:
+    """Warn; with ``repeat`` False, once per process (Python's own registry is reset by catch_warnings)."""
+    if not repeat:
+        if message in _WARNED:
+            return
+        _WARNED.add(message)
+    warnings.warn(message, category, stacklevel=3)
+
+
 def _itur() -> Any:
     """The ``itur`` package, imported on first use; InputError naming the extra when missing."""
     try:
@@ -175,13 +187,15 @@ def terrain_roughness_m(model: "ElevationModel", lat_c: ArrayLike, lon_c: ArrayL
 
 
 def climate_for_paths(settings: ClimateSettings, model: "ElevationModel | None",
-                      lat_a: ArrayLike, lon_a: ArrayLike, lat_b: ArrayLike, lon_b: ArrayLike) -> ClimateValues:
+                      lat_a: ArrayLike, lon_a: ArrayLike, lat_b: ArrayLike, lon_b: ArrayLike,
+                      *, count_in_warning: bool = True) -> ClimateValues:
     """R0.01, dN1 and sa of each path for ``settings.source == "itu"``: given values win, then maps, then defaults.
 
     R0.01 (ITU-R P.837-7) and dN1 (ITU-R P.453-13) at the geodesic path
     centre; sa from ``model`` (:func:`terrain_roughness_m`); where the model
     does not cover a path's square, the given or default sa with a
-    :class:`ClimateSourceWarning`.
+    :class:`ClimateSourceWarning` (``count_in_warning=False``: one text for every
+    call, so a screening run's chunks show it once).
     """
     lat, lon = path_centres(lat_a, lon_a, lat_b, lon_b)
     given = {name for name in ("rain_rate_mm_h", "dn1_n_per_km", "terrain_roughness_m")
@@ -201,12 +215,12 @@ def climate_for_paths(settings: ClimateSettings, model: "ElevationModel | None",
     else:
         sa, computed = terrain_roughness_m(model, lat, lon)
         if not computed.all():
-            missing = int((~computed).sum())
-            warnings.warn(
+            which = f"{int((~computed).sum())} of {n} path(s)" if count_in_warning else "some pairs"
+            _warn_once(
                 f"terrain roughness sa: the elevation rasters do not cover the 110 km x 110 km area around "
-                f"{missing} of {n} path(s) (ITU-R P.530-17 section 2.3.1); the default "
+                f"{which} (ITU-R P.530-17 section 2.3.1); the default "
                 f"{settings.terrain_roughness_m:g} m is used there",
-                ClimateSourceWarning, stacklevel=2)
+                ClimateSourceWarning, repeat=count_in_warning)
         sa = np.where(computed, sa, settings.terrain_roughness_m)
     if not (np.all(np.isfinite(rain)) and np.all(np.isfinite(dn1))):
         raise InputError("the ITU-R maps gave no value at a path centre; give --rain-rate-mm-h and --dn1")

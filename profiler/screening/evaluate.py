@@ -161,7 +161,8 @@ def _climate_values(task: ChunkTask, model: ElevationModel | None) -> Any:
         return None
     from ..climate_maps import climate_for_paths
 
-    return climate_for_paths(task.settings.climate, model, task.lat_a, task.lon_a, task.lat_b, task.lon_b)
+    return climate_for_paths(task.settings.climate, model, task.lat_a, task.lon_a, task.lat_b, task.lon_b,
+                             count_in_warning=False)
 
 
 def _blank_error_rows(out: dict[str, np.ndarray]) -> None:
