@@ -111,7 +111,7 @@ def sa_windows(lat_c: np.ndarray, lon_c: np.ndarray) -> tuple[np.ndarray, np.nda
     """Bounds (south, north, west, east) in degrees of the sa square of each path centre.
 
     ITU-R P.530-17 section 2.3.1: 110 km x 110 km, aligned with the meridian
-    through the path centre, which halves it.  South and north lie 55 km
+    through the path centre, which halves it (that clause from memory).  South and north lie 55 km
     along that meridian (geodesics due south and north, WGS84); west and east
     55 km along the parallel through the centre (arc of radius N cos(lat)).
     West/east are not folded, so a window may run past +-180.
