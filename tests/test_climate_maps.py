@@ -220,3 +220,20 @@ def test_screening_with_itu_climate_gives_each_pair_its_own_values(tmp_path, sur
     # Pairs far apart get different maps' values, so the per-pair figures differ from one shared climate.
     near, far = links.loc[("S0", "S1")], links.loc[("S2", "S3")]
     assert near["multipath_min_per_year"] != far["multipath_min_per_year"]
+
+
+def test_link_file_climate_source_is_read(tmp_path, surface):
+    from profiler.jobs import resolve_link_job
+
+    path, _ = surface
+    link = tmp_path / "l.toml"
+    link.write_text(f'[terrain]\nrasters = ["{path}"]\n[site_a]\nlat = 45.45\nlon = 7.95\n'
+                    '[site_b]\nlat = 45.55\nlon = 8.05\n[radio]\nfreq_ghz = 11\n'
+                    '[climate]\nsource = "itu"\ndn1_n_per_km = -300\n')
+    job = resolve_link_job(str(link))
+    assert job.settings.climate.source == "itu"
+    with ElevationModel([path]) as model:
+        rec = analyse_link(model, job.site_a, job.site_b, RADIO, job.settings).record(0)
+    assert rec["inputs"]["climate"]["dn1_n_per_km"] == -300.0
+    assert rec["inputs"]["climate"]["sources"]["dn1_n_per_km"] == ORIGIN_GIVEN
+    assert rec["inputs"]["climate"]["sources"]["rain_rate_mm_h"] == ORIGIN_P837
