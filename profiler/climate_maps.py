@@ -121,7 +121,8 @@ def sa_windows(lat_c: np.ndarray, lon_c: np.ndarray) -> tuple[np.ndarray, np.nda
     _, south, _ = WGS84.fwd(lon_c, lat_c, np.full_like(lat_c, 180.0), np.full_like(lat_c, half))
     phi = np.radians(lat_c)
     n_radius = WGS84.a / np.sqrt(1.0 - WGS84.es * np.sin(phi) ** 2)
-    half_lon = np.degrees(half / np.maximum(n_radius * np.cos(phi), 1.0))
+    # Near a pole the parallel is shorter than 110 km: the square takes the whole circle of longitude.
+    half_lon = np.minimum(np.degrees(half / np.maximum(n_radius * np.cos(phi), 1.0)), 180.0 - SA_STEP_DEG / 2.0)
     north = np.where(lat_c + half / 111_000.0 > 90.0, 90.0, np.asarray(north, dtype=float))
     south = np.where(lat_c - half / 111_000.0 < -90.0, -90.0, np.asarray(south, dtype=float))
     return south, north, lon_c - half_lon, lon_c + half_lon
