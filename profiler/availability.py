@@ -24,6 +24,7 @@ from .climate import (
     DEFAULT_TARGET_AVAILABILITY_PCT,
     DEFAULT_TERRAIN_ROUGHNESS_M,
     ClimateSettings,
+    ClimateValues,
 )
 from .errors import ModelValidityWarning
 from .losses.multipath import geoclimatic_factor, path_inclination_mrad
@@ -36,6 +37,7 @@ from .outage import (
     MULTIPATH_P0_TOO_LARGE,
     AvailabilityResult,
     MultipathStatus,
+    _assumptions,
     PathClimate,
     evaluate_availability,
     outage_components_pct,
@@ -161,6 +163,14 @@ class LinkAvailability:
     latitude_deg: np.ndarray
     distance_m: np.ndarray
     status: np.ndarray | None = None
+    #: Per-link R0.01, dN1 and sa with their origins (``--climate itu``); None: the settings' values.
+    values: ClimateValues | None = None
+
+    def climate_inputs(self, i: int) -> dict:
+        """``inputs.climate`` of link i: the settings, with link i's own values and origins when there are."""
+        if self.values is None:
+            return self.settings.as_dict()
+        return self.values.inputs(self.settings, i)
 
     def rain_side(self) -> np.ndarray:
         """Rain range side per link (0 where not estimated)."""
@@ -185,6 +195,10 @@ class LinkAvailability:
         if j < 0 or self.result is None:
             return {"estimated": False, "reason": self.reasons[i], "target_availability_pct": s.target_availability_pct}
         r = self.result
+        v = self.values
+        rain_rate = s.rain_rate_mm_h if v is None else float(v.rain_rate_mm_h[i])
+        dn1 = s.dn1_n_per_km if v is None else float(v.dn1_n_per_km[i])
+        sa = s.terrain_roughness_m if v is None else float(v.terrain_roughness_m[i])
         side = int(r.rain_range_side[j])
         mp_ok = bool(r.multipath_applicable[j])
         need = _none_if_nan(r.required_fade_margin_db[j])
@@ -204,7 +218,7 @@ class LinkAvailability:
             "required_fade_margin_rain_below_range": bool(r.required_margin_rain_below_range[j]),
             "required_fade_margin_rain_only_db": float(r.required_fade_margin_rain_db[j]),
             "rain": {
-                "rain_rate_mm_h": s.rain_rate_mm_h,
+                "rain_rate_mm_h": rain_rate,
                 "polarisation": s.polarisation,
                 "tilt_deg": s.tilt_deg,
                 "attenuation_001_db": float(r.rain_attenuation_001_db[j]),
@@ -219,9 +233,9 @@ class LinkAvailability:
                 "estimated": mp_ok,
                 "reason": None if mp_ok else MULTIPATH_REASONS.get(int(r.multipath_status[j])),
                 "counts_against": "error performance (not availability)",
-                "dn1_n_per_km": s.dn1_n_per_km,
-                "terrain_roughness_m": s.terrain_roughness_m,
-                "geoclimatic_factor": float(geoclimatic_factor(s.dn1_n_per_km, s.terrain_roughness_m)),
+                "dn1_n_per_km": dn1,
+                "terrain_roughness_m": sa,
+                "geoclimatic_factor": float(geoclimatic_factor(dn1, sa)),
                 "inclination_mrad": float(self.inclination_mrad[i]),
                 "latitude_deg": float(self.latitude_deg[i]),
                 "occurrence_factor_worst_month_pct": _none_if_nan(r.multipath_occurrence_factor_pct[j]),
@@ -247,6 +261,7 @@ def availability_for_links(
     *,
     meets_criterion: ArrayLike | None = None,
     solve_required: bool = True,
+    values: ClimateValues | None = None,
 ) -> LinkAvailability:
     """Availability of many links at once, skipping (with a reason) those it cannot estimate.
 
@@ -257,6 +272,7 @@ def availability_for_links(
     not close).  Multipath is left out (and said so) where its method does not
     apply; paths over 60 km carry a note.  Nothing here raises for one link.
     ``solve_required=False``: see :func:`evaluate_availability`.
+    ``values``: per-link R0.01, dN1 and sa (:func:`profiler.climate_maps.climate_for_paths`).
     """
     d, f, ha, hb, lat, ok = np.broadcast_arrays(
         np.asarray(distance_m, dtype=float),
@@ -283,8 +299,9 @@ def availability_for_links(
             result = evaluate_availability(
                 margin[idx], d[idx], f[idx], ha[idx], hb[idx], settings,
                 latitude_deg=lat[idx], multipath_outside_range="exclude", solve_required=solve_required,
+                values=None if values is None else values.take(idx),
             )
-        notes = _link_notes(settings, result, rows, d, f)
+        notes = _link_notes(settings, result, rows, d, f, values)
     return LinkAvailability(
         settings=settings,
         result=result,
@@ -295,6 +312,7 @@ def availability_for_links(
         latitude_deg=lat,
         distance_m=d,
         status=status,
+        values=values,
     )
 
 
@@ -333,7 +351,7 @@ def _reasons(status: np.ndarray, f: np.ndarray, margin: np.ndarray) -> tuple[str
 
 
 def _link_notes(settings: ClimateSettings, result: AvailabilityResult, rows: np.ndarray,
-                d: np.ndarray, f: np.ndarray) -> list[tuple[str, ...]]:
+                d: np.ndarray, f: np.ndarray, values: ClimateValues | None = None) -> list[tuple[str, ...]]:
     """Assumptions of each estimated link: those all share, then its own (empty where not estimated)."""
     atmosphere = ("pressure_hpa", "temperature_c", "water_vapour_g_m3")
     shared = (
@@ -345,13 +363,20 @@ def _link_notes(settings: ClimateSettings, result: AvailabilityResult, rows: np.
         *result.assumptions,
     )
     notes: list[tuple[str, ...]] = [shared if j >= 0 else () for j in rows.tolist()]
+    if values is not None:  # each link its own climate values and their origins
+        for i in np.flatnonzero(rows >= 0):
+            notes[i] = shared[:2] + _assumptions(settings, True, values, int(i))
+        shared_of = {int(i): notes[i] for i in np.flatnonzero(rows >= 0)}
+    else:
+        shared_of = {}
     idx = np.flatnonzero(rows >= 0)
     long_path = d > P530_RAIN_TESTED_MAX_DISTANCE_KM * 1000.0
     special = np.zeros(rows.shape[0], dtype=bool)
     special[idx] = (~result.multipath_applicable | result.rain_outside_method_range
                     | result.required_margin_rain_below_range | long_path[idx])
     for i in np.flatnonzero(special):  # links with notes of their own
-        notes[i] = shared + _own_notes(result, int(rows[i]), float(d[i]), float(f[i]), bool(long_path[i]))
+        notes[i] = (shared_of.get(int(i), shared)
+                    + _own_notes(result, int(rows[i]), float(d[i]), float(f[i]), bool(long_path[i])))
     return notes
 
 

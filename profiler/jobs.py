@@ -25,6 +25,7 @@ from fractions import Fraction
 from typing import Any, Iterator, overload
 
 from .availability import ClimateSettings
+from .climate import CLIMATE_SOURCES
 from .budget import Radio
 from .errors import PARAMETER, InputError
 from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
@@ -174,7 +175,22 @@ def resolve_climate(
     names = set(given) | ({"polarisation"} if polarisation_given else set())
     if polarisation is not None:
         given["polarisation"] = resolve_polarisation(polarisation)
-    return ClimateSettings(**given, given=frozenset(names))
+    return ClimateSettings(**given, given=frozenset(names), source=_climate_source(section, opts, source))
+
+
+def _climate_source(section: dict[str, Any], opts: dict[str, Any], source: str) -> str:
+    """``climate`` override over [climate] source: "default" or "itu" (:data:`CLIMATE_SOURCES`)."""
+    choices = ", ".join(CLIMATE_SOURCES)
+    if opts.get("climate") is not None:
+        value = opts["climate"]
+        if not isinstance(value, str) or value.strip().lower() not in CLIMATE_SOURCES:
+            raise InputError(f"{PARAMETER} must be one of {choices}, got {value!r}", parameter="climate",
+                             value_word="SOURCE")
+        return value.strip().lower()
+    value = section.get("source", "default")
+    if not isinstance(value, str) or value.strip().lower() not in CLIMATE_SOURCES:
+        raise InputError(f"{source or 'link file'}: [climate] source must be one of {choices}, got {value!r}")
+    return value.strip().lower()
 
 
 def resolve_radio(opts: dict[str, Any], section: dict[str, Any] | None = None, source: str = "link file") -> Radio:

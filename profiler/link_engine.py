@@ -225,6 +225,7 @@ def analyse_links(
         design.budget.fade_margin_db, profiles.length_m, radio.freq_ghz, antenna_a, antenna_b,
         (lat_a + lat_b) / 2.0, profiles.valid, settings.climate,
         meets_criterion=meets,  # P.530 fading methods assume a clear path: not estimated otherwise
+        values=_climate_values(settings, model, lat_a, lon_a, lat_b, lon_b),
     ) if estimate_availability else None
     return LinkBatch(
         names=tuple(names),
@@ -237,6 +238,16 @@ def analyse_links(
         surroundings=surroundings, crossings=crossings, placements_a=placements_a, placements_b=placements_b,
         clutter_warnings=clutter_warnings, availability=availability,
     )
+
+
+def _climate_values(settings: Settings, model: ElevationModel, lat_a: np.ndarray, lon_a: np.ndarray,
+                    lat_b: np.ndarray, lon_b: np.ndarray) -> Any:
+    """Per-path R0.01, dN1, sa from the ITU-R maps and the terrain (``--climate itu``); None otherwise."""
+    if settings.climate.source != "itu":
+        return None
+    from .climate_maps import climate_for_paths
+
+    return climate_for_paths(settings.climate, model, lat_a, lon_a, lat_b, lon_b)
 
 
 def _at_both_k(profiles: Profiles, antenna_a: np.ndarray, antenna_b: np.ndarray, radio: Radio,

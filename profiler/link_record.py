@@ -70,7 +70,8 @@ def _inputs_record(batch: Any, i: int) -> dict:
         "earth_radius_km": 6371.0,
         "noise_temperature_k": 290.0,
         "vertical_datum": batch.provenance.get("vertical_datum", ""),
-        "climate": settings.climate.as_dict(),
+        "climate": (batch.availability.climate_inputs(i) if batch.availability is not None
+                    else settings.climate.as_dict()),
     }
 
 

@@ -39,6 +39,7 @@ from .climate import (
     DEFAULT_TARGET_AVAILABILITY_PCT,
     DEFAULT_TERRAIN_ROUGHNESS_M,
     ClimateSettings,
+    ClimateValues,
 )
 from .errors import InputError, ModelValidityError
 from .losses.multipath import (
@@ -178,6 +179,8 @@ class PathClimate:
     settings: ClimateSettings = ClimateSettings()
     latitude_deg: ArrayLike | None = None
     multipath_outside_range: Literal["error", "exclude"] = "error"
+    #: Per-path R0.01, dN1 and sa (e.g. from the ITU-R maps) in place of the settings' single values.
+    values: ClimateValues | None = None
 
     def __post_init__(self) -> None:
         d, f, ha, hb = np.broadcast_arrays(
@@ -228,11 +231,15 @@ def _climate_terms(path: PathClimate) -> _ClimateTerms:
                     for x in (path.distance_m, path.freq_ghz, path.altitude_a_m, path.altitude_b_m))
     settings = path.settings
     elevation = path_elevation_deg(ha, hb, d)
-    a001 = rain_attenuation_001_db(d, f, settings.rain_rate_mm_h, elevation, settings.tilt_deg)
+    values = path.values
+    rain_rate = settings.rain_rate_mm_h if values is None else values.rain_rate_mm_h
+    dn1 = settings.dn1_n_per_km if values is None else values.dn1_n_per_km
+    sa = settings.terrain_roughness_m if values is None else values.terrain_roughness_m
+    a001 = rain_attenuation_001_db(d, f, rain_rate, elevation, settings.tilt_deg)
     if path.multipath_outside_range == "error":
         check_multipath_validity(d, f)
     d_km = d / 1000.0
-    k = geoclimatic_factor(settings.dn1_n_per_km, settings.terrain_roughness_m)
+    k = geoclimatic_factor(dn1, sa)
     ep = path_inclination_mrad(ha, hb, d)
     h_low = np.minimum(ha, hb)
     # ITU-R P.530-17 eq. 7 at A = 0 (the validity check is done above, per path).
@@ -360,18 +367,26 @@ def _rain_margin_for_pct(pc: _ClimateTerms, p_pct: float) -> np.ndarray:
     return pc.a001_db * c1 * np.power(10.0, -(c2 + c3 * x) * x)
 
 
-def _assumptions(settings: ClimateSettings, latitude_given: bool) -> tuple[str, ...]:
+def _assumptions(settings: ClimateSettings, latitude_given: bool, values: ClimateValues | None = None,
+                 i: int = 0) -> tuple[str, ...]:
+    """The summary's assumptions; with ``values``, those of path ``i`` (its values and their origins)."""
+    if values is None:
+        rain_text = (f"R0.01 = {settings.rain_rate_mm_h:g} mm/h"
+                     + (" (default: give the site's value from ITU-R P.837)"
+                        if "rain_rate_mm_h" in settings.defaults_used() else ""))
+        dn1_text = (f"dN1 = {settings.dn1_n_per_km:g} N-units/km"
+                    + (" (default)" if "dn1_n_per_km" in settings.defaults_used() else ""))
+        sa_text = (f"sa = {settings.terrain_roughness_m:g} m"
+                   + (" (default)" if "terrain_roughness_m" in settings.defaults_used() else ""))
+    else:
+        rain_text = f"R0.01 = {float(values.rain_rate_mm_h[i]):.4g} mm/h ({values.rain_origin})"
+        dn1_text = f"dN1 = {float(values.dn1_n_per_km[i]):.4g} N-units/km ({values.dn1_origin})"
+        sa_text = f"sa = {float(values.terrain_roughness_m[i]):.4g} m ({values.sa_origin(i)})"
     notes = [
-        "rain: ITU-R P.838-3 specific attenuation, ITU-R P.530-17 section 2.4.1 path statistics, "
-        f"R0.01 = {settings.rain_rate_mm_h:g} mm/h"
-        + (" (default: give the site's value from ITU-R P.837)" if "rain_rate_mm_h" in settings.defaults_used() else ""),
+        "rain: ITU-R P.838-3 specific attenuation, ITU-R P.530-17 section 2.4.1 path statistics, " + rain_text,
         f"polarisation {settings.polarisation} (tilt {settings.tilt_deg:g} deg)"
         + (" (default)" if "polarisation" in settings.defaults_used() else ""),
-        "multipath: ITU-R P.530-17 sections 2.3.1-2.3.2 with "
-        f"dN1 = {settings.dn1_n_per_km:g} N-units/km"
-        + (" (default)" if "dn1_n_per_km" in settings.defaults_used() else "")
-        + f", sa = {settings.terrain_roughness_m:g} m"
-        + (" (default)" if "terrain_roughness_m" in settings.defaults_used() else ""),
+        f"multipath: ITU-R P.530-17 sections 2.3.1-2.3.2 with {dn1_text}, {sa_text}",
         "availability counts rain outage only; multipath (clear-air) outage counts against error "
         "performance (ITU-R P.530-17 sections 2.3 and 2.4) and is reported apart",
         "margin needed: rain outage plus average-year multipath outage within 100 % - target "

@@ -298,6 +298,11 @@ CLIMATE_FLAGS: dict[str, tuple[str, type, str]] = {
 }
 
 climate_options = _compose(
+    _option("--climate", "climate", default=None, metavar="SOURCE",
+            help="Where R0.01, dN1 and sa come from when not given: 'itu' takes R0.01 (ITU-R P.837-7) and "
+                 "dN1 (ITU-R P.453-13) from the ITU-R maps at the path centre and sa from the elevation "
+                 "rasters (needs pip install 'terrahop[climate]'); 'default' uses the defaults "
+                 "[default: default]."),
     *[_option(flag, name, type=kind, default=None, help=text)
       for name, (flag, kind, text) in CLIMATE_FLAGS.items()]
 )

@@ -22,7 +22,8 @@ Format (all sections optional except the two sites; paths relative to the file):
     [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
                    # diffraction_method, polarisation, ground
     [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
-                   # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis])
+                   # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis]),
+                   # source = "itu" (R0.01, dN1 from the ITU-R maps, sa from the terrain) or "default"
 
 Rooftop and urban links add (all optional)::
 
@@ -75,7 +76,7 @@ SECTION_KEYS: dict[str, set[str]] = {
     "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
     "climate": {
         "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
-        "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3",
+        "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3", "source",
     },
 }
 #: Keys of one entry of [obstructions] layers.
@@ -84,9 +85,9 @@ TOP_KEYS = {"title", "notes"}
 
 #: Keys that hold text; any other type is refused with the file, table and key.
 TEXT_KEYS = {"name", "vertical_unit", "vertical_crs", "diffraction_method", "polarisation", "ground",
-             "height_field", "top_field"}
+             "height_field", "top_field", "source"}
 #: Keys that hold a number (k and k_worst may also be a fraction written as text, e.g. "4/3").
-NUMBER_KEYS = {key for table in ("radio", "climate") for key in SECTION_KEYS[table]} | {
+NUMBER_KEYS = {key for table in ("radio", "climate") for key in SECTION_KEYS[table] if key != "source"} | {
     "nodata_fill_m", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
     "antenna_ellipsoidal_m", "max_mast_m", "k", "k_worst", "sample_spacing_m", "min_f1_fraction",
     "min_f1_fraction_worst", "tree_allowance_m",

@@ -90,7 +90,7 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     out["status"][:] = PairStatus.PROFILED
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
     out["status"][bad] = PairStatus.NOT_PROFILED
-    _add_availability(task, out, length_m)
+    _add_availability(task, out, length_m, model)
     _blank_error_rows(out)
     return out, problems
 
@@ -134,8 +134,12 @@ def _evaluate_by_length(model: ElevationModel, task: ChunkTask, todo: np.ndarray
         start = stop
 
 
-def _add_availability(task: ChunkTask, out: dict, length_m: np.ndarray) -> None:
-    """Availability columns of the whole chunk (rows not profiled get none)."""
+def _add_availability(task: ChunkTask, out: dict, length_m: np.ndarray, model: ElevationModel | None = None) -> None:
+    """Availability columns of the whole chunk (rows not profiled get none).
+
+    With ``--climate itu`` each pair gets its own R0.01, dN1 (ITU-R maps, one
+    vectorised look-up per chunk) and sa (from ``model``), as ``terrahop link`` does.
+    """
     # Availability once per chunk: its per-call cost is worth spreading over many pairs.
     # The inputs are those analyse_links would pass, so the numbers are the same.
     n = task.a.size
@@ -145,9 +149,20 @@ def _add_availability(task: ChunkTask, out: dict, length_m: np.ndarray) -> None:
         out["antenna_a_amsl_m"], out["antenna_b_amsl_m"], (task.lat_a + task.lat_b) / 2.0, valid,
         task.settings.climate, meets_criterion=out["meets_criterion"] == 1,
         solve_required=False,  # the margin needed is not a screening column
+        values=_climate_values(task, model),
     )
     for name, values in _availability_columns(av, n).items():
         out[name][:] = values
+
+
+def _climate_values(task: ChunkTask, model: ElevationModel | None) -> Any:
+    """Per-pair climate values for ``--climate itu`` (None otherwise)."""
+    if task.settings.climate.source != "itu":
+        return None
+    from ..climate_maps import climate_for_paths
+
+    return climate_for_paths(task.settings.climate, model, task.lat_a, task.lon_a, task.lat_b, task.lon_b,
+                             count_in_warning=False)
 
 
 def _blank_error_rows(out: dict[str, np.ndarray]) -> None:
