@@ -137,3 +137,37 @@ class TileServer:
     def hits_of(self, path: str) -> list[str | None]:
         """Range headers of the requests for ``path``."""
         return [r for p, r in self.hits if p == path]
+
+
+#: Rows of the small Copernicus-like tiles the tests serve (TERRAHOP_TILE_ROWS).
+TEST_ROWS = 300
+
+
+def copernicus_tiles(root: Path, origins, name: str = "copernicus-30", rows: int = TEST_ROWS) -> list[Path]:
+    """Write Copernicus-like tiles for ``origins`` ((lat0, lon0) each) under ``root`` in the dataset's layout."""
+    from profiler.terrain_sources import dataset
+
+    d = dataset(name)
+    return [write_cog_tile(root / d.tile_path(la, lo), la, lo, rows) for la, lo in origins]
+
+
+try:
+    import pytest
+except ImportError:  # the benchmark runs without pytest
+    pytest = None  # type: ignore[assignment]
+
+if pytest is not None:
+    @pytest.fixture
+    def tile_server(tmp_path, monkeypatch):
+        """A TileServer on 127.0.0.1 over ``tmp_path/www``; cache in ``tmp_path/cache``, small tiles,
+        short time-out (1 s) and back-off (0.05 s)."""
+        monkeypatch.setenv("TERRAHOP_CACHE", str(tmp_path / "cache"))
+        monkeypatch.setenv("TERRAHOP_TILE_ROWS", str(TEST_ROWS))
+        monkeypatch.setenv("TERRAHOP_FETCH_TIMEOUT_S", "1")
+        monkeypatch.setenv("TERRAHOP_FETCH_BACKOFF_S", "0.05")
+        monkeypatch.delenv("TERRAHOP_TERRAIN_URL", raising=False)
+        server = TileServer(tmp_path / "www", slow_s=2.0).start()
+        try:
+            yield server
+        finally:
+            server.stop()
