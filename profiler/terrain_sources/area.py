@@ -50,7 +50,8 @@ def bbox_around(lats: Iterable[float], lons: Iterable[float], margin_km: float) 
     if not lats:
         raise InputError("no sites to fetch terrain around")
     if not (math.isfinite(margin_km) and 0 <= margin_km <= 500):
-        raise InputError(f"margin must be 0 to 500 km, got {margin_km:g}", parameter="margin_km", value_word="KM")
+        raise InputError(f"{{parameter}} must be 0 to 500 km, got {margin_km:g}", parameter="margin_km",
+                         value_word="KM")
     s, n = min(lats), max(lats)
     dlat = margin_km * 1000 / _M_PER_DEG
     widest = min(89.0, max(abs(s), abs(n)) + dlat)
@@ -64,7 +65,8 @@ def ensure_bbox(request: TerrainRequest, bbox: tuple[float, float, float, float]
     d = dataset(request.source)
     w, s, e, n = bbox
     if not (-180 <= w < e <= 180 and -90 <= s < n <= 90):
-        raise InputError(f"box must be W,S,E,N in degrees with W < E and S < N, got {w:g},{s:g},{e:g},{n:g}",
+        raise InputError(f"{{parameter}}: the box must have W < E and S < N within -180..180 and -90..90, "
+                         f"got {w:g},{s:g},{e:g},{n:g}",
                          parameter="bbox", value_word="W,S,E,N")
     origins = tile_origins(bbox)
     folder = dataset_folder(cache_root(), d.name)
