@@ -142,8 +142,20 @@ def _tile_lock(path: Path) -> Iterator[None]:
         os.close(fd)  # releases the lock
 
 
-def _get(url: str, part: Path, timeout_s: float, progress: Callable[[int], None] | None) -> bool:
-    """Download ``url`` into ``part`` (resuming what is there); False when the source has no such file."""
+def _hasher_of(path: Path) -> "hashlib._Hash":
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(_CHUNK), b""):
+            h.update(chunk)
+    return h
+
+
+def _get(url: str, part: Path, timeout_s: float, progress: Callable[[int], None] | None,
+         digest: list) -> bool:
+    """Download ``url`` into ``part`` (resuming what is there); False when the source has no such file.
+
+    ``digest`` receives the SHA-256 hasher of the whole file, fed as the bytes arrive (no second read).
+    """
     have = part.stat().st_size if part.exists() else 0
     request = urllib.request.Request(url, headers={"User-Agent": f"terrahop/{__version__}"})
     if have:
@@ -172,12 +184,17 @@ def _get(url: str, part: Path, timeout_s: float, progress: Callable[[int], None]
             have = 0  # the server sent the whole file
         length = response.headers.get("Content-Length")
         total = have + int(length) if length and length.isdigit() else None
+        h = _hasher_of(part) if have else hashlib.sha256()
+        digest[:] = [h]
         try:
+            buffer = bytearray(_CHUNK)
+            view = memoryview(buffer)
             with open(part, "ab" if have else "wb") as fh:
-                while chunk := response.read(_CHUNK):
-                    fh.write(chunk)
+                while n := response.readinto(buffer):
+                    fh.write(view[:n])
+                    h.update(view[:n])  # hashlib releases the GIL on large buffers: 4 downloads hash at once
                     if progress is not None:
-                        progress(len(chunk))
+                        progress(n)
         except (TimeoutError, ConnectionError, http.client.HTTPException) as exc:
             raise _Transient(f"{exc.__class__.__name__} after {part.stat().st_size} bytes") from None
     if total is not None and part.stat().st_size != total:
@@ -208,16 +225,19 @@ def _check_raster(path: Path, d: Dataset, lat0: int, lon0: int, url: str) -> Non
                         f"(it covers {tuple(round(b, 5) for b in bounds)})")
 
 
-def _finish(part: Path, final: Path, d: Dataset, lat0: int, lon0: int, url: str) -> None:
-    """Check the downloaded ``part`` and rename it to ``final`` (SRTM decompressed first)."""
+def _finish(part: Path, final: Path, d: Dataset, lat0: int, lon0: int, url: str, digest: str) -> str:
+    """Check the downloaded ``part`` and rename it to ``final`` (SRTM decompressed first); its SHA-256."""
     if d.kind == "hgt":
         # GDAL reads an HGT file by its name (N45E007.hgt): decompress into a private folder of that name.
         folder = final.parent / f".tmp-{os.getpid()}-{final.stem}"
         folder.mkdir(exist_ok=True)
         plain = folder / final.name
+        h = hashlib.sha256()
         try:
             with gzip.open(part, "rb") as src, open(plain, "wb") as dst:
-                shutil.copyfileobj(src, dst, _CHUNK)
+                while chunk := src.read(_CHUNK):
+                    dst.write(chunk)
+                    h.update(chunk)
         except (OSError, EOFError):
             shutil.rmtree(folder, ignore_errors=True)
             part.unlink(missing_ok=True)
@@ -232,13 +252,14 @@ def _finish(part: Path, final: Path, d: Dataset, lat0: int, lon0: int, url: str)
         os.replace(plain, final)
         shutil.rmtree(folder, ignore_errors=True)
         part.unlink(missing_ok=True)
-        return
+        return h.hexdigest()
     try:
         _check_raster(part, d, lat0, lon0, url)
     except DataError:
         part.unlink(missing_ok=True)
         raise
     os.replace(part, final)
+    return digest
 
 
 def _fetch_one(folder: Path, d: Dataset, base: str, lat0: int, lon0: int, offline: bool,
@@ -262,12 +283,13 @@ def _fetch_one(folder: Path, d: Dataset, base: str, lat0: int, lon0: int, offlin
             return FetchedTile(key, url, None, None, "sea")
         part = final.parent / (Path(d.tile_path(lat0, lon0)).name + ".part")
         timeout_s, backoff_s = _env_float(TIMEOUT_ENV, DEFAULT_TIMEOUT_S), _env_float(BACKOFF_ENV, DEFAULT_BACKOFF_S)
-        last = ""
+        last: str = ""
+        digest: list = []
         for attempt in range(TRIES):
             if attempt:
                 time.sleep(backoff_s * 2 ** (attempt - 1))
             try:
-                found = _get(url, part, timeout_s, progress)
+                found = _get(url, part, timeout_s, progress, digest)
             except _Transient as exc:
                 last = str(exc)
                 continue
@@ -276,8 +298,8 @@ def _fetch_one(folder: Path, d: Dataset, base: str, lat0: int, lon0: int, offlin
                 sea.write_text(url + "\n")
                 return FetchedTile(key, url, None, None, "sea")
             size = part.stat().st_size
-            _finish(part, final, d, lat0, lon0, url)
-            return FetchedTile(key, url, str(final), sha256_of(final), "downloaded", size)
+            sha = _finish(part, final, d, lat0, lon0, url, digest[0].hexdigest())
+            return FetchedTile(key, url, str(final), sha, "downloaded", size)
         raise DataError(f"could not download terrain tile {key} from {url} after {TRIES} tries "
                         f"(last: {last}); run again to resume, or use --terrain-url for a mirror")
 
