@@ -240,7 +240,7 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
     terrain = _terrain_request(spec, opts)
     if not rasters and terrain is None:
         raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file, "
-                         "or an open dataset with --terrain SOURCE", parameter="dem", value_word="FILE")
+                         "or an open dataset ([terrain] source)", parameter="dem", value_word="FILE")
     a, b = _site(spec, opts, "a"), _site(spec, opts, "b")
     radio = resolve_radio(opts, spec.radio, spec.path)
     settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)

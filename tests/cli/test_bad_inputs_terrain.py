@@ -21,7 +21,7 @@ SITES = ["--site-a", "45.5,7.3", "--site-b", "45.6,7.6", "--freq-ghz", "11"]
         (["terrain", "fetch", "aster", "--bbox", "7,45,8,46"], ["aster"]),
         (["link", "--terrain", "aster", *SITES], ["unknown terrain source", "copernicus-30"]),
         (["heights", "--terrain", "gtopo", *SITES], ["unknown terrain source"]),
-        (["link", *SITES], ["--terrain SOURCE", "--dem"]),
+        (["link", *SITES], ["[terrain] source", "--dem"]),
     ],
 )
 def test_refused_before_any_download(args, words, tile_server):
