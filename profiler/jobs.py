@@ -265,6 +265,10 @@ def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
 
     source = _pick(opts.get("terrain"), spec.terrain, "source")
     if source is None:
+        for key in ("terrain_url", "offline"):
+            if opts.get(key):
+                raise InputError(f"{PARAMETER} applies to an open dataset: give terrain as well",
+                                 parameter=key)
         return None
     if not isinstance(source, str):
         raise InputError(f"{spec.path or 'link file'}: [terrain] source must be text, got {source!r}")

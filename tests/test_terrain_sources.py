@@ -224,3 +224,36 @@ def test_two_processes_fetching_one_tile_leave_one_good_file(tile_server):
     tiles = list(cache.rglob("*.tif"))
     assert len(tiles) == 1 and tiles[0].read_bytes() == (tile_server.root / N45E007).read_bytes()
     assert not list(cache.rglob("*.part"))
+
+
+def test_a_part_left_by_a_killed_run_is_resumed(tile_server):
+    copernicus_tiles(tile_server.root, [(45, 7)])
+    body = (tile_server.root / N45E007).read_bytes()
+    cache = Path(os.environ["TERRAHOP_CACHE"]) / "terrain" / "copernicus-30"
+    part = cache / Path(N45E007).parent / (Path(N45E007).name + ".part")
+    part.parent.mkdir(parents=True)
+    part.write_bytes(body[:1000])
+    fetched = ensure_bbox(TerrainRequest("copernicus-30", tile_server.url), (7.2, 45.2, 7.8, 45.8))
+    assert tile_server.hits_of(N45E007) == ["bytes=1000-"]
+    assert Path(fetched.tiles[0].path).read_bytes() == body and not part.exists()
+    import hashlib
+
+    assert fetched.tiles[0].sha256 == hashlib.sha256(body).hexdigest()
+
+
+def test_a_partial_mirror_does_not_mark_the_sources_tiles_as_sea(tile_server, tmp_path):
+    copernicus_tiles(tile_server.root, [(45, 7)])
+    (tmp_path / "empty-mirror").mkdir()
+    with pytest.warns(SeaTileWarning):
+        from_mirror = ensure_bbox(TerrainRequest("copernicus-30", str(tmp_path / "empty-mirror")),
+                                  (7.2, 45.2, 7.8, 45.8))
+    assert from_mirror.tiles[0].status == "sea" and from_mirror.base_url.startswith("file://")
+    from_source = ensure_bbox(TerrainRequest("copernicus-30", tile_server.url), (7.2, 45.2, 7.8, 45.8))
+    assert from_source.tiles[0].status == "downloaded"
+
+
+@pytest.mark.parametrize("url, words", [("/no/such/folder", "nor an existing folder"),
+                                        ("gopher://x", "not gopher"), ("http://[bad", "not a URL")])
+def test_bad_base_urls(url, words):
+    with pytest.raises(InputError, match=words):
+        TerrainRequest("srtm-1", url).base_url()

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import math
 import os
+import urllib.parse
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
@@ -40,8 +41,26 @@ class TerrainRequest:
     offline: bool = False
 
     def base_url(self) -> str:
-        """The base URL in force: the request's, ``TERRAHOP_TERRAIN_URL``, or the dataset's own."""
-        return self.url or os.environ.get(URL_ENV) or dataset(self.source).base_url
+        """The base URL in force: the request's, ``TERRAHOP_TERRAIN_URL``, or the dataset's own.
+
+        A plain path of an existing folder is taken as a ``file://`` URL.
+        """
+        given = self.url or os.environ.get(URL_ENV)
+        if not given:
+            return dataset(self.source).base_url
+        where = "--terrain-url" if self.url else URL_ENV
+        scheme = given.split("://", 1)[0].lower() if "://" in given else ""
+        if not scheme:
+            if os.path.isdir(given):
+                return Path(given).resolve().as_uri()
+            raise InputError(f"{where} {given!r} is neither a URL (http://, https://, file://) nor an existing folder")
+        try:
+            urllib.parse.urlsplit(given)
+        except ValueError as exc:
+            raise InputError(f"{where} {given!r} is not a URL ({exc})") from None
+        if scheme not in ("http", "https", "file", "ftp"):
+            raise InputError(f"{where} {given!r}: terrahop fetches over http, https, ftp or file, not {scheme}")
+        return given
 
 
 def bbox_around(lats: Iterable[float], lons: Iterable[float], margin_km: float) -> tuple[float, float, float, float]:

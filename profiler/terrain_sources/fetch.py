@@ -112,14 +112,17 @@ def tile_file(folder: Path, d: Dataset, lat0: int, lon0: int) -> Path:
     return folder / (rel[:-3] if rel.endswith(".gz") else rel)
 
 
-def _sea_marker(folder: Path, d: Dataset, lat0: int, lon0: int) -> Path:
-    return folder / "no-tile" / f"{d.tile_key(lat0, lon0)}.none"
+def _sea_marker(folder: Path, d: Dataset, lat0: int, lon0: int, base: str) -> Path:
+    """Where "no tile" is remembered: per base URL, so a partial mirror never marks a tile of the
+    dataset's own source as sea."""
+    source = hashlib.sha256(base.rstrip("/").encode()).hexdigest()[:16]
+    return folder / "no-tile" / source / f"{d.tile_key(lat0, lon0)}.none"
 
 
-def missing_tiles(folder: Path, d: Dataset, origins: list[tuple[int, int]]) -> list[str]:
-    """Tiles neither cached nor remembered as open sea."""
+def missing_tiles(folder: Path, d: Dataset, origins: list[tuple[int, int]], base: str) -> list[str]:
+    """Tiles neither cached nor remembered as open sea at ``base``."""
     return [d.tile_key(la, lo) for la, lo in origins
-            if not tile_file(folder, d, la, lo).exists() and not _sea_marker(folder, d, la, lo).exists()]
+            if not tile_file(folder, d, la, lo).exists() and not _sea_marker(folder, d, la, lo, base).exists()]
 
 
 def sha256_of(path: Path) -> str:
@@ -157,10 +160,10 @@ def _get(url: str, part: Path, timeout_s: float, progress: Callable[[int], None]
     ``digest`` receives the SHA-256 hasher of the whole file, fed as the bytes arrive (no second read).
     """
     have = part.stat().st_size if part.exists() else 0
-    request = urllib.request.Request(url, headers={"User-Agent": f"terrahop/{__version__}"})
-    if have:
-        request.add_header("Range", f"bytes={have}-")
     try:
+        request = urllib.request.Request(url, headers={"User-Agent": f"terrahop/{__version__}"})
+        if have:
+            request.add_header("Range", f"bytes={have}-")
         response = urllib.request.urlopen(request, timeout=timeout_s)
     except urllib.error.HTTPError as exc:
         exc.close()
@@ -178,6 +181,8 @@ def _get(url: str, part: Path, timeout_s: float, progress: Callable[[int], None]
         raise _Transient(str(exc.reason)) from None
     except (TimeoutError, ConnectionError, http.client.HTTPException) as exc:
         raise _Transient(exc.__class__.__name__) from None
+    except ValueError as exc:  # a garbled address (urllib and http.client say so with ValueError)
+        raise DataError(f"{url} is not an address terrahop can fetch ({exc})") from None
     with response:
         status = response.getcode()
         if have and status != 206:
@@ -266,7 +271,7 @@ def _fetch_one(folder: Path, d: Dataset, base: str, lat0: int, lon0: int, offlin
                progress: Callable[[int], None] | None) -> FetchedTile:
     """Cached tile, downloaded tile or open sea; DataError when it cannot be had."""
     key, url = d.tile_key(lat0, lon0), d.url(base, lat0, lon0)
-    final, sea = tile_file(folder, d, lat0, lon0), _sea_marker(folder, d, lat0, lon0)
+    final, sea = tile_file(folder, d, lat0, lon0), _sea_marker(folder, d, lat0, lon0, base)
     if final.exists():
         return FetchedTile(key, url, str(final), sha256_of(final), "cached")
     if sea.exists():
@@ -308,7 +313,7 @@ def fetch_tiles(folder: Path, d: Dataset, base: str, origins: list[tuple[int, in
                 progress: Callable[[int], None] | None = None) -> list[FetchedTile]:
     """Every tile of ``origins`` from the cache or the source, at most :data:`MAX_PARALLEL` at once."""
     if offline:
-        missing = missing_tiles(folder, d, origins)
+        missing = missing_tiles(folder, d, origins, base)
         if missing:
             raise DataError(_offline_message(d, missing, origins))
     if not origins:

@@ -85,3 +85,17 @@ def test_link_file_with_a_non_boolean_offline(tile_server, tmp_path):
     f.write_text('[terrain]\nsource = "srtm-1"\noffline = "yes"\n[site_a]\nlat = 45.5\nlon = 7.3\n[site_b]\n'
                  'lat = 45.6\nlon = 7.6\n[radio]\nfreq_ghz = 11\n')
     assert_refused(["link", str(f)], ["offline", "true or false"], inputs=[f])
+
+
+@pytest.mark.parametrize(
+    "extra, words",
+    [
+        (["--dem", "x.tif", "--offline"], ["--offline", "open dataset"]),
+        (["--dem", "x.tif", "--terrain-url", "http://127.0.0.1:9"], ["--terrain-url", "open dataset"]),
+        (["--terrain", "srtm-1", "--terrain-url", "http://[bad"], ["--terrain-url", "not a URL"]),
+        (["--terrain", "srtm-1", "--terrain-url", "/no/such/folder"], ["--terrain-url", "existing folder"]),
+    ],
+)
+def test_terrain_flags_that_cannot_work(extra, words, tile_server):
+    assert_refused(["link", *SITES, *extra], words)
+    assert tile_server.hits == []
