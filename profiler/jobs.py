@@ -288,14 +288,17 @@ def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
     return TerrainRequest(name, url, offline)
 
 
-def fetch_terrain(job: LinkJob, lats: Any = (), lons: Any = ()) -> Any:
-    """Fetch (or find in the cache) the tiles around the job's sites and ``lats``/``lons``; None without a source."""
+def fetch_terrain(job: LinkJob, lats: Any = (), lons: Any = (), progress: Any = None) -> Any:
+    """Fetch (or find in the cache) the tiles around the job's sites and ``lats``/``lons``; None without a source.
+
+    ``progress`` is called with each count of bytes received.
+    """
     if job.terrain is None:
         return None
     from .terrain_sources import ensure_area
 
     return ensure_area(job.terrain, [job.site_a.lat_deg, job.site_b.lat_deg, *lats],
-                       [job.site_a.lon_deg, job.site_b.lon_deg, *lons])
+                       [job.site_a.lon_deg, job.site_b.lon_deg, *lons], progress=progress)
 
 
 def _site(spec: LinkSpec, opts: dict[str, Any], tag: str) -> Site:
@@ -398,14 +401,17 @@ def open_surroundings(job: LinkJob) -> Surroundings | None:
 
 
 @contextlib.contextmanager
-def open_job_data(job: LinkJob, lats: Any = (), lons: Any = ()) -> Iterator[tuple[ElevationModel, Surroundings | None]]:
+def open_job_data(job: LinkJob, lats: Any = (), lons: Any = (),
+                  fetched: Any = None) -> Iterator[tuple[ElevationModel, Surroundings | None]]:
     """Open the elevation model and the surroundings (layers, surface) of a job; close both after.
 
     With an open dataset (``job.terrain``) its tiles around the sites (and
     ``lats``/``lons``, other pairs' ends) are fetched first; given rasters come
-    before its VRT, so they win where they cover.
+    before its VRT, so they win where they cover.  ``fetched``: the result of
+    :func:`fetch_terrain` when the caller fetched already.
     """
-    fetched = fetch_terrain(job, lats, lons)
+    if fetched is None:
+        fetched = fetch_terrain(job, lats, lons)
     rasters = job.rasters + ((fetched.vrt,) if fetched is not None else ())
     surroundings = open_surroundings(job)
     try:

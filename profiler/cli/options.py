@@ -351,7 +351,14 @@ def opened_link_data(job: Any, lats: Any = (), lons: Any = ()) -> Any:
     """Context manager opening the elevation model and surroundings of a job (:func:`profiler.jobs.open_job_data`)."""
     from ..jobs import open_job_data
 
-    return open_job_data(job, lats, lons)
+    fetched = None
+    if getattr(job, "terrain", None) is not None:
+        from ..jobs import fetch_terrain
+        from .fetch_progress import progress_bar
+
+        with progress_bar() as bar:  # bytes on stderr while tiles download (a terminal only)
+            fetched = fetch_terrain(job, lats, lons, bar)
+    return open_job_data(job, lats, lons, fetched=fetched)
 
 
 def analyse_resolved(job: Any, model: Any, surroundings: Any, *, mount_a: Any = None, mount_b: Any = None) -> Any:

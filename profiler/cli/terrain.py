@@ -2,12 +2,10 @@
 
 from __future__ import annotations
 
-import sys
-from typing import Any
-
 import click
 
 from ..errors import InputError
+from .fetch_progress import progress_bar
 from .options import friendly_errors
 
 __all__ = ["terrain", "fetch", "sites_of_file", "parse_bbox"]
@@ -65,36 +63,6 @@ def sites_of_file(path: str) -> tuple[list[float], list[float]]:
     if len(sites) == 0:
         raise InputError(f"{path}: no usable site positions to fetch terrain around")
     return [float(v) for v in sites.lat_deg], [float(v) for v in sites.lon_deg]
-
-
-class _Progress:
-    """Tiles and bytes on stderr when it is a terminal (rich); nothing otherwise."""
-
-    def __init__(self) -> None:
-        self.bar: Any = None
-        if sys.stderr.isatty():
-            from rich.progress import DownloadColumn, Progress, SpinnerColumn, TextColumn
-
-            self.bar = Progress(SpinnerColumn(), TextColumn("fetching terrain"), DownloadColumn(), transient=True)
-            self.task = self.bar.add_task("bytes", total=None)
-
-    def __enter__(self) -> "_Progress":
-        if self.bar is not None:
-            self.bar.start()
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        if self.bar is not None:
-            self.bar.stop()
-
-    def __call__(self, n_bytes: int) -> None:
-        if self.bar is not None:
-            self.bar.advance(self.task, n_bytes)
-
-
-def progress_bar() -> _Progress:
-    """A byte counter on stderr shown only on a terminal."""
-    return _Progress()
 
 
 @click.group()
