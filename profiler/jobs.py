@@ -283,6 +283,10 @@ def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
     offline = bool(opts.get("offline")) or spec.terrain.get("offline", False)
     if url is not None and not isinstance(url, str):
         raise InputError(f"{spec.path}: [terrain] url must be text, got {url!r}")
+    if opts.get("terrain_url") is None and url is not None and "://" not in url and spec.path:
+        from pathlib import Path
+
+        url = str(Path(spec.path).parent / url)  # a folder named in a link file is relative to the file
     if not isinstance(offline, bool):
         raise InputError(f"{spec.path}: [terrain] offline must be true or false, got {offline!r}")
     return TerrainRequest(name, url, offline)

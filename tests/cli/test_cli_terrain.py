@@ -139,3 +139,17 @@ def test_offline_link_with_a_missing_tile_is_one_line(tile_server):
 def test_help_names_terrain(command, cli):
     out = cli(command, "--help")
     assert "--terrain SOURCE" in out.stdout and "--offline" in out.stdout
+
+
+def test_link_file_mirror_folder_is_relative_to_the_file(tmp_path, monkeypatch, cli):
+    monkeypatch.setenv("TERRAHOP_CACHE", str(tmp_path / "cache"))
+    monkeypatch.setenv("TERRAHOP_TILE_ROWS", "300")
+    copernicus_tiles(tmp_path / "job" / "mirror", [(45, 7)])
+    link_file = tmp_path / "job" / "l.toml"
+    link_file.write_text('[terrain]\nsource = "copernicus-30"\nurl = "mirror"\n[site_a]\nlat = 45.5\nlon = 7.3\n'
+                         '[site_b]\nlat = 45.6\nlon = 7.6\n[radio]\nfreq_ghz = 11\n')
+    monkeypatch.chdir(tmp_path)
+    out = cli("link", str(link_file), "--json")
+    assert out.exit_code == 0, out.output
+    ts = json.loads(out.stdout)["provenance"]["terrain_source"]
+    assert ts["base_url"].startswith("file://") and ts["tiles"][0]["sha256"]
