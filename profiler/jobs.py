@@ -93,6 +93,8 @@ class LinkJob:
     mount_b: Any = None
     max_mast_a_m: float | None = None
     max_mast_b_m: float | None = None
+    #: Open dataset fetched around the sites (profiler.terrain_sources.TerrainRequest), or None.
+    terrain: Any = None
 
 
 def default_text(name: str) -> str:
@@ -251,9 +253,10 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
     opts = dict(overrides or {})
     spec = read_link_file(link_file) if link_file else LinkSpec(path="", title=None)
     rasters = tuple(opts.get("dem") or ()) or tuple(spec.terrain.get("rasters", ()))
-    if not rasters:
-        raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file",
-                         parameter="dem", value_word="FILE")
+    terrain = _terrain_request(spec, opts)
+    if not rasters and terrain is None:
+        raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file, "
+                         "or an open dataset ([terrain] source)", parameter="dem", value_word="FILE")
     a, b = _site(spec, opts, "a"), _site(spec, opts, "b")
     radio = resolve_radio(opts, spec.radio, spec.path)
     settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
@@ -267,8 +270,55 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         site_b=b,
         radio=radio,
         settings=settings,
+        terrain=terrain,
         **_resolve_urban(spec, opts),
     )
+
+
+def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
+    """The open dataset to fetch (``terrain`` over [terrain] source, with url and offline), or None."""
+    from .terrain_sources import TerrainRequest, dataset
+
+    source = _pick(opts.get("terrain"), spec.terrain, "source")
+    if source is None:
+        for key in ("terrain_url", "offline"):
+            if opts.get(key):
+                raise InputError(f"{PARAMETER} applies to an open dataset: give terrain as well",
+                                 parameter=key)
+        return None
+    if not isinstance(source, str):
+        raise InputError(f"{spec.path or 'link file'}: [terrain] source must be text, got {source!r}")
+    try:
+        name = dataset(source).name
+    except InputError as exc:
+        if opts.get("terrain") is None:
+            raise InputError(f"{spec.path}: [terrain] source: " + exc.template.replace(
+                "unknown terrain source", "unknown")) from None
+        raise
+    url = _pick(opts.get("terrain_url"), spec.terrain, "url")
+    offline = bool(opts.get("offline")) or spec.terrain.get("offline", False)
+    if url is not None and not isinstance(url, str):
+        raise InputError(f"{spec.path}: [terrain] url must be text, got {url!r}")
+    if opts.get("terrain_url") is None and url is not None and "://" not in url and spec.path:
+        from pathlib import Path
+
+        url = str(Path(spec.path).parent / url)  # a folder named in a link file is relative to the file
+    if not isinstance(offline, bool):
+        raise InputError(f"{spec.path}: [terrain] offline must be true or false, got {offline!r}")
+    return TerrainRequest(name, url, offline)
+
+
+def fetch_terrain(job: LinkJob, lats: Any = (), lons: Any = (), progress: Any = None) -> Any:
+    """Fetch (or find in the cache) the tiles around the job's sites and ``lats``/``lons``; None without a source.
+
+    ``progress`` is called with each count of bytes received.
+    """
+    if job.terrain is None:
+        return None
+    from .terrain_sources import ensure_area
+
+    return ensure_area(job.terrain, [job.site_a.lat_deg, job.site_b.lat_deg, *lats],
+                       [job.site_a.lon_deg, job.site_b.lon_deg, *lons], progress=progress)
 
 
 def _site(spec: LinkSpec, opts: dict[str, Any], tag: str) -> Site:
@@ -371,11 +421,23 @@ def open_surroundings(job: LinkJob) -> Surroundings | None:
 
 
 @contextlib.contextmanager
-def open_job_data(job: LinkJob) -> Iterator[tuple[ElevationModel, Surroundings | None]]:
-    """Open the elevation model and the surroundings (layers, surface) of a job; close both after."""
+def open_job_data(job: LinkJob, lats: Any = (), lons: Any = (),
+                  fetched: Any = None) -> Iterator[tuple[ElevationModel, Surroundings | None]]:
+    """Open the elevation model and the surroundings (layers, surface) of a job; close both after.
+
+    With an open dataset (``job.terrain``) its tiles around the sites (and
+    ``lats``/``lons``, other pairs' ends) are fetched first; given rasters come
+    before its VRT, so they win where they cover.  ``fetched``: the result of
+    :func:`fetch_terrain` when the caller fetched already.
+    """
+    if fetched is None:
+        fetched = fetch_terrain(job, lats, lons)
+    rasters = job.rasters + ((fetched.vrt,) if fetched is not None else ())
     surroundings = open_surroundings(job)
     try:
-        with ElevationModel(job.rasters, vertical_unit=job.vertical_unit, nodata_fill_m=job.nodata_fill_m) as model:
+        with ElevationModel(rasters, vertical_unit=job.vertical_unit, nodata_fill_m=job.nodata_fill_m) as model:
+            if fetched is not None:
+                model.terrain_source = fetched.provenance()
             yield model, surroundings
     finally:
         if surroundings is not None and surroundings.surface is not None:

@@ -307,12 +307,16 @@ def _profiles_with_surroundings(model: ElevationModel, surroundings: Any, settin
 def _provenance(model: ElevationModel) -> dict:
     """Where the heights came from, their vertical datum, the software and the time of the run."""
     datums = sorted({s.vertical_datum for s in model.sources})
-    return {
+    out = {
         "elevation_sources": model.describe(),
         "vertical_datum": "; ".join(datums),
         "software_version": f"terrahop {__version__}",
         "computed_at": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
     }
+    terrain_source = getattr(model, "terrain_source", None)  # set by profiler.jobs for a fetched dataset
+    if terrain_source is not None:
+        out["terrain_source"] = terrain_source
+    return out
 
 
 def _with_surface_cells(profiles: Profiles, surface: Any, spacing_m: float | None, names: list[str]) -> Profiles:

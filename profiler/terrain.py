@@ -195,6 +195,10 @@ class ElevationModel:
         leaves such points as NaN so the caller can refuse them.
     """
 
+    #: Provenance of an open dataset fetched into the cache (profiler.terrain_sources), set by
+    #: profiler.jobs when one of the rasters is its VRT; None otherwise.
+    terrain_source: dict | None = None
+
     def __init__(
         self,
         paths: Sequence[str | os.PathLike],

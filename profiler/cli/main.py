@@ -15,6 +15,7 @@ from .link import link
 from .options import quiet_broken_pipe
 from .screen import screen
 from .sheet import sheet
+from .terrain import terrain
 
 
 def format_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int) -> str:
@@ -67,6 +68,7 @@ cli.add_command(demo)
 cli.add_command(heights)
 cli.add_command(sheet)
 cli.add_command(screen)
+cli.add_command(terrain)
 
 
 def main() -> None:

@@ -196,6 +196,14 @@ terrain_options = _compose(
             help="Unit of the raster heights [default: the band's unit metadata, else m]."),
     _option("--nodata-fill-m", type=float, default=None, metavar="HEIGHT",
             help="Use this height (m) where the raster has nodata on the path, instead of refusing the path."),
+    _option("--terrain", "terrain", default=None, metavar="SOURCE",
+            help="Open elevation dataset fetched around the sites into the cache on first use: copernicus-30, "
+                 "copernicus-90 (surface models, EGM2008) or srtm-1 (EGM96). --dem rasters win where they cover."),
+    _option("--terrain-url", default=None, metavar="BASE",
+            help="Base URL of a mirror of the --terrain dataset (http(s):// or file://) "
+                 "[default: TERRAHOP_TERRAIN_URL, else the dataset's own]."),
+    _option("--offline", is_flag=True, default=None,
+            help="Use only tiles already in the cache (terrahop terrain fetch gets them)."),
 )
 
 site_options = _compose(
@@ -344,11 +352,18 @@ def resolve_settings(opts: dict[str, Any], an: dict[str, Any] | None = None,
     return resolve(opts, an, climate_section, source)
 
 
-def opened_link_data(job: Any) -> Any:
+def opened_link_data(job: Any, lats: Any = (), lons: Any = ()) -> Any:
     """Context manager opening the elevation model and surroundings of a job (:func:`profiler.jobs.open_job_data`)."""
     from ..jobs import open_job_data
 
-    return open_job_data(job)
+    fetched = None
+    if getattr(job, "terrain", None) is not None:
+        from ..jobs import fetch_terrain
+        from .fetch_progress import progress_bar
+
+        with progress_bar() as bar:  # bytes on stderr while tiles download (a terminal only)
+            fetched = fetch_terrain(job, lats, lons, bar)
+    return open_job_data(job, lats, lons, fetched=fetched)
 
 
 def analyse_resolved(job: Any, model: Any, surroundings: Any, *, mount_a: Any = None, mount_b: Any = None) -> Any:

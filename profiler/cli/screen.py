@@ -222,7 +222,14 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                                      layer=layer))
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit)
-    model = ElevationModel(opts["dem"], vertical_unit=opts.get("vertical_unit"),
+    rasters, fetched = list(opts["dem"]), None
+    if opts.get("terrain"):  # an open dataset around every site, after the given rasters (they win)
+        from ..terrain_sources import TerrainRequest, dataset, ensure_area
+
+        request = TerrainRequest(dataset(opts["terrain"]).name, opts.get("terrain_url"), bool(opts.get("offline")))
+        fetched = ensure_area(request, sites.lat_deg, sites.lon_deg)
+        rasters.append(fetched.vrt)
+    model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
     show = not quiet and sys.stderr.isatty()
     try:
@@ -241,14 +248,19 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     finally:
         model.close()
     _report(summary, gain_warning, quiet, sites)
+    if fetched is not None and not quiet:
+        d = fetched.dataset
+        click.echo(f"terrain: {d.name} ({d.title}), {len(fetched.tiles)} tile(s), heights above "
+                   f"{d.vertical_datum} (EPSG:{d.vertical_epsg})"
+                   + ("; a surface model (roofs and canopy in the heights)" if d.surface_model else ""))
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:
     """InputError for missing or contradicting flags and numbers out of range, before any file is read."""
     from ..validation import check_number
 
-    if not opts.get("dem"):
-        raise InputError("no elevation raster: give --dem FILE (repeatable)")
+    if not opts.get("dem") and not opts.get("terrain"):
+        raise InputError("no elevation raster: give --dem FILE (repeatable) or --terrain SOURCE")
     if opts.get("freq_ghz") is None:
         raise InputError("frequency missing: give --freq-ghz")
     if resume and restart:

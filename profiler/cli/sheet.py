@@ -82,7 +82,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     # references (above roof, elevation, ellipsoidal) are applied to every pair as mounts.
     mounts_a = None if resolved.mount_a is None or resolved.mount_a.reference == "ground" else [resolved.mount_a] * n
     mounts_b = None if resolved.mount_b is None or resolved.mount_b.reference == "ground" else [resolved.mount_b] * n
-    with opened_link_data(resolved) as (model, surroundings):
+    ends = sites_a + sites_b  # an open dataset (--terrain) is fetched around every pair
+    with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
         good = [i for i, problem in enumerate(batch.problems) if problem is None]

@@ -60,7 +60,7 @@ __all__ = ["LinkSpec", "read_link_file", "SECTION_KEYS", "VERTICAL_UNIT_CHOICES"
 VERTICAL_UNIT_CHOICES = ("m", "ft", "us-ft")
 
 SECTION_KEYS: dict[str, set[str]] = {
-    "terrain": {"rasters", "vertical_unit", "nodata_fill_m", "surface", "vertical_crs"},
+    "terrain": {"rasters", "vertical_unit", "nodata_fill_m", "surface", "vertical_crs", "source", "url", "offline"},
     "site_a": {"name", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
                "antenna_ellipsoidal_m", "max_mast_m"},
     "site_b": {"name", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",

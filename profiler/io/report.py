@@ -116,6 +116,21 @@ def _availability_lines(av: dict | None) -> list[str]:
     return lines
 
 
+def _terrain_source_lines(r: dict) -> list[str]:
+    """The open dataset the heights came from (--terrain), and a caution when it is a surface model."""
+    ts = (r.get("provenance") or {}).get("terrain_source")
+    if not ts:
+        return []
+    sea = sum(t.get("file") is None for t in ts.get("tiles", []))
+    line = (f"terrain            {ts['source']} ({ts['title']}), {len(ts.get('tiles', []))} tile(s)"
+            + (f", {sea} open sea read as 0 m" if sea else "") + f", heights above {ts['vertical_datum']}")
+    out = [line]
+    if ts.get("surface_model"):
+        out.append("                   a surface model: roofs and tree canopy are in the heights where the "
+                   "data has them, so ground and clearance may read high or low there")
+    return out
+
+
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
@@ -138,6 +153,7 @@ def format_link_summary(r: dict) -> str:
     lines += [
         f"heights            metres {datum.phrase()}"
         + ("" if datum.known else "; name it with --vertical-crs"),
+        *_terrain_source_lines(r),
         f"radio              {radio['freq_ghz']:g} GHz, {radio['tx_power_dbm']:g} dBm, gains "
         f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
         f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "
