@@ -318,7 +318,27 @@ def fetch_terrain(job: LinkJob, lats: Any = (), lons: Any = (), progress: Any = 
     from .terrain_sources import ensure_area
 
     return ensure_area(job.terrain, [job.site_a.lat_deg, job.site_b.lat_deg, *lats],
-                       [job.site_a.lon_deg, job.site_b.lon_deg, *lons], progress=progress)
+                       [job.site_a.lon_deg, job.site_b.lon_deg, *lons],
+                       terrain_margin_km(job.settings.climate), progress=progress)
+
+
+def terrain_margin_km(climate: ClimateSettings) -> float:
+    """Margin of fetched terrain around the sites, km: wide enough for sa when the maps are asked for.
+
+    With ``--climate itu`` and no sa given, terrain roughness is taken over a
+    110 km x 110 km square around the path centre (ITU-R P.530-17 section
+    2.3.1), so the tiles must reach 55 km beyond it: a 60 km margin around the
+    sites' box holds every such square.
+    """
+    from .terrain_sources.area import DEFAULT_MARGIN_KM
+
+    if climate.source == "itu" and "terrain_roughness_m" in climate.defaults_used():
+        return max(DEFAULT_MARGIN_KM, SA_FETCH_MARGIN_KM)
+    return DEFAULT_MARGIN_KM
+
+
+#: Fetch margin that covers the sa square (55 km from the path centre) with room to spare, km.
+SA_FETCH_MARGIN_KM = 60.0
 
 
 def _site(spec: LinkSpec, opts: dict[str, Any], tag: str) -> Site:

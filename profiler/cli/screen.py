@@ -227,7 +227,9 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         from ..terrain_sources import TerrainRequest, dataset, ensure_area
 
         request = TerrainRequest(dataset(opts["terrain"]).name, opts.get("terrain_url"), bool(opts.get("offline")))
-        fetched = ensure_area(request, sites.lat_deg, sites.lon_deg)
+        from ..jobs import terrain_margin_km
+
+        fetched = ensure_area(request, sites.lat_deg, sites.lon_deg, terrain_margin_km(settings.climate))
         rasters.append(fetched.vrt)
     model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))

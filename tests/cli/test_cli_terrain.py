@@ -153,3 +153,20 @@ def test_link_file_mirror_folder_is_relative_to_the_file(tmp_path, monkeypatch, 
     assert out.exit_code == 0, out.output
     ts = json.loads(out.stdout)["provenance"]["terrain_source"]
     assert ts["base_url"].startswith("file://") and ts["tiles"][0]["sha256"]
+
+
+def test_climate_itu_fetches_the_sa_square_and_computes_sa_from_the_tiles(tile_server, cli):
+    # sa is taken over 110 km x 110 km around the path centre (ITU-R P.530-17 section 2.3.1), so with
+    # --climate itu the tiles fetched reach 60 km beyond the sites: here the 3 x 3 tiles around N45E007.
+    pytest.importorskip("itur")
+    copernicus_tiles(tile_server.root, [(lat, lon) for lat in (44, 45, 46) for lon in (6, 7, 8)])
+    out = cli("link", "--terrain", "copernicus-30", "--terrain-url", tile_server.url, "--climate", "itu",
+              *SITES, *RADIO, "--json")
+    assert out.exit_code == 0, out.output
+    record = json.loads(out.stdout)
+    tiles = {t["tile"] for t in record["provenance"]["terrain_source"]["tiles"]}
+    assert tiles == {f"N{lat}E00{lon}" for lat in (44, 45, 46) for lon in (6, 7, 8)}
+    assert record["inputs"]["climate"]["sources"]["terrain_roughness_m"].startswith("computed from the elevation")
+    # without the maps, the box around the sites is enough
+    plain = cli("link", "--terrain", "copernicus-30", "--terrain-url", tile_server.url, *SITES, *RADIO, "--json")
+    assert [t["tile"] for t in json.loads(plain.stdout)["provenance"]["terrain_source"]["tiles"]] == ["N45E007"]
