@@ -28,3 +28,20 @@ def random_sites_csv(path: Path, n: int, seed: int = 7, extra_rows: list[list[st
         for row in extra_rows or []:
             w.writerow(row)
     return path
+
+
+def lose_worker_after(monkeypatch, chunks: int):
+    """Make screening's chunk evaluation fail ("worker lost") after ``chunks`` chunks; returns the real one."""
+    from profiler import screening
+
+    real = screening.evaluate_chunk
+    calls = {"n": 0}
+
+    def failing(model, task):
+        calls["n"] += 1
+        if calls["n"] > chunks:
+            raise RuntimeError("worker lost")
+        return real(model, task)
+
+    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
+    return real

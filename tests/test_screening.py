@@ -19,7 +19,7 @@ from profiler.screening import VERDICTS as VERDICTS_BY_CODE
 from profiler.screening import PairPlan, count_pairs, iter_pair_blocks, screen
 from profiler.terrain import ElevationModel
 
-from tests._screening_data import DEMO_DEM, DEMO_SITES, random_sites_csv
+from tests._screening_data import DEMO_DEM, DEMO_SITES, random_sites_csv, lose_worker_after
 
 RADIO = Radio(5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
 
@@ -220,16 +220,7 @@ def test_csv_and_geojson_outputs(tmp_path, ext, sites25):
 
 def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, sites25, monkeypatch):
     _run(sites25, tmp_path / "full.gpkg", max_km=7.0, chunk_pairs=9)
-    real = screening.evaluate_chunk
-    calls = {"n": 0}
-
-    def failing(model, task):
-        calls["n"] += 1
-        if calls["n"] > 3:
-            raise RuntimeError("worker lost")
-        return real(model, task)
-
-    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
+    real = lose_worker_after(monkeypatch, 3)
     with pytest.raises(RuntimeError):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
     staged = screening.staging_folder(tmp_path / "part.gpkg")
@@ -241,7 +232,6 @@ def test_resume_after_a_failing_chunk_equals_an_uninterrupted_run(tmp_path, site
     with pytest.raises(InputError, match="--resume"):
         _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9)
     monkeypatch.setattr(screening.executors, "evaluate_chunk", real)
-    calls["n"] = 0
     summary = _run(sites25, tmp_path / "part.gpkg", max_km=7.0, chunk_pairs=9, resume=True)
     assert summary.resumed_pairs == 27
     assert not staged.exists()

@@ -20,7 +20,7 @@ from profiler.link import Settings
 from profiler.screening import PairPlan, screen
 from profiler.terrain import ElevationModel
 
-from tests._screening_data import DEMO_DEM, REPO, random_sites_csv
+from tests._screening_data import DEMO_DEM, REPO, random_sites_csv, lose_worker_after
 
 RADIO = Radio(5.8, tx_power_dbm=20, gain_a_dbi=23, gain_b_dbi=23, loss_a_db=1, loss_b_db=1)
 
@@ -78,16 +78,7 @@ def test_a_forked_worker_does_not_keep_the_lock(tmp_path):
 @pytest.fixture
 def interrupted(tmp_path, sites, monkeypatch):
     """A run stopped after 3 committed chunks (27 rows); returns its output path and stage."""
-    real = screening.evaluate_chunk
-    calls = {"n": 0}
-
-    def failing(model, task):
-        calls["n"] += 1
-        if calls["n"] > 3:
-            raise RuntimeError("worker lost")
-        return real(model, task)
-
-    monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
+    real = lose_worker_after(monkeypatch, 3)
     out = tmp_path / "r.gpkg"
     with pytest.raises(RuntimeError):
         _run(sites, out)
