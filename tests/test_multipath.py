@@ -47,7 +47,7 @@ def test_occurrence_factor_written_out():
 
 
 def _p530_any_depth(a: float, p0: float) -> float:
-    """Fade depth a exceeded for p % of the worst month: ITU-R P.530-17 (12/2017) section 2.3.2, eqs. 10-13,
+    """Fade depth a exceeded for p % of the worst month: ITU-R P.530-17 (12/2017) section 2.3.2 (equations 10-13, numbers from memory),
     coded here again one scalar at a time, independently of profiler.losses.multipath, as a cross-check."""
     at = 25 + 1.2 * math.log10(p0)
     if a >= at:
