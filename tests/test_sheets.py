@@ -328,9 +328,9 @@ def test_availability_rows_when_the_record_has_them(batch):
     assert rows["Availability (rain only)"].left == "99.9849 % (target 99.99 %)"
     assert rows["Availability (rain only)"].flag == "bad"
     assert rows["Rain outage per year"].left == "79 min"
-    assert rows["Multipath outage (performance)"].left == "0.27 min worst month, 0.55 min/yr"
-    assert rows["Margin needed for 99.99 % (rain)"].left == "30.5 dB"
-    assert rows["  with multipath, average year"].left == "30.5 dB"
+    assert rows["Multipath (performance)"].left == "0.27 min worst month, 0.55 min/yr"
+    assert rows["Margin needed, rain"].left == "30.5 dB for 99.99 %"
+    assert rows["  rain + multipath"].left == "30.5 dB (average year)"
     # Beyond the range of ITU-R P.530-17 eq. 34 (0.001-1 %): a bound, never a figure.
     rec["availability"].update(availability_pct=None, availability_above_pct=99.999, meets_target=True,
                                rain={"outage_pct": None, "outage_min_per_year": None, "outage_below_pct": 0.001},
@@ -338,7 +338,7 @@ def test_availability_rows_when_the_record_has_them(batch):
     rows = {r.label: r for r in parameter_rows(rec)}
     assert rows["Availability (rain only)"].left == "above 99.999 % (target 99.99 %)"
     assert rows["Rain outage per year"].left == "< 0.001 % (below P.530-17 range)"
-    assert rows["  with multipath, average year"].left == "30.5 dB (rain < 0.001 % there)"
+    assert rows["  rain + multipath"].left == "30.5 dB (average year; rain < 0.001 % there)"
     # Not estimated (obstructed path, link that does not close): no verdict row.
     rec["availability"] = {"estimated": False, "reason": "the path fails the clearance criterion; more",
                            "target_availability_pct": 99.99}

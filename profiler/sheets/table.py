@@ -260,14 +260,14 @@ def availability_rows(record: dict) -> list[Row]:
         rows.append(Row("Rain outage per year", f"> {rain['outage_above_pct']:g} % (above P.530-17 range)"))
     mp = av.get("multipath") or {}
     if mp.get("estimated") and mp.get("worst_month_min") is not None:
-        rows.append(Row("Multipath outage (performance)",
+        rows.append(Row("Multipath (performance)",
                         f"{_minutes(mp['worst_month_min'])} min worst month, "
                         f"{_minutes(mp.get('average_year_min', math.nan))} min/yr"))
     elif mp:
-        rows.append(Row("Multipath outage (performance)", "not estimated"))
+        rows.append(Row("Multipath (performance)", "not estimated"))
     if av.get("required_fade_margin_rain_only_db") is not None and target is not None:
-        rows.append(Row(f"Margin needed for {target:g} % (rain)", f"{av['required_fade_margin_rain_only_db']:.1f} dB"))
+        rows.append(Row("Margin needed, rain", f"{av['required_fade_margin_rain_only_db']:.1f} dB for {target:g} %"))
     if av.get("required_fade_margin_db") is not None and target is not None:
-        rows.append(Row("  with multipath, average year", f"{av['required_fade_margin_db']:.1f} dB"
-                        + (" (rain < 0.001 % there)" if av.get("required_fade_margin_rain_below_range") else "")))
+        below = "; rain < 0.001 % there" if av.get("required_fade_margin_rain_below_range") else ""
+        rows.append(Row("  rain + multipath", f"{av['required_fade_margin_db']:.1f} dB (average year{below})"))
     return rows
