@@ -11,6 +11,9 @@ Writes
                               and "trees" (WGS84 lon/lat; height_m)
   data/demo/town-surface.tif  a 2 m surface model (terrain + buildings + tree
                               canopy), as first-return lidar would give it
+  data/demo/rooftops.csv      invented rooftop candidates for terrahop screen: the
+                              landmarks and some taller blocks (antenna 3 m above
+                              the roof), and one ground mast in the park
 
 Run:  python data/make_town.py      (after data/make_demo.py)
 """
@@ -26,6 +29,7 @@ HERE = Path(__file__).resolve().parent
 TERRAIN = HERE / "demo" / "terrain.tif"
 TOWN = HERE / "demo" / "town.gpkg"
 SURFACE = HERE / "demo" / "town-surface.tif"
+ROOFTOPS = HERE / "demo" / "rooftops.csv"
 
 CRS = "EPSG:32727"
 #: South-west corner of the town and its size, metres (UTM 27S).
@@ -155,6 +159,41 @@ def make_surface(buildings, trees) -> tuple[np.ndarray, object]:
     return np.round(surface, 1).astype(np.float32), transform
 
 
+#: Rooftop candidates besides the landmarks: this many of the taller blocks, spread west to east.
+ROOFTOP_BLOCKS = 8
+#: Antenna height above the roof of every rooftop candidate, m; the park mast's above the ground.
+ROOFTOP_ANTENNA_M, PARK_MAST_M = 3.0, 20.0
+#: The ground mast in Linthorpe Park, m east and north of the corner.
+PARK_MAST_AT = (540.0, 720.0)
+
+
+def write_rooftops(buildings) -> int:
+    """Write the invented rooftop candidates (CSV: name, lat, lon, antenna_height_m, mount); return their count."""
+    import csv
+
+    import shapely
+    from pyproj import Transformer
+
+    tall = buildings[(buildings["use"] == "shops and flats") & (buildings["height_m"] >= 12.0)]
+    tall = tall.assign(x=tall.geometry.centroid.x).sort_values("x", kind="stable")
+    picks = tall.iloc[np.linspace(0, len(tall) - 1, ROOFTOP_BLOCKS).round().astype(int)]
+    landmarks = buildings[buildings["use"] == "landmark"]
+    rows = [(name, g, "roof", ROOFTOP_ANTENNA_M) for name, g in zip(landmarks["name"], landmarks.geometry)]
+    rows += [(f"Block {k + 1} ({h:g} m)", g, "roof", ROOFTOP_ANTENNA_M)
+             for k, (h, g) in enumerate(zip(picks["height_m"], picks.geometry))]
+    rows.append(("Linthorpe Park mast", shapely.Point(X0_M + PARK_MAST_AT[0], Y0_M + PARK_MAST_AT[1]), "ground",
+                 PARK_MAST_M))
+    to_wgs84 = Transformer.from_crs(CRS, "EPSG:4326", always_xy=True)
+    with open(ROOFTOPS, "w", newline="") as fh:
+        out = csv.writer(fh, lineterminator="\n")
+        out.writerow(["name", "lat", "lon", "antenna_height_m", "mount"])
+        for name, geom, mount, height in rows:
+            # A point well inside the footprint (the centroid of a box), as a planner would pick it.
+            lon, lat = to_wgs84.transform(geom.centroid.x, geom.centroid.y)
+            out.writerow([name, f"{lat:.6f}", f"{lon:.6f}", f"{height:g}", mount])
+    return len(rows)
+
+
 def write() -> None:
     import rasterio
 
@@ -176,8 +215,9 @@ def write() -> None:
             DESCRIPTION="terrahop demo surface model of the town of Linthorpe: INVENTED, not a real place",
             GENERATOR="data/make_town.py",
         )
-    print(f"wrote {TOWN} ({len(buildings)} buildings, {len(trees)} tree stands) "
-          f"and {SURFACE} ({SURFACE.stat().st_size / 1e6:.2f} MB)")
+    count = write_rooftops(buildings)
+    print(f"wrote {TOWN} ({len(buildings)} buildings, {len(trees)} tree stands), "
+          f"{SURFACE} ({SURFACE.stat().st_size / 1e6:.2f} MB) and {ROOFTOPS} ({count} rooftop candidates)")
 
 
 if __name__ == "__main__":

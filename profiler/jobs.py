@@ -45,6 +45,7 @@ __all__ = [
     "resolve_settings",
     "resolve_climate",
     "open_surroundings",
+    "surroundings_from_options",
     "open_job_data",
     "analyse_job",
     "parse_number",
@@ -432,12 +433,26 @@ def _vertical_unit(opts: dict[str, Any], spec: LinkSpec) -> str | None:
 
 def open_surroundings(job: LinkJob) -> Surroundings | None:
     """Read the obstruction layers and open the surface rasters of a job (None if it has neither)."""
-    if not job.obstruction_layers and not job.surface_rasters:
+    return _open_surroundings(job.obstruction_layers, job.surface_rasters, job.vertical_unit, job.tree_allowance_m)
+
+
+def surroundings_from_options(opts: dict[str, Any]) -> Surroundings | None:
+    """The surroundings given as overrides alone (``obstructions``, ``height_field``, ``top_field``,
+    ``tree_allowance_m``, ``surface``, ``vertical_unit``), read and opened as for a link; None without any."""
+    spec = LinkSpec(path="", title=None)
+    tree = _checked(opts, {}, "tree_allowance_m", opt="tree_allowance_m", table="obstructions",
+                    default=DEFAULT_TREE_ALLOWANCE_M, source="")
+    return _open_surroundings(_layers(spec, opts), tuple(opts.get("surface") or ()), opts.get("vertical_unit"),
+                              tree)
+
+
+def _open_surroundings(layer_specs: tuple, surface_rasters: tuple, vertical_unit: str | None,
+                       tree_allowance_m: float) -> Surroundings | None:
+    if not layer_specs and not surface_rasters:
         return None
-    layers = tuple(read_obstruction_layer(s) for s in job.obstruction_layers)
-    surface = (ElevationModel(job.surface_rasters, vertical_unit=job.vertical_unit)
-               if job.surface_rasters else None)
-    return Surroundings(layers=layers, surface=surface, tree_allowance_m=job.tree_allowance_m)
+    layers = tuple(read_obstruction_layer(s) for s in layer_specs)
+    surface = ElevationModel(surface_rasters, vertical_unit=vertical_unit) if surface_rasters else None
+    return Surroundings(layers=layers, surface=surface, tree_allowance_m=tree_allowance_m)
 
 
 @contextlib.contextmanager

@@ -37,11 +37,11 @@ def lose_worker_after(monkeypatch, chunks: int):
     real = screening.evaluate_chunk
     calls = {"n": 0}
 
-    def failing(model, task):
+    def failing(model, task, *rest):
         calls["n"] += 1
         if calls["n"] > chunks:
             raise RuntimeError("worker lost")
-        return real(model, task)
+        return real(model, task, *rest)
 
     monkeypatch.setattr(screening.executors, "evaluate_chunk", failing)
     return real

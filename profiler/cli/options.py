@@ -39,6 +39,7 @@ __all__ = [
     "flag_form",
     "DefaultHelpOption",
     "mount_options",
+    "roof_mount_options",
     "open_surroundings_of",
     "link_input_options",
     "opened_link_data",
@@ -269,6 +270,13 @@ surroundings_options = _compose(
     _option("--surface", "surface", multiple=True, metavar="RASTER",
             help="Surface model (lidar first return, DSM) beside --dem; clutter is its height above "
                  "the terrain, clipped at 0. Repeatable."),
+)
+
+#: Roof mounts of many sites at once (terrahop screen); per site, a ``mount`` column of the sites file.
+roof_mount_options = _compose(
+    _option("--above-roof", is_flag=True, default=False,
+            help="The sites' antenna heights are above the roof of the building each stands in (from "
+                 "--obstructions); a 'mount' column (ground or roof) overrides it per site."),
 )
 
 mount_options = _compose(

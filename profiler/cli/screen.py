@@ -11,7 +11,7 @@ import click
 from ..errors import InputError
 from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
-                      terrain_options)
+                      roof_mount_options, surroundings_options, terrain_options)
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID
@@ -147,6 +147,8 @@ def _screen_radio_options(func):
 @click.command()
 @click.argument("sites_file", metavar="SITES", type=click.Path(dir_okay=False))
 @terrain_options
+@surroundings_options
+@roof_mount_options
 @_screen_radio_options
 @analysis_options
 @climate_options
@@ -156,7 +158,9 @@ def _screen_radio_options(func):
                    "a path that is one of the inputs is refused.")
 @click.option("--max-km", type=float, default=None, help="Only pairs at most this far apart, km [default: no limit].")
 @click.option("--pairs", "pairs_file", type=click.Path(dir_okay=False), default=None,
-              help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs.")
+              help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs; "
+                   "columns height_a_m and height_b_m, if present, give that pair's antenna heights, m "
+                   "(measured as the site's own: above ground, or above the roof).")
 @click.option("--hub", "hubs", multiple=True, metavar="NAME",
               help="Screen this site to every other site (repeatable) instead of all pairs.")
 @click.option("--name-col", default=None,
@@ -194,7 +198,7 @@ def _screen_radio_options(func):
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
-           restart, overwrite, quiet, **opts) -> None:
+           restart, overwrite, quiet, above_roof, **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -202,6 +206,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     any CRS).  Pairs: all pairs (within --max-km), --hub NAME to all others,
     or a --pairs file; both directions count as one link.  Each pair gets the
     numbers `terrahop link` gives it; RESULT ranks them by fade margin.
+    Buildings, trees and surface models (--obstructions, --surface) and roof
+    mounts (--above-roof, or a 'mount' column) work as they do for `link`.
     """
     # The engine (numpy, pyproj, rasterio...) is imported when the command runs, so that
     # `terrahop --help` and the other commands start fast.
@@ -216,12 +222,14 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
 
         scheduler = check_scheduler_address(scheduler)  # before any work: a garbled address is one line
     radio, settings = resolve_radio_settings(opts)
-    sites, bad, explicit = _read_sites_and_pairs(
+    sites, bad, explicit, pair_heights = _read_sites_and_pairs(
         sites_file, pairs_file, dict(name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
                                      gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
                                      layer=layer))
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
-    plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit)
+    plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit,
+                    heights=pair_heights)
+    surroundings = _open_surroundings(opts, above_roof)  # read and checked before any work
     rasters, fetched = list(opts["dem"]), None
     if opts.get("terrain"):  # an open dataset around every site, after the given rasters (they win)
         from ..terrain_sources import TerrainRequest, dataset, ensure_area
@@ -241,6 +249,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
                 min_margin_db=min_margin_db, progress=bar.update,
+                surroundings=surroundings, above_roof=above_roof,
             )
     except KeyboardInterrupt:
         click.echo(
@@ -249,6 +258,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sys.exit(130)
     finally:
         model.close()
+        if surroundings is not None and surroundings.surface is not None:
+            surroundings.surface.close()
     _report(summary, gain_warning, quiet, sites)
     if fetched is not None and not quiet:
         d = fetched.dataset
@@ -276,6 +287,17 @@ def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_
         check_number(opts["nodata_fill_m"], "nodata_fill_m", "--nodata-fill-m")
 
 
+def _open_surroundings(opts: dict, above_roof: bool):
+    """Obstruction layers and surface rasters of the options, read as ``terrahop link`` reads them; or None."""
+    from ..jobs import surroundings_from_options
+
+    surroundings = surroundings_from_options(opts)
+    if above_roof and (surroundings is None or not any(l.kind == "building" for l in surroundings.layers)):
+        raise InputError("--above-roof measures antenna heights from the roofs of a building layer: "
+                         "give --obstructions FILE with the buildings, or leave --above-roof out")
+    return surroundings
+
+
 def _check_out(out, inputs) -> None:
     """InputError when RESULT has an unknown extension, no folder, or would land on an input."""
     from ..io.screen_output import check_output_path, check_outputs_spare_inputs
@@ -285,19 +307,19 @@ def _check_out(out, inputs) -> None:
 
 
 def _read_sites_and_pairs(sites_file, pairs_file, columns: dict):
-    """The usable sites, the skipped rows (sites and pairs), and the listed pairs' indices (or None)."""
-    from ..io.sites import read_name_pairs, read_sites
+    """The usable sites, the skipped rows (sites and pairs), the listed pairs' indices and heights (or None)."""
+    from ..io.sites import read_name_pairs_with_heights, read_sites
 
     sites, bad = read_sites(sites_file, **columns)
     if len(sites) < 2:
         why = f"; {len(bad)} row(s) skipped, first: {bad[0].describe()}" if bad else ""
         raise InputError(f"{sites_file}: fewer than two usable sites; nothing to screen{why}")
-    explicit = None
+    explicit = heights = None
     if pairs_file:
-        a, b, bad_pairs = read_name_pairs(pairs_file, sites.names)
+        a, b, heights, bad_pairs = read_name_pairs_with_heights(pairs_file, sites.names)
         bad += bad_pairs
         explicit = (a, b)
-    return sites, bad, explicit
+    return sites, bad, explicit, heights
 
 
 def _report(summary, gain_warning: str | None, quiet: bool, sites) -> None:

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 __all__ = [
     "Verdict", "VERDICTS", "PairStatus", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
     "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS",
+    "SURROUNDINGS_GROUP", "CODED_COLUMNS", "MOUNT_LABELS", "CLUTTER_LABELS", "run_staged_columns",
 ]
 
 
@@ -77,7 +78,13 @@ class Column:
     folder (None: not staged); ``written`` says whether it is a column of the
     links layer; ``flag`` marks yes/no columns (NULL in error rows);
     ``kept_on_error`` marks figures that come from the two positions alone
-    and so stay in rows that could not be profiled.
+    and so stay in rows that could not be profiled.  ``group``
+    :data:`SURROUNDINGS_GROUP` marks the columns staged and written only by
+    runs with obstruction layers or a surface model (so a plain run's
+    result keeps its columns); ``labels`` turns an integer code into its
+    word when writing.  Source ``mount``: the heights of the two ends as
+    used (the sites' heights, roof mounts, per-pair heights of a pairs file);
+    ``clutter``: what stands at the worst point (profiler.screening.evaluate.clutter_columns).
     """
 
     name: str
@@ -86,6 +93,8 @@ class Column:
     written: bool = True
     flag: bool = False
     kept_on_error: bool = False
+    group: str | None = None
+    labels: tuple[str, ...] | None = None
 
 
 def _engine(name: str, dtype: str = "f8", **kw) -> Column:
@@ -100,6 +109,18 @@ def _write(name: str) -> Column:
     return Column(name, "write")
 
 
+#: Group of the columns of runs with obstruction layers or a surface model.
+SURROUNDINGS_GROUP = "surroundings"
+#: Words of the mount codes: what an antenna height is measured from (profiler.mounts.REFERENCES).
+MOUNT_LABELS = ("ground", "roof")
+#: Words of the clutter codes, as profiler.clutter.ClutterKind labels them (a test keeps them equal).
+CLUTTER_LABELS = ("none", "building", "trees", "surface model")
+
+
+def _mount(name: str, dtype: str = "f8", labels: tuple[str, ...] | None = None, group: str | None = None) -> Column:
+    return Column(name, "mount", dtype, kept_on_error=True, group=group, labels=labels)
+
+
 #: Every column, in the order of the links layer (site extras follow there as a_<col>, b_<col>);
 #: the columns only staged come last.
 LINK_TABLE: tuple[Column, ...] = (
@@ -107,9 +128,16 @@ LINK_TABLE: tuple[Column, ...] = (
     _engine("fade_margin_db"), _engine("distance_km", kept_on_error=True),
     _engine("azimuth_a_to_b_deg", kept_on_error=True), _engine("azimuth_b_to_a_deg", kept_on_error=True),
     _write("lat_a"), _write("lon_a"), _write("lat_b"), _write("lon_b"),
-    _engine("ground_a_m"), _engine("ground_b_m"), _write("agl_a_m"), _write("agl_b_m"),
+    _engine("ground_a_m"), _engine("ground_b_m"), _mount("agl_a_m"), _mount("agl_b_m"),
     _engine("antenna_a_amsl_m"), _engine("antenna_b_amsl_m"),
+    # Roof mounts: what each end's height is measured from, the roof under it and the height above it.
+    _mount("mount_a", "i1", MOUNT_LABELS, SURROUNDINGS_GROUP), _mount("mount_b", "i1", MOUNT_LABELS, SURROUNDINGS_GROUP),
+    _mount("roof_a_m", group=SURROUNDINGS_GROUP), _mount("roof_b_m", group=SURROUNDINGS_GROUP),
+    _mount("above_roof_a_m", group=SURROUNDINGS_GROUP), _mount("above_roof_b_m", group=SURROUNDINGS_GROUP),
     _engine("worst_f1_fraction"), _engine("worst_clearance_m"), _engine("worst_point_km"),
+    # What stands on the ground at the design-k worst point (the link record's clutter.at_worst_point_*).
+    Column("worst_point_clutter_m", "clutter", "f8", group=SURROUNDINGS_GROUP),
+    Column("worst_point_clutter", "clutter", "i1", group=SURROUNDINGS_GROUP, labels=CLUTTER_LABELS),
     _engine("line_of_sight", "u1", flag=True),
     _engine("wc_worst_f1_fraction"), _engine("wc_worst_clearance_m"), _engine("wc_worst_point_km"),
     _engine("wc_line_of_sight", "u1", flag=True),
@@ -145,6 +173,16 @@ AVAILABILITY_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.so
 FLAG_COLUMNS = frozenset(c.name for c in LINK_TABLE if c.flag)
 #: Columns an error row keeps: they come from the two positions alone, not from the terrain.
 KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
+
+#: Columns written as words: name -> the word of each code.
+CODED_COLUMNS: dict[str, tuple[str, ...]] = {c.name: c.labels for c in LINK_TABLE if c.labels is not None}
+
+
+def run_staged_columns(surroundings: bool) -> dict[str, str]:
+    """The staged columns of one run: without obstruction layers or surface model, not their group."""
+    groups = {None, SURROUNDINGS_GROUP} if surroundings else {None}
+    return {c.name: c.staged for c in LINK_TABLE if c.staged is not None and c.group in groups}
+
 
 #: Columns of the point layer, in order (extra site columns follow): pairs per verdict.
 SITE_COLUMNS: tuple[str, ...] = (

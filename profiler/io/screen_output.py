@@ -21,7 +21,7 @@ import numpy as np
 
 from ..availability import availability_note
 from ..errors import InputError
-from .columns import FLAG_COLUMNS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairStatus, Verdict
+from .columns import CODED_COLUMNS, FLAG_COLUMNS, KEPT_IN_ERROR_ROWS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairStatus, Verdict
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
 __all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
@@ -79,12 +79,15 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
         site_a=sites.names[a], site_b=sites.names[b],
         verdict=np.asarray(verdict_names, dtype=object)[codes],
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
-        agl_a_m=sites.antenna_agl_m[a], agl_b_m=sites.antenna_agl_m[b],
         method=np.full(n, settings.diffraction_method, dtype=object),
         k=np.full(n, settings.k), k_worst=np.full(n, settings.k_worst),
         problem=np.array([problems.get(int(p), "") for p in cols["pair"]], dtype=object),
         **_availability_data(cols, failed),
     )
+    for name, labels in CODED_COLUMNS.items():  # codes as words; none in rows that could not be profiled
+        if name in data:
+            words = np.asarray(labels, dtype=object)[data[name]]
+            data[name] = words if name in KEPT_IN_ERROR_ROWS else np.where(failed, None, words)
     frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data})
     if sites.gain_dbi is not None:
         frame["gain_a_dbi"] = sites.gain_dbi[a]

@@ -28,7 +28,8 @@ import numpy as np
 from ..errors import PARAMETER, DataFileError, InputError
 from ..validation import check_number, check_numbers, normalise_lon, position_problems
 
-__all__ = ["SiteTable", "BadRow", "read_sites", "read_name_pairs", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
+__all__ = ["SiteTable", "BadRow", "read_sites", "read_name_pairs", "read_name_pairs_with_heights",
+           "PAIR_HEIGHT_COLUMNS", "CSV_SUFFIXES", "DEFAULT_COLUMNS"]
 
 CSV_SUFFIXES = {".csv", ".txt", ".tsv"}
 
@@ -422,6 +423,61 @@ def read_name_pairs(
     pair already listed (in either direction) are skipped and reported.
     Returns site indices ``(a, b)`` in file order and the skipped rows.
     """
+    _, _, a, b, bad = _name_pairs(path, names, a_col, b_col)
+    return a, b, bad
+
+
+#: Columns of a pairs file giving the antenna height at each end of that pair, m.
+PAIR_HEIGHT_COLUMNS = ("height_a_m", "height_b_m")
+
+
+def read_name_pairs_with_heights(
+    path: str | os.PathLike, names: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray] | None, list[BadRow]]:
+    """:func:`read_name_pairs`, and the pair's own antenna heights of columns ``height_a_m``/``height_b_m``.
+
+    The heights (m, measured as each site's own height is: above the ground,
+    or above the roof for a roof mount) are None when the file has neither
+    column, NaN for a row that leaves both cells blank (the sites' heights
+    apply).  A row with one height only, a height that is not a number or
+    is out of range is skipped and reported; a file with one of the two
+    columns only is refused.
+    """
+    frame, rows, a, b, bad = _name_pairs(path, names, None, None)
+    low = {c.lower(): c for c in frame.columns}
+    cols = [low.get(c) for c in PAIR_HEIGHT_COLUMNS]
+    if cols == [None, None]:
+        return a, b, None, bad
+    if None in cols:
+        have, lack = (PAIR_HEIGHT_COLUMNS if cols[1] is None else PAIR_HEIGHT_COLUMNS[::-1])
+        raise InputError(f"{Path(path)}: column {have} without {lack}; give the heights of both ends "
+                         "(a blank pair of cells keeps the sites' heights) or neither column")
+    raw = [frame[c].astype(str).str.strip().to_numpy()[rows] for c in cols]
+    values = [_numbers(r) for r in raw]
+    reasons: list[str | None] = [None] * rows.size
+    for end, (r, v, col) in enumerate(zip(raw, values, cols)):
+        other = raw[1 - end]
+        ranges = check_numbers(np.where(np.isfinite(v), v, 0.0), "antenna_agl_m")
+        for k in range(rows.size):
+            if reasons[k] is not None:
+                continue
+            if r[k] == "" and other[k] != "":
+                reasons[k] = f"{col} is blank but {cols[1 - end]} is not; give both heights or neither"
+            elif r[k] != "" and not np.isfinite(v[k]):
+                reasons[k] = f"{col} {r[k]!r} is not a number"
+            elif r[k] != "" and ranges[k] is not None:
+                reasons[k] = f"{col}: {ranges[k]}"
+    ok = np.array([x is None for x in reasons], dtype=bool)
+    for k in np.flatnonzero(~ok):
+        bad.append(BadRow(Path(path).name, int(rows[k]) + 2, f"{names[a[k]]} - {names[b[k]]}", str(reasons[k])))
+    bad.sort(key=lambda r: r.row)
+    return a[ok], b[ok], (values[0][ok], values[1][ok]), bad
+
+
+def _name_pairs(
+    path: str | os.PathLike, names: np.ndarray, a_col: str | None, b_col: str | None
+) -> tuple[Any, np.ndarray, np.ndarray, np.ndarray, list[BadRow]]:
+    """(the table, the kept rows' positions, a, b, skipped rows) of a pairs file: see :func:`read_name_pairs`."""
     import pandas as pd
 
     p = Path(path)
@@ -476,7 +532,7 @@ def read_name_pairs(
         else:
             reason = f"same pair as row {first_row[int(key[k])]}"
         bad.append(BadRow(p.name, k + 2, label, reason))
-    return a[keep], b[keep], bad
+    return frame, np.flatnonzero(keep), a[keep], b[keep], bad
 
 
 def __getattr__(name: str):

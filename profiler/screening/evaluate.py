@@ -26,7 +26,7 @@ from ..profile import path_spacings_m, sample_limit_problem
 from ..terrain import ElevationModel
 from ..validation import MIN_PATH_M, too_close
 
-__all__ = ["ChunkTask", "evaluate_chunk", "make_task", "engine_columns", "SUBBATCH_SAMPLES"]
+__all__ = ["ChunkTask", "evaluate_chunk", "make_task", "engine_columns", "clutter_columns", "SUBBATCH_SAMPLES"]
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
 SUBBATCH_SAMPLES = 200_000
@@ -51,22 +51,43 @@ class ChunkTask:
     gain_b: np.ndarray | None
     radio: Radio
     settings: Settings
+    #: Roof mounts (profiler.screening.placing): height above ground of the roof under each end
+    #: (NaN for an antenna measured from the ground) and the height given above it; None without layers.
+    roof_a: np.ndarray | None = None
+    roof_b: np.ndarray | None = None
+    above_roof_a: np.ndarray | None = None
+    above_roof_b: np.ndarray | None = None
 
 
-def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings) -> ChunkTask:
+def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,
+              heights: Any = None) -> ChunkTask:
+    """The chunk of pairs ``a``, ``b`` (site indices) starting at pair ``first``.
+
+    ``heights`` (:class:`profiler.screening.placing.AntennaHeights`, or None)
+    gives roof mounts and per-pair heights; without it each end has its site's
+    height above ground.
+    """
     g = sites.gain_dbi
+    if heights is None:
+        agl_a, agl_b, mounts = sites.antenna_agl_m[a], sites.antenna_agl_m[b], {}
+    else:
+        agl_a, agl_b, mounts = heights.of_pairs(a, b)
     return ChunkTask(
         first_pair=first, a=a, b=b,
         names_a=sites.names[a], names_b=sites.names[b],
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
-        agl_a=sites.antenna_agl_m[a], agl_b=sites.antenna_agl_m[b],
+        agl_a=agl_a, agl_b=agl_b,
         gain_a=None if g is None else g[a], gain_b=None if g is None else g[b],
-        radio=radio, settings=settings,
+        radio=radio, settings=settings, **mounts,
     )
 
 
-def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np.ndarray], list[tuple[int, str]]]:
+def evaluate_chunk(model: ElevationModel, task: ChunkTask,
+                   surroundings: Any = None) -> tuple[dict[str, np.ndarray], list[tuple[int, str]]]:
     """Evaluate a chunk of pairs with the link engine.
+
+    ``surroundings`` (profiler.obstructions.Surroundings: obstruction layers,
+    surface model) adds clutter to every profile, as ``terrahop link`` does.
 
     Pairs are sorted by length and cut into sub-batches of similar sample
     counts (little padding, arrays that fit in cache); results come back in
@@ -81,18 +102,32 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     for name in STAGED_COLUMNS:
         if STAGED_COLUMNS[name] == "f8":
             out[name][:] = np.nan
+    _mount_columns(task, out)
     problems: list[tuple[int, str]] = []
     same = _same_place(task, problems)
     length_m = np.full(n, np.nan)
     todo = np.flatnonzero(~same)
     if todo.size:
-        _evaluate_by_length(model, task, todo, out, problems, length_m)
+        _evaluate_by_length(model, task, todo, out, problems, length_m, surroundings)
     out["status"][:] = PairStatus.PROFILED
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
     out["status"][bad] = PairStatus.NOT_PROFILED
     _add_availability(task, out, length_m, model)
     _blank_error_rows(out)
     return out, problems
+
+
+def _mount_columns(task: ChunkTask, out: dict) -> None:
+    """Heights of both ends as used (from the task, so kept in rows that could not be profiled)."""
+    out["agl_a_m"][:] = task.agl_a
+    out["agl_b_m"][:] = task.agl_b
+    if task.roof_a is not None and task.roof_b is not None:
+        out["mount_a"][:] = np.isfinite(task.roof_a)
+        out["mount_b"][:] = np.isfinite(task.roof_b)
+        out["roof_a_m"][:] = task.roof_a
+        out["roof_b_m"][:] = task.roof_b
+        out["above_roof_a_m"][:] = task.above_roof_a
+        out["above_roof_b_m"][:] = task.above_roof_b
 
 
 def _same_place(task: ChunkTask, problems: list) -> np.ndarray:
@@ -106,11 +141,14 @@ def _same_place(task: ChunkTask, problems: list) -> np.ndarray:
 
 
 def _evaluate_by_length(model: ElevationModel, task: ChunkTask, todo: np.ndarray, out: dict, problems: list,
-                        length_m: np.ndarray) -> None:
+                        length_m: np.ndarray, surroundings: Any = None) -> None:
     """Evaluate pairs ``todo`` in sub-batches of similar sample counts, shortest first."""
     _, _, length = WGS84.inv(task.lon_a[todo], task.lat_a[todo], task.lon_b[todo], task.lat_b[todo])
     spacing: float | np.ndarray | None = task.settings.spacing_m
-    if spacing is None:  # the spacing build_profiles will use: symmetric, from the whole path
+    if spacing is None and surroundings is not None:  # as the engine chooses it (a surface model may be finer)
+        spacing = surroundings.default_spacing_m(model, task.lon_a[todo], task.lat_a[todo], task.lat_b[todo],
+                                                 task.lon_b[todo])
+    elif spacing is None:  # the spacing build_profiles will use: symmetric, from the whole path
         spacing = path_spacings_m(model, task.lat_a[todo], task.lon_a[todo], task.lat_b[todo], task.lon_b[todo])
     spacing = np.broadcast_to(np.asarray(spacing, dtype=float), todo.shape)
     n_samples = np.ceil(np.asarray(length) / spacing) + 1
@@ -130,7 +168,7 @@ def _evaluate_by_length(model: ElevationModel, task: ChunkTask, todo: np.ndarray
         widths = n_sorted[start:]
         fits = np.arange(1, widths.size + 1) * widths <= SUBBATCH_SAMPLES
         stop = start + max(int(np.argmin(fits)) if not fits.all() else widths.size, 1)
-        _evaluate_into(model, task, todo[start:stop], out, problems, length_m)
+        _evaluate_into(model, task, todo[start:stop], out, problems, length_m, surroundings)
         start = stop
 
 
@@ -213,7 +251,7 @@ def _availability_columns(av: Any, n: int) -> dict[str, np.ndarray]:
 
 
 def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out: dict, problems: list,
-                   length_m: np.ndarray) -> None:
+                   length_m: np.ndarray, surroundings: Any = None) -> None:
     """Run the engine on pairs ``idx`` of the chunk and fill their rows of ``out``."""
     # Columns, not one Site object per pair (the engine reads them as arrays).
     sites_a = SiteColumns(task.names_a[idx], task.lat_a[idx].astype(float), task.lon_a[idx].astype(float),
@@ -231,13 +269,26 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     settings = dataclasses.replace(task.settings, compare_methods=False)
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a} - {b}" for a, b in zip(sites_a.names.tolist(), sites_b.names.tolist())],
-                          check_sites=False, estimate_availability=False)
+                          check_sites=False, estimate_availability=False, surroundings=surroundings)
     length_m[idx] = batch.profiles.length_m
     for name, values in engine_columns(batch).items():
         out[name][idx] = np.asarray(values)
+    if surroundings is not None:
+        for name, values in clutter_columns(batch).items():
+            out[name][idx] = values
     for k, problem in enumerate(batch.problems):
         if problem is not None:
             problems.append((task.first_pair + int(idx[k]), problem))
+
+
+def clutter_columns(batch: LinkBatch) -> dict[str, np.ndarray]:
+    """Clutter at the design-k worst point of each link: height, m, and kind code (the link record's
+    ``clutter.at_worst_point_m`` and ``at_worst_point_kind``)."""
+    p = batch.profiles
+    rows = np.arange(len(batch.names))
+    j = np.asarray(batch.design.clearance.worst_index)
+    kind = np.zeros(rows.size, np.int8) if p.clutter_kind is None else p.clutter_kind[rows, j]
+    return {"worst_point_clutter_m": p.clutter_m[rows, j], "worst_point_clutter": kind}
 
 
 def engine_columns(batch: LinkBatch) -> dict[str, Any]:

@@ -23,7 +23,7 @@ from ..kernels import warm_up
 from ..terrain import ElevationModel, _is_remote
 from .evaluate import ChunkTask, evaluate_chunk
 
-__all__ = ["make_executor", "run_chunk", "check_scheduler_address", "with_absolute_paths",
+__all__ = ["make_executor", "run_chunk", "check_scheduler_address", "with_absolute_paths", "for_workers",
            "PRELOAD_MAX_CELLS", "SCHEDULER_CONNECT_TIMEOUT_S"]
 
 #: Rasters up to this many cells are read whole into each worker's memory.
@@ -49,6 +49,38 @@ def _worker_model(model: ElevationModel) -> ElevationModel:
         return _WORKER["model"]
 
 
+def _worker_surroundings(surroundings: Any) -> Any:
+    """The worker's copy of the run's surroundings, its surface model preloaded once per process.
+
+    The layers arrive already read (polygons in WGS84, heights checked) from
+    the parent; only the surface rasters are opened here, by path.
+    """
+    if surroundings is None or surroundings.surface is None:
+        return surroundings
+    key = ("surface", _model_key(surroundings.surface))
+    with _WORKER_LOCK:
+        if _WORKER.get("surface_key") != key:
+            surface = surroundings.surface
+            if surface.total_cells() <= PRELOAD_MAX_CELLS:
+                surface.preload(max_cells=PRELOAD_MAX_CELLS)
+            _WORKER["surface_key"] = key
+        return surroundings
+
+
+def for_workers(surroundings: Any) -> Any:
+    """A fresh copy of ``surroundings`` to send to workers: read layers, surface rasters by absolute path.
+
+    Fresh, so that no index built in the parent (the layers' STRtree) is
+    pickled; each worker builds its own on first use.
+    """
+    if surroundings is None:
+        return None
+    from ..obstructions import Surroundings
+
+    surface = with_absolute_paths(surroundings.surface) if surroundings.surface is not None else None
+    return Surroundings(layers=surroundings.layers, surface=surface, tree_allowance_m=surroundings.tree_allowance_m)
+
+
 def _prepare(model: ElevationModel) -> None:
     """Read small rasters whole and load the compiled kernels for their cell types."""
     if model.total_cells() <= PRELOAD_MAX_CELLS:
@@ -56,25 +88,31 @@ def _prepare(model: ElevationModel) -> None:
     warm_up(tuple(cells.tiles.dtype for cells in model._cache.values()) or (np.float64,))
 
 
-def _init_local_worker(model: ElevationModel) -> None:
+def _init_local_worker(model: ElevationModel, surroundings: Any = None) -> None:
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent decides what an interrupt means
     try:
         _worker_model(model)
+        _WORKER["surroundings"] = _worker_surroundings(surroundings)
     except Exception as exc:  # noqa: BLE001 - an initializer that raises breaks the whole pool
         # Kept and raised by the first task instead, so the parent sees the one-line error
         # (e.g. a damaged raster) rather than "process pool broken".
         _WORKER["error"] = exc
 
 
-def run_chunk(model: ElevationModel, task: ChunkTask):
+def run_chunk(model: ElevationModel, task: ChunkTask, surroundings: Any = None):
     """Worker entry point (local pool or Dask): evaluate ``task`` on the worker's model."""
-    return evaluate_chunk(_worker_model(model), task)
+    model = _worker_model(model)
+    if surroundings is None:
+        return evaluate_chunk(model, task)
+    return evaluate_chunk(model, task, _worker_surroundings(surroundings))
 
 
 def _local_pool_run(task: ChunkTask):
     if "error" in _WORKER:
         raise _WORKER["error"]
-    return evaluate_chunk(_WORKER["model"], task)
+    if _WORKER.get("surroundings") is None:
+        return evaluate_chunk(_WORKER["model"], task)
+    return evaluate_chunk(_WORKER["model"], task, _WORKER["surroundings"])
 
 
 def _warm() -> None:
@@ -82,13 +120,16 @@ def _warm() -> None:
 
 
 class _InProcess:
-    def __init__(self, model: ElevationModel) -> None:
+    def __init__(self, model: ElevationModel, surroundings: Any = None) -> None:
         self.model = model
+        self.surroundings = surroundings  # the caller's own (layers read, surface open)
         if model.total_cells() <= PRELOAD_MAX_CELLS:
             model.preload(max_cells=PRELOAD_MAX_CELLS)
 
     def submit(self, task: ChunkTask):
-        return _Done(evaluate_chunk(self.model, task))
+        if self.surroundings is None:
+            return _Done(evaluate_chunk(self.model, task))
+        return _Done(evaluate_chunk(self.model, task, self.surroundings))
 
     def close(self, cancel: bool = False) -> None:
         pass
@@ -103,7 +144,7 @@ class _Done:
 
 
 class _LocalPool:
-    def __init__(self, model: ElevationModel, workers: int) -> None:
+    def __init__(self, model: ElevationModel, workers: int, surroundings: Any = None) -> None:
         # Linux: fork, so workers start with the parent's modules already imported (the
         # pool starts before any progress-bar thread); elsewhere a fresh interpreter each.
         methods = mp.get_all_start_methods()
@@ -113,7 +154,7 @@ class _LocalPool:
         if method == "forkserver":
             ctx.set_forkserver_preload(["profiler.screening"])
         self.pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_init_local_worker,
-                                        initargs=(model,))
+                                        initargs=(model, for_workers(surroundings)))
         for _ in range(workers):  # start the workers while the parent prepares the pairs
             self.pool.submit(_warm)
 
@@ -173,7 +214,7 @@ class _WorkerFuture:
 
 
 class _DaskPool:
-    def __init__(self, model: ElevationModel, scheduler: Any) -> None:
+    def __init__(self, model: ElevationModel, scheduler: Any, surroundings: Any = None) -> None:
         try:
             from distributed import Client
         except ImportError:
@@ -198,28 +239,35 @@ class _DaskPool:
                 ) from None
             self.own = True
         self.model = self.client.scatter(with_absolute_paths(model), broadcast=True)
+        # Read once here, sent once to every worker: workers need not reach the layer files.
+        self.surroundings = (None if surroundings is None
+                             else self.client.scatter(for_workers(surroundings), broadcast=True))
 
     @property
     def workers(self) -> int:
         return max(len(self.client.scheduler_info().get("workers", {})), 1)
 
     def submit(self, task: ChunkTask):
-        return _WorkerFuture(self.client.submit(run_chunk, self.model, task, pure=False))
+        if self.surroundings is None:
+            return _WorkerFuture(self.client.submit(run_chunk, self.model, task, pure=False))
+        return _WorkerFuture(self.client.submit(run_chunk, self.model, task, self.surroundings, pure=False))
 
     def close(self, cancel: bool = False) -> None:
         if self.own:
             self.client.close()
 
 
-def make_executor(model: ElevationModel, workers: int | None, scheduler: Any, remaining: int, chunk_pairs: int):
+def make_executor(model: ElevationModel, workers: int | None, scheduler: Any, remaining: int, chunk_pairs: int,
+                  surroundings: Any = None):
+    """The executor of a run and how many chunks it may hold at once; ``surroundings`` reach every worker."""
     if scheduler is not None:
-        pool = _DaskPool(model, scheduler)
+        pool = _DaskPool(model, scheduler, surroundings)
         return pool, 2 * pool.workers + 2
     n = (os.cpu_count() or 1) if workers is None else workers
     if n < 1:
         raise InputError(f"--workers must be 1 or more, got {n}")
     if n == 1 or remaining <= chunk_pairs:
-        return _InProcess(model), 1
-    return _LocalPool(model, n), 2 * n + 1
+        return _InProcess(model, surroundings), 1
+    return _LocalPool(model, n, surroundings), 2 * n + 1
 
 

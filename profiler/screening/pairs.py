@@ -27,12 +27,15 @@ class PairPlan:
 
     ``explicit`` holds site indices ``(a, b)``; ``hubs`` site indices.  Both
     directions are one link: site a is the earlier site in the file (all
-    pairs), the hub (hub mode) or as listed (explicit pairs).
+    pairs), the hub (hub mode) or as listed (explicit pairs).  ``heights``
+    (with ``explicit``): antenna heights of each listed pair's ends, m,
+    measured as the site's own height is; NaN where the pair takes its sites' heights.
     """
 
     max_km: float | None = None
     hubs: tuple[int, ...] = ()
     explicit: tuple[np.ndarray, np.ndarray] | None = None
+    heights: tuple[np.ndarray, np.ndarray] | None = None
 
     def describe(self) -> str:
         within = f" within {self.max_km:g} km" if self.max_km is not None else ""
@@ -197,12 +200,14 @@ def drop_sites(sites: SiteTable, plan: PairPlan, keep: np.ndarray) -> tuple[Site
     hubs = tuple(int(new_index[h]) for h in plan.hubs if keep[h])
     if plan.hubs and not hubs:
         raise InputError("every hub lies outside the elevation rasters; nothing to screen")
-    explicit = None
+    explicit = heights = None
     if plan.explicit is not None:
         a, b = plan.explicit
         ok = keep[a] & keep[b]
         explicit = (new_index[a[ok]], new_index[b[ok]])
-    return sites.subset(keep), dataclasses.replace(plan, hubs=hubs, explicit=explicit)
+        if plan.heights is not None:
+            heights = (plan.heights[0][ok], plan.heights[1][ok])
+    return sites.subset(keep), dataclasses.replace(plan, hubs=hubs, explicit=explicit, heights=heights)
 
 
 def resolve_hubs(sites: SiteTable, hub_names: Sequence[str]) -> tuple[int, ...]:

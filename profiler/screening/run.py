@@ -20,7 +20,7 @@ import numpy as np
 
 from ..budget import Radio
 from ..errors import InputError
-from ..io.columns import STAGED_COLUMNS
+from ..io.columns import run_staged_columns
 from ..io.screen_output import (check_output_path, check_outputs_spare_inputs, output_paths, rank_order,
                                 write_outputs)
 from ..io.sites import BadRow, SiteTable
@@ -33,27 +33,42 @@ from .evaluate import make_task
 from .executors import make_executor
 from .frames import frames_of_run, read_site_input
 from .pairs import PairPlan, count_pairs, drop_sites, pair_chunks, pairs_bound
+from .placing import AntennaHeights, antenna_heights, place_roofs, site_mounts
 from .summary import ScreenSummary, verdict_counts, verdicts
 
 __all__ = ["screen"]
 
 
-def _stage(out: str | os.PathLike) -> Stage:
-    return Stage(staging_folder(out), STAGED_COLUMNS)
+def _stage(out: str | os.PathLike, surroundings: Any = None) -> Stage:
+    return Stage(staging_folder(out), run_staged_columns(surroundings is not None))
+
+
+def _file_stamp(path: str) -> str:
+    st = os.stat(path) if os.path.exists(path) else None
+    return f"{path}|{st.st_size if st else ''}|{st.st_mtime_ns if st else ''}"
 
 
 def _fingerprint(sites: SiteTable, model: ElevationModel, radio: Radio, settings: Settings,
-                 plan: PairPlan, chunk_pairs: int) -> str:
+                 plan: PairPlan, chunk_pairs: int, surroundings: Any = None,
+                 heights: AntennaHeights | None = None) -> str:
     h = hashlib.sha256()
+    if surroundings is not None:  # layers (files, fields, kinds), surface rasters, tree allowance
+        h.update(repr(surroundings.describe()).encode())
+        for layer in surroundings.layers:
+            h.update(_file_stamp(str(layer.spec.path)).encode())
+        for s in surroundings.surface.sources if surroundings.surface is not None else ():
+            h.update(_file_stamp(s.path).encode())
+    if heights is not None:  # roof mounts and per-pair heights
+        h.update(heights.digest())
     for arr in (sites.lat_deg, sites.lon_deg, sites.antenna_agl_m, sites.gain_dbi):
         if arr is not None:
             h.update(np.ascontiguousarray(arr, dtype=float).tobytes())
     h.update("\x1f".join(map(str, sites.names)).encode())
     for s in model.sources:
-        st = os.stat(s.path) if os.path.exists(s.path) else None
-        h.update(f"{s.path}|{st.st_size if st else ''}|{st.st_mtime_ns if st else ''}".encode())
+        h.update(_file_stamp(s.path).encode())
     h.update(repr((radio, settings, model.nodata_fill_m, plan.max_km, plan.hubs, chunk_pairs)).encode())
-    h.update(repr(tuple(STAGED_COLUMNS.items())).encode())  # a staging folder of another column layout is not resumed
+    # A staging folder of another column layout is not resumed.
+    h.update(repr(tuple(run_staged_columns(surroundings is not None).items())).encode())
     if plan.explicit is not None:
         h.update(plan.explicit[0].tobytes())
         h.update(plan.explicit[1].tobytes())
@@ -79,6 +94,8 @@ def screen(
     progress: Callable[[int, int], None] | None = None,
     inputs: Sequence[str | os.PathLike] = (),
     site_options: Mapping[str, Any] | None = None,
+    surroundings: Any = None,
+    above_roof: bool = False,
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -120,6 +137,13 @@ def screen(
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
         while one is alive is refused (see :mod:`profiler.io.stage`).
+    surroundings : profiler.obstructions.Surroundings, optional
+        Obstruction layers and/or a surface model, as ``terrahop link`` takes
+        them (:func:`profiler.jobs.open_surroundings`); the caller closes it.
+    above_roof : bool
+        The sites' antenna heights are above the roof of the building each
+        stands in (a ``mount`` column of ground/roof overrides it per site).
+        Per-pair heights come in ``plan.heights``.
 
     Returns
     -------
@@ -155,7 +179,7 @@ def screen(
             bad_rows = [*bad_rows, *bad_read]
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
-                   progress=progress, inputs=inputs)
+                   progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -169,6 +193,7 @@ def _screen_to(
     plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
+    surroundings: Any = None, above_roof: bool = False,
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -178,22 +203,26 @@ def _screen_to(
         raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
     check_output_path(out)
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
-    check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
+    check_outputs_spare_inputs(out, [*inputs, *_raster_files(model), *_surroundings_files(surroundings)])
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
+    sites, plan, bad, heights, notes = _placed_sites(sites, model, plan, bad, surroundings, above_roof)
     with RunLock(lock_path(out), str(out)):
-        run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0)
+        run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
+                   surroundings, heights)
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
         try:
-            executor, inflight_max = make_executor(model, workers, scheduler, pairs_bound(sites, plan), chunk_pairs)
+            executor, inflight_max = make_executor(model, workers, scheduler, pairs_bound(sites, plan), chunk_pairs,
+                                                   surroundings)
         except BaseException:
             if run.done_rows == 0:  # e.g. the scheduler cannot be reached: leave no empty staging behind
                 run.stage.discard()
             raise
         try:
             summary = run.compute(executor, inflight_max, progress)
-            return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
+            return dataclasses.replace(summary, warnings=summary.warnings + notes
+                                       + _spacing_warnings(model, sites, settings))
         finally:
             executor.close(cancel=True)
 
@@ -215,6 +244,47 @@ def _covered_sites(sites: SiteTable, model: ElevationModel, plan: PairPlan,
         sites, plan = drop_sites(sites, plan, covered)
     bad.sort(key=lambda r: (r.source != sites.source, r.row))
     return sites, plan, bad
+
+
+def _placed_sites(sites: SiteTable, model: ElevationModel, plan: PairPlan, bad: list[BadRow], surroundings: Any,
+                  above_roof: bool) -> tuple[SiteTable, PairPlan, list[BadRow], AntennaHeights | None, tuple]:
+    """Roof mounts placed once per site (the unplaceable become bad rows), per-pair heights; before any pair.
+
+    Returns the sites and plan without the skipped sites, the bad rows, the
+    heights (None for a plain run: every end at its site's height above
+    ground) and warnings (the first 20 of them, then a count).
+    """
+    if surroundings is not None:
+        surroundings.check_datum(model)  # one line before any work, as terrahop link refuses it
+    roof, bad_mount = site_mounts(sites, above_roof)
+    if surroundings is None and not roof.any() and plan.heights is None and not bad_mount:
+        return sites, plan, bad, None, ()
+    keep = np.ones(len(sites), dtype=bool)
+    named = {int(r): k for k, r in enumerate(sites.rows)}
+    for row in bad_mount:
+        keep[named[row.row]] = False
+    roof_m, bad_place, warnings = place_roofs(sites, roof & keep, model, surroundings)
+    for row in bad_place:
+        keep[named[row.row]] = False
+    new_bad = [*bad, *bad_mount, *bad_place]
+    if keep.sum() < 2:
+        raise InputError(f"{sites.source}: {int(keep.sum())} of {len(sites)} sites can be placed; nothing to "
+                         f"screen (first: {(bad_mount + bad_place)[0].describe()})")
+    if not keep.all():
+        sites, plan = drop_sites(sites, plan, keep)
+        roof_m = roof_m[keep]
+    new_bad.sort(key=lambda r: (r.source != sites.source, r.row))
+    notes = tuple(warnings[:20]) + ((f"... and {len(warnings) - 20} more sites inside buildings taller "
+                                     "than their antennas",) if len(warnings) > 20 else ())
+    return sites, plan, new_bad, antenna_heights(sites, roof_m, plan, surroundings is not None), notes
+
+
+def _surroundings_files(surroundings: Any) -> list[str]:
+    """The obstruction layer files and surface rasters of a run (an output must not land on them)."""
+    if surroundings is None:
+        return []
+    files = [str(layer.spec.path) for layer in surroundings.layers]
+    return files + (_raster_files(surroundings.surface) if surroundings.surface is not None else [])
 
 
 def _raster_files(model: ElevationModel) -> list[str]:
@@ -252,12 +322,14 @@ _VERDICT_KEYS = ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"
 class _Run:
     """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
-    def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0) -> None:
+    def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
+                 surroundings=None, heights=None) -> None:
         self.sites, self.model, self.radio, self.settings = sites, model, radio, settings
         self.out, self.plan, self.bad = out, plan, bad
         self.chunk_pairs, self.min_margin_db, self.t0 = chunk_pairs, min_margin_db, t0
-        self.stage = _stage(out)
-        self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
+        self.heights = heights
+        self.stage = _stage(out, surroundings)
+        self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs, surroundings, heights)
         self.total = count_pairs(sites, plan)
         self.done_rows = self.done_chunks = self.resumed = 0
 
@@ -333,7 +405,7 @@ class _Run:
                             exhausted = True
                             break
                         first, a, b = nxt
-                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings)))
+                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings, self.heights)))
                     if not pending:
                         break
                     cols, problems = pending.popleft().result()
