@@ -147,6 +147,8 @@ class _LocalPool:
     def __init__(self, model: ElevationModel, workers: int, surroundings: Any = None) -> None:
         # Linux: fork, so workers start with the parent's modules already imported (the
         # pool starts before any progress-bar thread); elsewhere a fresh interpreter each.
+        # Workers get copies without the parent's open raster handles (placing roof mounts
+        # reads the rasters first): a handle shared across fork shares its file offset.
         methods = mp.get_all_start_methods()
         method = "fork" if sys.platform.startswith("linux") and "fork" in methods else (
             "forkserver" if "forkserver" in methods else "spawn")
@@ -154,7 +156,7 @@ class _LocalPool:
         if method == "forkserver":
             ctx.set_forkserver_preload(["profiler.screening"])
         self.pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_init_local_worker,
-                                        initargs=(model, for_workers(surroundings)))
+                                        initargs=(with_absolute_paths(model), for_workers(surroundings)))
         for _ in range(workers):  # start the workers while the parent prepares the pairs
             self.pool.submit(_warm)
 
