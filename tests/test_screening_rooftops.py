@@ -197,7 +197,7 @@ def test_a_plain_run_has_no_roof_or_clutter_columns(tmp_path, job):
 
 def test_roof_mounts_without_a_building_layer_are_refused_before_any_work(tmp_path, job):
     out = tmp_path / "r.csv"
-    with pytest.raises(InputError, match="need a building layer"):
+    with pytest.raises(InputError, match="needs a building layer"):
         screen(str(ROOFTOPS), str(DEMO_DEM), job.radio, job.settings, out, workers=1)  # its mount column
     assert not out.exists() and not list(tmp_path.iterdir())
 

@@ -111,8 +111,10 @@ def place_roofs(sites: SiteTable, roof: np.ndarray, model: Any,
     bad: list[BadRow] = []
     warnings: list[str] = []
     if roof.any() and (surroundings is None or not any(l.kind == "building" for l in surroundings.layers)):
-        raise InputError(f"antenna heights above the roof need a building layer ({PARAMETER}); "
-                         "or give the heights above ground", parameter="surroundings")
+        first = sites.names[int(np.flatnonzero(roof)[0])]
+        raise InputError(f"{sites.source}: {int(roof.sum())} site(s) have their antenna height above the roof "
+                         f"(first: {first!r}), which needs a building layer ({PARAMETER}); or give the heights "
+                         "above ground", parameter="surroundings")
     has_layers = surroundings is not None and bool(surroundings.layers)
     for k in range(n) if has_layers else np.flatnonzero(roof):
         site = Site(str(sites.names[k]), float(sites.lat_deg[k]), float(sites.lon_deg[k]),
@@ -141,9 +143,11 @@ def antenna_heights(sites: SiteTable, roof_m: np.ndarray, plan: Any, columns: bo
 def _reason(exc: Exception, name: str) -> str:
     """The error's sentence without the site's name in front (a skipped row names it already)."""
     text = str(exc)
-    for lead in (f"site {name!r} ", f"site {name!r}: "):
-        if text.startswith(lead):
-            return text[len(lead):].lstrip(": ")
+    lead = f"site {name!r}"
+    if text.startswith(lead + " ("):
+        return "position " + text[len(lead) + 1:]
+    if text.startswith(lead):
+        return text[len(lead):].lstrip(": ")
     return text
 
 

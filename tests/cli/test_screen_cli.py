@@ -171,3 +171,52 @@ def test_scheduler_address_is_checked_and_connection_time_bounded(tmp_path):
     lines = proc.stderr.strip().splitlines()
     assert len(lines) == 1 and "cannot connect to the Dask scheduler at tcp://127.0.0.1" in lines[0]
     assert not out.exists() and not (tmp_path / "r.csv.partial").exists()
+
+
+#: The README's rooftop example: the demo town's buildings and trees, its surface model, roof mounts.
+ROOFTOP_ARGS = ["--obstructions", REPO / "data/demo/town.gpkg#buildings",
+                "--obstructions", f"trees={REPO / 'data/demo/town.gpkg'}#trees", "--tree-allowance-m", "2",
+                "--surface", REPO / "data/demo/town-surface.tif", "--above-roof",
+                "--tx-power-dbm", "20", "--bandwidth-mhz", "20", "--noise-figure-db", "6", "--required-snr-db", "15",
+                "--k", "1.3333333333", "--k-worst", "0.6666666667"]
+
+
+def test_screen_rooftop_candidates_equals_terrahop_link_with_the_same_layers(tmp_path):
+    import pandas as pd
+
+    out = tmp_path / "rooftops.csv"
+    proc = terrahop("screen", REPO / "data/demo/rooftops.csv", "--dem", DEMO_DEM, *RADIO, *ROOFTOP_ARGS,
+                    "--out", out, "--workers", "1")
+    assert "66 pairs of 12 sites screened" in proc.stdout and proc.stderr == ""
+    links = pd.read_csv(out)
+    row = links[(links["site_a"] == "Linthorpe Library") & (links["site_b"] == "Harbour Row Flats")].iloc[0]
+    rec = json.loads(terrahop("link", REPO / "examples/demo-5-rooftop.toml", "--surface",
+                              REPO / "data/demo/town-surface.tif", "--json").stdout)
+    rec = rec[0] if isinstance(rec, list) else rec
+    assert row["verdict"] == "obstructed" and row["worst_point_clutter"] == rec["clutter"]["at_worst_point_kind"]
+    assert row["fade_margin_db"] == rec["budget"]["fade_margin_db"]
+    assert row["diffraction_db"] == rec["loss_db"]["diffraction"]
+    assert row["worst_f1_fraction"] == rec["clearance"]["worst_f1_fraction"]
+    assert row["agl_a_m"] == rec["sites"]["a"]["antenna_agl_m"] and row["roof_b_m"] == rec["sites"]["b"]["building"]["height_m"]
+
+
+def test_screen_reports_bad_roof_sites_and_pair_heights_and_goes_on(tmp_path):
+    import pandas as pd
+
+    sites = tmp_path / "sites.csv"
+    sites.write_text((REPO / "data/demo/rooftops.csv").read_text() + "Open field,-30.5340,-20.8500,3,roof\n")
+    pairs = tmp_path / "pairs.csv"
+    pairs.write_text("a,b,height_a_m,height_b_m\nLinthorpe Library,Harbour Row Flats,9,7.5\n"
+                     "Linthorpe Library,Block 1 (15 m),-2,3\nBlock 2 (15 m),Block 3 (15 m),4,\n"
+                     "Block 4 (15 m),Open field,3,3\nBlock 5 (12 m),Block 6 (15 m),,\n")
+    out = tmp_path / "r.csv"
+    proc = terrahop("screen", sites, "--dem", DEMO_DEM, *RADIO, *ROOFTOP_ARGS, "--pairs", pairs, "--out", out)
+    err = proc.stderr
+    assert "skipped sites.csv row 14 ('Open field'): position (-30.534000, -20.850000) is not inside any building" in err
+    assert "skipped pairs.csv row 3 ('Linthorpe Library - Block 1 (15 m)'): height_a_m" in err
+    assert "skipped pairs.csv row 4 ('Block 2 (15 m) - Block 3 (15 m)'): height_b_m is blank" in err
+    # The pair with the skipped site goes with it (as for a site outside the rasters); the site's row says why.
+    assert "Traceback" not in err and "2 pairs of 12 sites screened" in proc.stdout
+    links = pd.read_csv(out).set_index("site_a")
+    assert links.loc["Linthorpe Library", "above_roof_a_m"] == 9.0
+    assert links.loc["Block 5 (12 m)", "above_roof_b_m"] == 3.0
