@@ -16,7 +16,6 @@ from profiler.io.sites import read_name_pairs_with_heights, read_sites
 from profiler.jobs import analyse_job, open_job_data, resolve_link_job, surroundings_from_options
 from profiler.mounts import Mount
 from profiler.screening import PairPlan, screen
-from profiler.terrain import ElevationModel
 
 from tests._screening_data import DEMO_DEM, REPO, lose_worker_after
 

@@ -455,21 +455,22 @@ def read_name_pairs_with_heights(
     raw = [frame[c].astype(str).str.strip().to_numpy()[rows] for c in cols]
     values = [_numbers(r) for r in raw]
     reasons: list[str | None] = [None] * rows.size
+
+    def flag(mask: np.ndarray, reason_of) -> None:  # the first reason found for a row is kept
+        for k in np.flatnonzero(mask):
+            if reasons[k] is None:
+                reasons[k] = reason_of(int(k))
+
     for end, (r, v, col) in enumerate(zip(raw, values, cols)):
-        other = raw[1 - end]
+        other, other_col = raw[1 - end], cols[1 - end]
         ranges = check_numbers(np.where(np.isfinite(v), v, 0.0), "antenna_agl_m")
-        for k in range(rows.size):
-            if reasons[k] is not None:
-                continue
-            if r[k] == "" and other[k] != "":
-                reasons[k] = f"{col} is blank but {cols[1 - end]} is not; give both heights or neither"
-            elif r[k] != "" and not np.isfinite(v[k]):
-                reasons[k] = f"{col} {r[k]!r} is not a number"
-            elif r[k] != "" and ranges[k] is not None:
-                reasons[k] = f"{col}: {ranges[k]}"
+        flag((r == "") & (other != ""),
+             lambda k: f"{col} is blank but {other_col} is not; give both heights or neither")
+        flag((r != "") & ~np.isfinite(v), lambda k: f"{col} {r[k]!r} is not a number")
+        flag((r != "") & np.array([x is not None for x in ranges], dtype=bool), lambda k: f"{col}: {ranges[k]}")
     ok = np.array([x is None for x in reasons], dtype=bool)
-    for k in np.flatnonzero(~ok):
-        bad.append(BadRow(Path(path).name, int(rows[k]) + 2, f"{names[a[k]]} - {names[b[k]]}", str(reasons[k])))
+    for j in np.flatnonzero(~ok):
+        bad.append(BadRow(Path(path).name, int(rows[j]) + 2, f"{names[a[j]]} - {names[b[j]]}", str(reasons[j])))
     bad.sort(key=lambda r: r.row)
     return a[ok], b[ok], (values[0][ok], values[1][ok]), bad
 
