@@ -133,8 +133,11 @@ def test_the_mount_column_chooses_per_site_without_above_roof(tmp_path, surround
     pd.testing.assert_frame_equal(links, with_flag)
     sites = tmp_path / "ground.csv"
     sites.write_text(ROOFTOPS.read_text().replace(",roof\n", ",\n"))  # blank: the run's default (ground)
-    _, ground = _screen(tmp_path, surroundings, job, name="ground-run.csv", sites=sites)
+    summary, ground = _screen(tmp_path, surroundings, job, name="ground-run.csv", sites=sites)
     assert set(ground["mount_a"]) == {"ground"} and ground["roof_a_m"].isna().all()
+    # 3 m above the ground inside a building: the building blocks the path, as terrahop link warns.
+    inside = [w for w in summary.warnings if "higher than the antenna" in w]
+    assert len(inside) == 11 and any("'Linthorpe Library' stands in building" in w for w in inside)
     assert not ground["agl_a_m"].equals(links["agl_a_m"])
 
 
@@ -173,6 +176,14 @@ def _all_roof(tmp_path):
     path = tmp_path / "all-roof.csv"
     path.write_text(ROOFTOPS.read_text().replace("20,ground", "20,roof"))
     return path
+
+
+def test_a_hub_whose_roof_is_not_found_stops_the_run_with_one_reason(tmp_path, surroundings, job):
+    sites = tmp_path / "sites.csv"
+    sites.write_text(ROOFTOPS.read_text() + "Open field,-30.5340,-20.8500,3,roof\n")
+    table, _ = read_sites(sites)
+    with pytest.raises(InputError, match="every hub was skipped"):
+        _screen(tmp_path, surroundings, job, sites=sites, plan=PairPlan(hubs=(len(table) - 1,)))
 
 
 def test_a_roof_site_outside_every_building_is_skipped_and_the_run_goes_on(tmp_path, surroundings, job):

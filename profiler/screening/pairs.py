@@ -199,7 +199,8 @@ def drop_sites(sites: SiteTable, plan: PairPlan, keep: np.ndarray) -> tuple[Site
     new_index = np.cumsum(keep) - 1
     hubs = tuple(int(new_index[h]) for h in plan.hubs if keep[h])
     if plan.hubs and not hubs:
-        raise InputError("every hub lies outside the elevation rasters; nothing to screen")
+        raise InputError("every hub was skipped (outside the elevation rasters, or its roof not found); "
+                         "nothing to screen")
     explicit = heights = None
     if plan.explicit is not None:
         a, b = plan.explicit
