@@ -116,14 +116,22 @@ def place_roofs(sites: SiteTable, roof: np.ndarray, model: Any,
                          f"(first: {first!r}), which needs a building layer ({PARAMETER}); or give the heights "
                          "above ground", parameter="surroundings")
     has_layers = surroundings is not None and bool(surroundings.layers)
-    for k in range(n) if has_layers else np.flatnonzero(roof):
-        site = Site(str(sites.names[k]), float(sites.lat_deg[k]), float(sites.lon_deg[k]),
-                    float(sites.antenna_agl_m[k]))
-        mount = Mount("roof" if roof[k] else "ground", float(sites.antenna_agl_m[k]))
-        try:
-            _, (placement,) = place_sites(model, [site], [mount], surroundings, "site")
-        except (InputError, DataError) as exc:  # one site, not the run
-            bad.append(BadRow(sites.source, int(sites.rows[k]), str(sites.names[k]), _reason(exc, site.name)))
+    todo = np.arange(n) if has_layers else np.flatnonzero(roof)
+    placed_sites = [Site(str(sites.names[k]), float(sites.lat_deg[k]), float(sites.lon_deg[k]),
+                         float(sites.antenna_agl_m[k])) for k in todo]
+    mounts = [Mount("roof" if roof[k] else "ground", float(sites.antenna_agl_m[k])) for k in todo]
+    try:  # all at once (one raster sample); one by one only to find the sites that fail
+        placements = list(place_sites(model, placed_sites, mounts, surroundings, "site")[1])
+    except (InputError, DataError):
+        placements = []
+        for k, site, mount in zip(todo, placed_sites, mounts):
+            try:
+                placements.extend(place_sites(model, [site], [mount], surroundings, "site")[1])
+            except (InputError, DataError) as exc:  # one site, not the run
+                placements.append(None)
+                bad.append(BadRow(sites.source, int(sites.rows[k]), site.name, _reason(exc, site.name)))
+    for k, placement in zip(todo, placements):
+        if placement is None:
             continue
         if roof[k]:
             assert placement.roof is not None  # place_sites refuses a roof mount outside every building

@@ -5,6 +5,8 @@ Each case is refused with one line before any work (harness in tests/cli/bad_inp
 
 from __future__ import annotations
 
+import pytest
+
 from tests.cli.bad_input import assert_refused
 from tests.conftest import DEMO_DEM
 
@@ -44,6 +46,7 @@ def test_unreadable_layer_file(tmp_path):
                    inputs=[*INPUTS, junk])
 
 
+@pytest.mark.filterwarnings("ignore:.crs. was not provided")
 def test_layer_without_a_crs(tmp_path):
     import geopandas as gpd
 
