@@ -121,7 +121,7 @@ def place_roofs(sites: SiteTable, roof: np.ndarray, model: Any,
                          float(sites.antenna_agl_m[k])) for k in todo]
     mounts = [Mount("roof" if roof[k] else "ground", float(sites.antenna_agl_m[k])) for k in todo]
     try:  # all at once (one raster sample); one by one only to find the sites that fail
-        placements = list(place_sites(model, placed_sites, mounts, surroundings, "site")[1])
+        placements: list[Any] = list(place_sites(model, placed_sites, mounts, surroundings, "site")[1])
     except (InputError, DataError):
         placements = []
         for k, site, mount in zip(todo, placed_sites, mounts):
