@@ -219,4 +219,12 @@ def test_screen_reports_bad_roof_sites_and_pair_heights_and_goes_on(tmp_path):
     assert "Traceback" not in err and "2 pairs of 12 sites screened" in proc.stdout
     links = pd.read_csv(out).set_index("site_a")
     assert links.loc["Linthorpe Library", "above_roof_a_m"] == 9.0
+    rec = json.loads(terrahop("link", REPO / "examples/demo-5-rooftop.toml", "--surface",
+                              REPO / "data/demo/town-surface.tif", "--above-roof-a", "9", "--above-roof-b", "7.5",
+                              "--json").stdout)
+    rec = rec[0] if isinstance(rec, list) else rec
+    row = links.loc["Linthorpe Library"]
+    assert row["fade_margin_db"] == rec["budget"]["fade_margin_db"] and bool(row["line_of_sight"])
+    assert row["worst_f1_fraction"] == rec["clearance"]["worst_f1_fraction"]
+    assert row["agl_b_m"] == rec["sites"]["b"]["antenna_agl_m"]
     assert links.loc["Block 5 (12 m)", "above_roof_b_m"] == 3.0
