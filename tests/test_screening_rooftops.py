@@ -271,3 +271,12 @@ def test_a_bad_pair_height_skips_that_pair_only(tmp_path, cells, words):
 def test_a_pairs_file_with_one_height_column_is_refused(tmp_path):
     with pytest.raises(InputError, match="height_a_m without height_b_m"):
         _read(tmp_path, "a,b,height_a_m\nLinthorpe Library,Block 1 (15 m),4\n")
+
+
+def test_a_bad_mount_word_is_a_skipped_row_also_without_layers(tmp_path, job):
+    sites = tmp_path / "m.csv"
+    sites.write_text("name,lat,lon,antenna_agl_m,mount\nA,-30.535178,-20.845193,10,ground\n"
+                     "B,-30.534618,-20.830600,10,attic\nC,-30.530243,-20.847028,10,\n")
+    summary = screen(str(sites), str(DEMO_DEM), job.radio, job.settings, tmp_path / "r.csv", workers=1)
+    assert summary.pairs == 1 and [(r.row, r.name) for r in summary.bad_rows] == [(3, "B")]
+    assert "'attic' is neither ground nor roof" in summary.bad_rows[0].reason

@@ -117,6 +117,8 @@ def place_roofs(sites: SiteTable, roof: np.ndarray, model: Any,
                          "above ground", parameter="surroundings")
     has_layers = surroundings is not None and bool(surroundings.layers)
     todo = np.arange(n) if has_layers else np.flatnonzero(roof)
+    if todo.size == 0:
+        return roof_m, bad, warnings
     placed_sites = [Site(str(sites.names[k]), float(sites.lat_deg[k]), float(sites.lon_deg[k]),
                          float(sites.antenna_agl_m[k])) for k in todo]
     mounts = [Mount("roof" if roof[k] else "ground", float(sites.antenna_agl_m[k])) for k in todo]
