@@ -139,7 +139,7 @@ def screen(
         while one is alive is refused (see :mod:`profiler.io.stage`).
     surroundings : profiler.obstructions.Surroundings, optional
         Obstruction layers and/or a surface model, as ``terrahop link`` takes
-        them (:func:`profiler.jobs.open_surroundings`); the caller closes it.
+        them (:func:`profiler.jobs.surroundings_from_options`); the caller closes it.
     above_roof : bool
         The sites' antenna heights are above the roof of the building each
         stands in (a ``mount`` column of ground/roof overrides it per site).
