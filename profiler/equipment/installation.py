@@ -68,10 +68,14 @@ def tilt_deg(distance_m: ArrayLike, height_from_m: ArrayLike, height_to_m: Array
     """
     re = np.asarray(k, dtype=float) * EARTH_RADIUS_M
     d = np.asarray(distance_m, dtype=float)
-    ra = re + np.asarray(height_from_m, dtype=float)
-    rb = re + np.asarray(height_to_m, dtype=float)
+    ha = np.asarray(height_from_m, dtype=float)
+    hb = np.asarray(height_to_m, dtype=float)
+    rb = re + hb
     theta = d / re
-    return np.degrees(np.arctan2(rb * np.cos(theta) - ra, rb * np.sin(theta)))
+    # r_b cos(theta) - r_a written as (h_b - h_a) - 2 r_b sin^2(theta/2): the same, without the
+    # cancellation of two numbers near k a (6-600 km) that differ by metres.
+    rise = (hb - ha) - 2.0 * rb * np.sin(theta / 2.0) ** 2
+    return np.degrees(np.arctan2(rise, rb * np.sin(theta)))
 
 
 def tilt_small_angle_deg(distance_m: ArrayLike, height_from_m: ArrayLike, height_to_m: ArrayLike,
