@@ -27,7 +27,7 @@ from typing import Any, Iterator, overload
 from .availability import ClimateSettings
 from .climate import CLIMATE_SOURCES
 from .budget import Radio
-from .errors import PARAMETER, InputError
+from .errors import PARAMETER, InputError, ModelValidityError
 from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
 from .link_batch import LinkBatch
 from .link_engine import analyse_link
@@ -336,7 +336,7 @@ def resolve_install_date(opts: dict[str, Any]) -> Any:
             raise InputError(exc.template, parameter="date", value_word="YYYY-MM-DD") from None
     try:
         check_date(date, PARAMETER if given is not None else "today's date")
-    except InputError as exc:
+    except ModelValidityError as exc:
         raise type(exc)(exc.template, parameter="date", value_word="YYYY-MM-DD") from None
     return date
 
