@@ -243,7 +243,7 @@ class Installation:
         for tag in ("a", "b"):
             dec: Declination = getattr(self, f"declination_{tag}")
             hor = float(dec.horizontal_nt[i])
-            end = {
+            end: dict[str, Any] = {
                 "tilt_deg": float(getattr(self, f"tilt_{tag}_deg")[i]),
                 "tilt_worst_deg": float(getattr(self, f"tilt_{tag}_worst_deg")[i]),
                 "azimuth_true_deg": float(getattr(self, f"azimuth_{tag}_deg")[i]),
