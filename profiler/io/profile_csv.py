@@ -67,6 +67,8 @@ def check_profile_csv_path(out: str | os.PathLike, inputs: Iterable[Any]) -> Non
         if same:
             raise InputError(f"--profile-csv {out} would overwrite the input {given}; choose another file")
     folder = out_p.parent if str(out_p.parent) else Path(".")
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"--profile-csv {out}: {folder} is a file, not a folder")
     if not folder.is_dir():
         raise InputError(f"--profile-csv {out}: the folder {folder} does not exist")
     if not os.access(folder, os.W_OK | os.X_OK):

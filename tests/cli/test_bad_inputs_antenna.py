@@ -108,6 +108,16 @@ def test_profile_csv_in_a_missing_folder(tmp_path):
     assert not out.parent.exists()
 
 
+def test_profile_csv_under_a_file():
+    assert_refused(["link", str(DEMO6), "--profile-csv", str(DEMO6 / "p.csv")],
+                   ["--profile-csv", "is a file, not a folder"], inputs=[DEMO6])
+
+
+def test_profile_csv_on_a_folder(tmp_path):
+    assert_refused(["link", str(DEMO6), "--profile-csv", str(tmp_path)], ["--profile-csv", "folder"],
+                   inputs=[DEMO6])
+
+
 def test_profile_csv_in_a_folder_we_cannot_write(tmp_path):
     import os
 
