@@ -101,3 +101,10 @@ def test_record_names_file_gain_and_how():
     assert rec["gain_dbi"] == pytest.approx(38.4787, abs=1e-3)
     assert rec["beamwidth_from"] == "70 lambda / D" and rec["envelope_points"] == 9
     assert math.isfinite(rec["beamwidth_deg"])
+
+
+def test_gains_outside_the_one_gain_range_are_refused_with_the_file():
+    with pytest.raises(InputError, match=r"x.toml: gain_dbi must be at least -20 and at most 70"):
+        parse_antenna({"gain_dbi": 75}, "x.toml")
+    with pytest.raises(InputError, match=r"x.toml: diameter_m 30 gives 85.4 dBi at 80 GHz"):
+        parse_antenna({"diameter_m": 30}, "x.toml").gain_dbi_at(80.0)

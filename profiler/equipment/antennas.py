@@ -43,6 +43,7 @@ from numpy.typing import ArrayLike
 
 from ..errors import DataFileError, InputError
 from ..units import wavelength_m
+from ..validation import LIMITS
 
 __all__ = [
     "Antenna",
@@ -135,7 +136,12 @@ class Antenna:
         if self.gain_dbi is not None:
             return float(self.gain_dbi)
         assert self.diameter_m is not None  # parse_antenna refuses an antenna with neither
-        return float(aperture_gain_dbi(self.diameter_m, freq_ghz, self.efficiency_used))
+        gain = float(aperture_gain_dbi(self.diameter_m, freq_ghz, self.efficiency_used))
+        limit = LIMITS["gain_a_dbi"]
+        if not limit.low <= gain <= limit.high:
+            raise InputError(f"{self.source}: diameter_m {self.diameter_m:g} gives {gain:.1f} dBi at {float(freq_ghz):g} "
+                             f"GHz, outside the gains terrahop takes ({limit.describe()})")
+        return gain
 
     def beamwidth_deg_at(self, freq_ghz: float) -> float | None:
         """Half-power beamwidth, degrees: given, else 70 lambda / D; None with neither a beamwidth nor a diameter."""
@@ -260,7 +266,8 @@ def parse_antenna(table: dict[str, Any], source: str) -> Antenna:
     for key, value in (("name", name), ("notes", notes)):
         if not isinstance(value, str):
             raise InputError(f"{source}: {key} must be text in quotes, got {value!r}")
-    gain = _number(source, table, "gain_dbi", low=-50.0, high=80.0, low_open=False)
+    gain_limit = LIMITS["gain_a_dbi"]  # the one range of a gain (profiler.validation)
+    gain = _number(source, table, "gain_dbi", low=gain_limit.low, high=gain_limit.high, low_open=False)
     diameter = _number(source, table, "diameter_m", low=0.0, high=100.0)
     efficiency = _number(source, table, "efficiency", low=0.0, high=1.0)
     beam = _number(source, table, "beamwidth_deg", low=0.0, high=180.0)
