@@ -76,7 +76,7 @@ def test_wmm2025_agrees_with_igrf14_within_a_degree():
     igrf = np.degrees(np.arctan2(np.ravel(be), np.ravel(bn)))
     diff = (ours - igrf + 180.0) % 360.0 - 180.0
     assert np.max(np.abs(diff)) < 1.0, diff
-    assert np.median(np.abs(diff)) < 0.3
+    assert np.median(np.abs(diff)) < 0.1  # measured: median 0.011 deg, largest 0.053 deg (2026-07-01)
 
 
 # --- tilt on a sphere of radius k a ------------------------------------------------
