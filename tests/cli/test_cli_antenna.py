@@ -188,3 +188,15 @@ def test_screen_skips_a_site_whose_antenna_fails(tmp_path, cli):
     assert "row 3" in result.stderr and "antenna file not found" in result.stderr
     out_sites = list(csv.DictReader((tmp_path / "o-sites.csv").open()))
     assert len(out_sites) == len(src) - 2
+
+
+def test_sheet_free_text_date_leaves_the_declination_at_today(tmp_path, cli):
+    import datetime as dt
+
+    pypdf = pytest.importorskip("pypdf")
+    out = tmp_path / "s.pdf"
+    _run(cli, "sheet", DEMO6, "-o", out, "--date", "2 March 2026")
+    text = pypdf.PdfReader(str(out)).pages[0].extract_text()
+    assert "2 March 2026" in text  # the title block keeps the words
+    today = {dt.date.today().isoformat(), dt.datetime.now(dt.timezone.utc).date().isoformat()}
+    assert any(f"epoch 2025.0, {d})" in text.replace("\n", " ") for d in today)
