@@ -27,7 +27,7 @@ from typing import Any, Iterator, overload
 from .availability import ClimateSettings
 from .climate import CLIMATE_SOURCES
 from .budget import Radio
-from .errors import PARAMETER, InputError
+from .errors import PARAMETER, InputError, ModelValidityError
 from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
 from .link_batch import LinkBatch
 from .link_engine import analyse_link
@@ -96,6 +96,11 @@ class LinkJob:
     max_mast_b_m: float | None = None
     #: Open dataset fetched around the sites (profiler.terrain_sources.TerrainRequest), or None.
     terrain: Any = None
+    #: Antennas of the two ends (profiler.equipment.antennas.Antenna), or None where the gain is a number.
+    antenna_a: Any = None
+    antenna_b: Any = None
+    #: Date of the magnetic declination in the installer figures (None: no installer figures).
+    install_date: Any = None
 
 
 def default_text(name: str) -> str:
@@ -259,7 +264,8 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file, "
                          "or an open dataset ([terrain] source)", parameter="dem", value_word="FILE")
     a, b = _site(spec, opts, "a"), _site(spec, opts, "b")
-    radio = resolve_radio(opts, spec.radio, spec.path)
+    antennas = resolve_antennas(spec, opts)
+    radio = with_antenna_gains(resolve_radio(opts, spec.radio, spec.path), antennas)
     settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
     return LinkJob(
         title=spec.title or f"{a.name} - {b.name}",
@@ -273,7 +279,78 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         settings=settings,
         terrain=terrain,
         **_resolve_urban(spec, opts),
+        antenna_a=antennas.get("a"),
+        antenna_b=antennas.get("b"),
+        install_date=resolve_install_date(opts),
     )
+
+
+# --- antennas and installer figures (profiler.equipment) -----------------------
+
+
+def resolve_antennas(spec: LinkSpec, opts: dict[str, Any]) -> dict[str, Any]:
+    """The antenna of each end: ``antenna_a``/``antenna_b`` (a file) over [antenna_a]/[antenna_b].
+
+    Flags win over the link file as everywhere: an antenna flag replaces the file's
+    [radio] gain, a gain flag replaces the file's antenna.  Two ways of giving one
+    gain in the same place are refused: ``gain_a_dbi`` with ``antenna_a``, or
+    [radio] gain_a_dbi with [antenna_a] in one link file.
+    """
+    from .equipment.antennas import antenna_from_link_table, read_antenna_file
+
+    out: dict[str, Any] = {}
+    for tag in ("a", "b"):
+        flag, gain = opts.get(f"antenna_{tag}"), opts.get(f"gain_{tag}_dbi")
+        table = getattr(spec, f"antenna_{tag}")
+        if flag is not None and gain is not None:
+            raise InputError(f"give the site {tag} gain once: {{parameter}} or --gain-{tag}-dbi, not both",
+                             parameter=f"antenna_{tag}", value_word="FILE")
+        if flag is not None:
+            out[tag] = read_antenna_file(flag)
+        elif table and gain is None:
+            if f"gain_{tag}_dbi" in spec.radio:
+                raise InputError(f"{spec.path}: [antenna_{tag}] and [radio] gain_{tag}_dbi both give the site {tag} "
+                                 "gain; keep one")
+            out[tag] = antenna_from_link_table(table, spec.path, f"antenna_{tag}")
+    return out
+
+
+def with_antenna_gains(radio: Radio, antennas: dict[str, Any]) -> Radio:
+    """``radio`` with each end's gain taken from its antenna at the radio's frequency (band checked)."""
+    gains = {f"gain_{tag}_dbi": ant.gain_dbi_at(float(radio.freq_ghz)) for tag, ant in antennas.items()}
+    return dataclasses.replace(radio, **gains).validate() if gains else radio
+
+
+def resolve_install_date(opts: dict[str, Any]) -> Any:
+    """Date of the declination: ``date`` (YYYY-MM-DD) or today (UTC); refused outside the magnetic model."""
+    import datetime as _dt
+
+    from .equipment.installation import check_date, parse_date
+
+    given = opts.get("date")
+    if given is None:
+        date = _dt.datetime.now(_dt.timezone.utc).date()
+    else:
+        try:
+            date = parse_date(given, PARAMETER)
+        except InputError as exc:
+            raise InputError(exc.template, parameter="date", value_word="YYYY-MM-DD") from None
+    try:
+        check_date(date, PARAMETER if given is not None else "today's date")
+    except ModelValidityError as exc:
+        raise type(exc)(exc.template, parameter="date", value_word="YYYY-MM-DD") from None
+    return date
+
+
+def with_equipment(batch: LinkBatch, job: LinkJob) -> LinkBatch:
+    """The batch with the job's antennas and, when the job has a date, the installer figures."""
+    antennas = {tag: a for tag, a in (("a", job.antenna_a), ("b", job.antenna_b)) if a is not None}
+    installation = None
+    if job.install_date is not None:
+        from .equipment.installation import installation_figures
+
+        installation = installation_figures(batch, job.install_date)
+    return dataclasses.replace(batch, antennas=antennas or None, installation=installation)
 
 
 def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
@@ -482,7 +559,8 @@ def open_job_data(job: LinkJob, lats: Any = (), lons: Any = (),
 def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings | None, *,
                 mount_a: Any = None, mount_b: Any = None) -> LinkBatch:
     """Analyse one job on open data, as ``terrahop link`` does; mounts may be overridden."""
-    return analyse_link(
+    batch = analyse_link(
         model, job.site_a, job.site_b, job.radio, job.settings, name=job.title,
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
     )
+    return with_equipment(batch, job)

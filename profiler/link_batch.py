@@ -50,6 +50,9 @@ class LinkBatch:
     placements_b: tuple | None = None
     clutter_warnings: tuple[tuple[str, ...], ...] = ()
     availability: LinkAvailability | None = None
+    # Antennas and installer figures (profiler.equipment), set by profiler.jobs; None when not made.
+    antennas: dict | None = None  # {"a": Antenna, "b": Antenna}, either may be missing
+    installation: Any = None  # profiler.equipment.installation.Installation
 
     def __len__(self) -> int:
         return len(self.names)

@@ -42,6 +42,7 @@ def link_record(batch: Any, i: int) -> dict:
         "warnings": link_warnings(batch, i),
         "criterion": batch.settings.criterion.describe(batch.settings.k, batch.settings.k_worst),
         **({"availability": batch.availability.record(i)} if batch.availability is not None else {}),
+        **({"installation": batch.installation.record(i)} if batch.installation is not None else {}),
         "inputs": _inputs_record(batch, i),
         "provenance": batch.provenance,
     }
@@ -72,7 +73,16 @@ def _inputs_record(batch: Any, i: int) -> dict:
         "vertical_datum": batch.provenance.get("vertical_datum", ""),
         "climate": (batch.availability.climate_inputs(i) if batch.availability is not None
                     else settings.climate.as_dict()),
+        **_antenna_inputs(batch),
     }
+
+
+def _antenna_inputs(batch: Any) -> dict:
+    """``antennas``: the antenna of each end that has one (file, gain used and how), at the link frequency."""
+    if not batch.antennas:
+        return {}
+    freq = float(np.ravel(batch.radio.freq_ghz)[0])
+    return {"antennas": {tag: ant.record(freq) for tag, ant in sorted(batch.antennas.items())}}
 
 
 def _sampling_inputs(batch: Any, i: int) -> dict:

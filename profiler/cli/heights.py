@@ -6,7 +6,7 @@ import json
 
 import click
 
-from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data
+from .options import analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data
 
 __all__ = ["heights", "run_heights", "format_heights"]
 
@@ -106,6 +106,7 @@ def format_heights(r: dict) -> str:
 @click.command()
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
 @link_input_options
+@date_option
 @click.option("--solve", type=click.Choice(["a", "b", "both"]), default="both", show_default=True,
               help="Which antenna heights to find: a (b as given), b (a as given), or both (least sum).")
 @click.option("--max-mast-a", "max_mast_a", type=float, default=None, metavar="M",

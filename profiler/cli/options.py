@@ -44,6 +44,8 @@ __all__ = [
     "link_input_options",
     "opened_link_data",
     "analyse_resolved",
+    "antenna_options",
+    "date_option",
 ]
 
 
@@ -324,10 +326,22 @@ climate_options = _compose(
 )
 
 
+#: Antenna files of the two ends (profiler.equipment.antennas); the gain replaces --gain-a-dbi/--gain-b-dbi.
+antenna_options = _compose(
+    _option("--antenna-a", "antenna_a", default=None, metavar="FILE",
+            help="Antenna file (TOML) of site a: its gain at the link frequency is used (not with --gain-a-dbi)."),
+    _option("--antenna-b", "antenna_b", default=None, metavar="FILE", help="As --antenna-a, for site b."),
+)
+
+#: Date of the magnetic declination in the installer figures (link, heights).
+date_option = _option(
+    "--date", "date", default=None, metavar="YYYY-MM-DD",
+    help="Date for the magnetic declination (World Magnetic Model) in the installer figures [default: today].")
+
 #: Every option that describes one link, shared by link, sheet and heights.
 link_input_options = _compose(
     terrain_options, site_options, mount_options, surroundings_options, radio_options, analysis_options,
-    climate_options,
+    climate_options, antenna_options,
 )
 
 

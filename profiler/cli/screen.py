@@ -175,6 +175,12 @@ def _screen_radio_options(func):
 @click.option("--gain-col", default=None,
               help="Column of antenna gains, dBi, overriding --gain-a-dbi/--gain-b-dbi [default: the first of "
                    "gain_dbi, antenna_gain_dbi, if present].")
+@click.option("--antenna", "antenna_file", default=None, metavar="FILE",
+              help="Antenna file (TOML) for every site: its gain at --freq-ghz is each end's gain "
+                   "(not with --gain-a-dbi/--gain-b-dbi).")
+@click.option("--antenna-col", default=None, metavar="NAME",
+              help="Column naming an antenna file per site, relative to the sites file; blank cells keep "
+                   "the other gains [default: a column named antenna, if present].")
 @click.option("--max-mast-col", default=None,
               help="Column of the tallest mast allowed, m [default: the first of max_mast_m, max_agl_m, if present].")
 @click.option("--agl-m", "default_agl_m", type=float, default=None,
@@ -197,8 +203,8 @@ def _screen_radio_options(func):
               help="No progress bar and no summary; skipped rows and warnings still go to stderr.")
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
-           max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
-           restart, overwrite, quiet, above_roof, **opts) -> None:
+           antenna_file, antenna_col, max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler,
+           chunk_pairs, resume, restart, overwrite, quiet, above_roof, **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -215,8 +221,9 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     from ..terrain import ElevationModel
 
     _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
-    inputs = [sites_file, pairs_file, *opts["dem"]]
+    inputs = [sites_file, pairs_file, *opts["dem"], antenna_file]
     _check_out(out, inputs)
+    opts = _with_antenna_gains(antenna_file, opts)
     if scheduler is not None:
         from ..screening import check_scheduler_address
 
@@ -226,6 +233,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sites_file, pairs_file, dict(name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
                                      gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
                                      layer=layer))
+    sites, bad = _site_antennas(sites, bad, float(radio.freq_ghz), sites_file, antenna_col)
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit,
                     heights=pair_heights)
@@ -296,6 +304,27 @@ def _open_surroundings(opts: dict, above_roof: bool):
         raise InputError("--above-roof measures antenna heights from the roofs of a building layer: "
                          "give --obstructions FILE with the buildings, or leave --above-roof out")
     return surroundings
+
+
+def _with_antenna_gains(antenna_file, opts: dict) -> dict:
+    """``opts`` with both gains from the antenna file given for every site (--antenna), if any."""
+    if antenna_file is None:
+        return opts
+    from ..equipment.site_antennas import gain_for_all_sites
+
+    gain = gain_for_all_sites(antenna_file, float(opts["freq_ghz"]), opts)
+    return dict(opts, gain_a_dbi=gain, gain_b_dbi=gain)
+
+
+def _site_antennas(sites, bad, freq_ghz: float, sites_file, antenna_col):
+    """Per-site gains from the antenna files a sites-file column names (profiler.equipment.site_antennas)."""
+    from ..equipment.site_antennas import apply_site_antennas
+
+    sites, bad = apply_site_antennas(sites, bad, freq_ghz, sites_file, antenna_col)
+    if len(sites) < 2:
+        raise InputError(f"{sites_file}: fewer than two usable sites once the antenna files are read; "
+                         f"first: {bad[-1].describe()}")
+    return sites, bad
 
 
 def _check_out(out, inputs) -> None:

@@ -86,6 +86,9 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
+        from ..jobs import with_equipment
+
+        batch = with_equipment(batch, resolved)  # antennas and installer figures, as for a link file
         good = [i for i, problem in enumerate(batch.problems) if problem is None]
         unprofiled = [p for p in batch.problems if p is not None]
         if not good:
@@ -133,6 +136,19 @@ def build_sheet_contents(link_files: tuple[str, ...], opts: dict, title: Any, *,
     return [dataclasses.replace(c, sheet_number=i + 1, sheet_count=n) for i, c in enumerate(contents)]
 
 
+def _declination_date(date_text: str | None) -> str | None:
+    """The title-block date when written YYYY-MM-DD: the magnetic declination is then for that date.
+
+    Any other wording (free text) leaves the declination at today's date; the sheet states the date used.
+    """
+    if date_text is None:
+        return None
+    try:
+        return _dt.date.fromisoformat(date_text.strip()).isoformat()
+    except ValueError:
+        return None
+
+
 def _output_format(out: str, fmt: str | None) -> str:
     if fmt:
         return fmt.lower()
@@ -166,7 +182,9 @@ def _output_format(out: str, fmt: str | None) -> str:
 @click.option("--project", default="", help="Project name for the title block.")
 @click.option("--prepared-by", default="", help="Who prepared the sheet (title block).")
 @click.option("--checked-by", default="", help="Who checked the sheet (title block; blank for hand entry).")
-@click.option("--date", "date_text", default=None, help="Date in the title block [default: today].")
+@click.option("--date", "date_text", default=None,
+              help="Date in the title block [default: today]; written YYYY-MM-DD it also dates the magnetic "
+                   "declination of the installer figures.")
 @click.option("--revision", default="A", show_default=True, help="Revision mark in the title block.")
 @friendly_errors
 def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, rows: str | None, best: int | None,
@@ -187,6 +205,7 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
         project=project, prepared_by=prepared_by, checked_by=checked_by,
         date=date_text if date_text is not None else _dt.date.today().isoformat(), revision=revision,
     )
+    opts = dict(opts, date=_declination_date(date_text))
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
     n_pages = len(contents) + sum(continuation_pages(c) for c in contents)

@@ -41,6 +41,13 @@ Rooftop and urban links add (all optional)::
     height_field = "height_m"    # height above ground; or top_field (absolute top)
     tree_allowance_m = 2
 
+Antennas (optional; keys in :mod:`profiler.equipment.antennas`, checked there)::
+
+    [antenna_a]                  # inline: gain_dbi or diameter_m, efficiency, beamwidth_deg, ...
+    diameter_m = 0.6
+    [antenna_b]
+    file = "dish-0.6m.toml"      # or an antenna file, relative to the link file
+
 Unknown keys are refused with their name, so a typing error never passes silently.
 """
 
@@ -82,6 +89,8 @@ SECTION_KEYS: dict[str, set[str]] = {
 #: Keys of one entry of [obstructions] layers.
 LAYER_KEYS = {"file", "layer", "kind", "height_field", "top_field"}
 TOP_KEYS = {"title", "notes"}
+#: Antenna tables: their keys are checked by profiler.equipment.antennas (the io layer stays free of it).
+ANTENNA_SECTIONS = ("antenna_a", "antenna_b")
 
 #: Keys that hold text; any other type is refused with the file, table and key.
 TEXT_KEYS = {"name", "vertical_unit", "vertical_crs", "diffraction_method", "polarisation", "ground",
@@ -107,6 +116,8 @@ class LinkSpec:
     analysis: dict[str, Any] = field(default_factory=dict)
     obstructions: dict[str, Any] = field(default_factory=dict)
     climate: dict[str, Any] = field(default_factory=dict)
+    antenna_a: dict[str, Any] = field(default_factory=dict)
+    antenna_b: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -130,10 +141,13 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
                     f"{p}: unknown key(s) in [{key}]: {', '.join(sorted(unknown))}; "
                     f"allowed: {', '.join(sorted(SECTION_KEYS[key]))}"
                 )
+        elif key in ANTENNA_SECTIONS:
+            if not isinstance(value, dict):
+                raise InputError(f"{p}: [{key}] must be a table (antenna keys, or file = \"PATH\")")
         elif key not in TOP_KEYS:
             raise InputError(
                 f"{p}: unknown key or section {key!r}; allowed: "
-                f"{', '.join(sorted(TOP_KEYS | set(SECTION_KEYS)))}"
+                f"{', '.join(sorted(TOP_KEYS | set(SECTION_KEYS) | set(ANTENNA_SECTIONS)))}"
             )
     _check_types(p, data)
     terrain = dict(data.get("terrain", {}))
@@ -161,6 +175,8 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         analysis=dict(data.get("analysis", {})),
         obstructions=obstructions,
         climate=dict(data.get("climate", {})),
+        antenna_a=dict(data.get("antenna_a", {})),
+        antenna_b=dict(data.get("antenna_b", {})),
     )
 
 

@@ -131,6 +131,46 @@ def _terrain_source_lines(r: dict) -> list[str]:
     return out
 
 
+def _antenna_lines(r: dict) -> list[str]:
+    """The antenna files used and the gain each gives at the link frequency."""
+    out = []
+    for tag, a in sorted((r["inputs"].get("antennas") or {}).items()):
+        beam = f", beamwidth {a['beamwidth_deg']:.2f} deg ({a['beamwidth_from']})" if a.get("beamwidth_deg") else ""
+        out.append(f"antenna {tag}          {a['name']} ({a['file']}): {a['gain_dbi']:.1f} dBi from "
+                   f"{a['gain_from']}{beam}")
+    return out
+
+
+#: Said under the installer figures in the summary (the full caution: README, Cautions).
+INSTALL_CAUTION = ("tower and rooftop work and RF exposure near antennas: follow local codes, the regulator "
+                   "and licensed professionals")
+
+
+def _installation_lines(r: dict) -> list[str]:
+    """Installer figures: tilt at both k, true and magnetic azimuth, the level to align to, heights."""
+    inst = r.get("installation")
+    if not inst:
+        return []
+    datum = datum_of_record(r).short()
+    out = [f"installation       declination {inst['magnetic_model']} (epoch {inst['magnetic_model_epoch']:.1f}) "
+           f"for {inst['date']}; level to align to: clear-air, design k, same power both ways"]
+    for tag in ("a", "b"):
+        e = inst[tag]
+        unc = e.get("declination_uncertainty_deg")
+        unc_text = f" +-{unc:.1f}" if unc is not None else ""
+        out += [
+            f"  site {tag}           tilt {e['tilt_deg']:+.2f} deg (k={inst['k']:.4g}), {e['tilt_worst_deg']:+.2f} deg "
+            f"(k={inst['k_worst']:.4g}); align to {e['rx_level_dbm']:.1f} dBm",
+            f"                   azimuth {e['azimuth_true_deg']:.2f} deg true, {e['azimuth_magnetic_deg']:.2f} deg "
+            f"magnetic (declination {e['declination_deg']:+.2f}{unc_text} deg); antenna "
+            f"{e['antenna_agl_m']:.1f} m above ground, {e['antenna_amsl_m']:.1f} m {datum}",
+        ]
+        if e.get("declination_note"):
+            out.append(f"                   {e['declination_note']}")
+    out.append(f"  caution          {INSTALL_CAUTION}")
+    return out
+
+
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
@@ -158,6 +198,7 @@ def format_link_summary(r: dict) -> str:
         f"{radio['gain_a_dbi']:g}/{radio['gain_b_dbi']:g} dBi, line losses {radio['loss_a_db']:g}/"
         f"{radio['loss_b_db']:g} dB, {radio['bandwidth_mhz']:g} MHz, NF {radio['noise_figure_db']:g} dB, "
         f"needs SNR {radio['required_snr_db']:g} dB",
+        *_antenna_lines(r),
         f"EIRP               {r['budget']['eirp_dbm']:.1f} dBm",
         f"design k = {r['k']:.4g} ({r['inputs'].get('diffraction_method', 'knife-edge')} diffraction)",
         *_at_k_lines(r),
@@ -165,6 +206,7 @@ def format_link_summary(r: dict) -> str:
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
         *_availability_lines(r.get("availability")),
+        *_installation_lines(r),
     ]
     lines += _clutter_lines(r)
     for w in r.get("warnings", []):

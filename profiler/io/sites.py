@@ -155,6 +155,8 @@ def _near_match(columns: Sequence[str], role: str) -> str | None:
     """A column that looks like a cut or misspelt default name of ``role``, or None."""
     for c in columns:
         n = _norm(c)
+        if n == "antenna":  # the column of antenna files (profiler.equipment.site_antennas), not a cut name
+            continue
         for candidate in DEFAULT_COLUMNS[role]:
             if n == candidate:
                 continue

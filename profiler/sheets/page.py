@@ -29,6 +29,7 @@ from .notes import (
 from .style import COLOURS, RC_PARAMS, PageSize, page_size
 from ..vertical import datum_of_record
 from .table import Row, above_datum_label, distance_text, format_k, height_text, parameter_rows
+from .installation import HEADING_SHIFT_MM, installation_note, site_line
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
            "sheet_paths"]
@@ -158,12 +159,18 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     renderer = fig.canvas.get_renderer()
     for tag, x_mm, ha in (("a", 22, "left"), ("b", 194, "right")):
         s = r["sites"][tag]
-        name = fig.text(*lay.xy(x_mm, 182.0), f"{tag}  {s['name']}", ha=ha, va="baseline", fontsize=lay.fs(8.5),
+        install = site_line(r, tag)  # installer figures (profiler.sheets.installation): headings move up
+        up = HEADING_SHIFT_MM if install else 0.0
+        name = fig.text(*lay.xy(x_mm, 182.0 + up), f"{tag}  {s['name']}", ha=ha, va="baseline", fontsize=lay.fs(8.5),
                         fontweight="bold", color=COLOURS["site_a" if tag == "a" else "site_b"])
         _fit(name, fig.bbox.width * 84 / _A4[0], renderer, lay.fs(6))
+        if install:
+            line = fig.text(*lay.xy(x_mm, 176.0), install, ha=ha, va="baseline", fontsize=lay.fs(6.0),
+                            color=COLOURS["ink"])
+            _fit(line, fig.bbox.width * 82 / _A4[0], renderer, lay.fs(4.5))
         roof = (f"{height_text(s['antenna_above_roof_m'], units)} above the roof, "
                 if s.get("roof_m") is not None and s.get("antenna_above_roof_m") is not None else "")
-        heights = fig.text(*lay.xy(x_mm, 178.3),
+        heights = fig.text(*lay.xy(x_mm, 178.3 + up / 2),
                            f"antenna {roof}{height_text(s['antenna_agl_m'], units)} above ground, "
                            f"{height_text(s['antenna_amsl_m'], units)} {above_datum_label(r)}",
                            ha=ha, va="baseline", fontsize=lay.fs(6.5), color=COLOURS["ink"])
@@ -173,6 +180,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
                borderaxespad=0.0, labelspacing=0.35)
     ve = vertical_exaggeration(ax, units)
     note = curvature_note(c.drawing) + f" Vertical scale exaggerated about {ve:.0f} times."
+    note += installation_note(r)
     fig.text(*lay.xy(8, 90.5), _wrap(note, 188, 6.2, lay), fontsize=lay.fs(6.2), color=COLOURS["muted"],
              va="top", linespacing=1.25)
     return art

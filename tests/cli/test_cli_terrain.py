@@ -19,6 +19,8 @@ def _numbers(record: dict) -> dict:
     out = dict(record)
     out.pop("provenance")
     out["inputs"] = {k: v for k, v in out["inputs"].items() if not k.startswith("vertical_datum")}
+    if "installation" in out:  # it names the datum too
+        out["installation"] = {k: v for k, v in out["installation"].items() if k != "vertical_datum"}
     return out
 
 
