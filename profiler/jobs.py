@@ -95,6 +95,9 @@ class LinkJob:
     max_mast_b_m: float | None = None
     #: Open dataset fetched around the sites (profiler.terrain_sources.TerrainRequest), or None.
     terrain: Any = None
+    #: Radio profile applied (profiler.equipment.modulation.RadioPlan) and EIRP limit (EirpLimit), or None.
+    radio_plan: Any = None
+    eirp_limit: Any = None
 
 
 def default_text(name: str) -> str:
@@ -258,7 +261,8 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         raise InputError(f"no elevation raster: give {PARAMETER} (repeatable) or [terrain] rasters in the link file, "
                          "or an open dataset ([terrain] source)", parameter="dem", value_word="FILE")
     a, b = _site(spec, opts, "a"), _site(spec, opts, "b")
-    radio = resolve_radio(opts, spec.radio, spec.path)
+    radio = resolve_radio(opts, _one_step_keys(spec.radio), spec.path)
+    radio, radio_plan, eirp_limit = resolve_radio_plan(opts, spec.radio, spec.analysis, radio, spec.path)
     settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
     return LinkJob(
         title=spec.title or f"{a.name} - {b.name}",
@@ -271,8 +275,83 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         radio=radio,
         settings=settings,
         terrain=terrain,
+        radio_plan=radio_plan,
+        eirp_limit=eirp_limit,
         **_resolve_urban(spec, opts),
     )
+
+
+#: Settings of a one-step radio that a radio profile gives instead (refused beside a profile).
+PROFILE_GIVES = ("bandwidth_mhz", "noise_figure_db", "required_snr_db")
+#: Keys of a link file's [radio] table that are not Radio fields.
+PROFILE_KEYS = ("profile", "channel_mhz", "max_eirp_dbm")
+
+
+def _one_step_keys(section: dict[str, Any]) -> dict[str, Any]:
+    """A [radio] table without the radio-profile keys (those are not :class:`Radio` fields)."""
+    return {k: v for k, v in section.items() if k not in PROFILE_KEYS}
+
+
+def resolve_radio_plan(opts: dict[str, Any], section: dict[str, Any], analysis: dict[str, Any], radio: Radio,
+                       source: str = "link file") -> tuple[Radio, Any, Any]:
+    """(radio the engine analyses, RadioPlan or None, EirpLimit or None) from overrides over [radio].
+
+    ``radio_profile`` over [radio] profile names a radio profile
+    (:mod:`profiler.equipment.radios`); ``channel_mhz`` over [radio]
+    channel_mhz picks its channel; ``min_margin_db`` over [analysis]
+    min_margin_db is the margin a step needs to be chosen (default 10 dB).
+    With a profile, ``bandwidth_mhz``, ``noise_figure_db`` and
+    ``required_snr_db`` come from it: given as overrides, or in the same link
+    file as the profile, they are refused; a link file's own are replaced when
+    the profile comes as an override (the record lists them).  A transmit
+    power given with a profile may only lower the profile's.  ``max_eirp_dbm``
+    over [radio] max_eirp_dbm over the profile band's limit is the EIRP limit.
+    """
+    from .equipment.modulation import DEFAULT_MIN_MARGIN_DB, RadioPlan
+    from .equipment.radios import EirpLimit, read_radio_profile, step_table
+
+    where = source or "link file"
+    path = opts.get("radio_profile") or section.get("profile")
+    channel = _checked(opts, section, "channel_mhz", opt="channel_mhz", table="radio", source=source)
+    margin = _checked(opts, analysis, "min_margin_db", opt="min_margin_db", table="analysis", source=source)
+    limit_value = _checked(opts, section, "max_eirp_dbm", opt="max_eirp_dbm", table="radio", source=source)
+    limit = None
+    if limit_value is not None:
+        limit = EirpLimit(limit_value, "--max-eirp-dbm" if opts.get("max_eirp_dbm") is not None
+                          else f"{where} [radio] max_eirp_dbm")
+    if path is None:
+        for key, value in (("channel_mhz", channel), ("min_margin_db", margin)):
+            if value is not None:
+                if opts.get(key) is not None:
+                    raise InputError(f"{PARAMETER} applies to a radio profile's steps: give a radio profile as well",
+                                     parameter=key)
+                table = "analysis" if key == "min_margin_db" else "radio"
+                raise InputError(f"{where}: [{table}] {key} applies to a radio profile's steps: give [radio] profile")
+        return radio, None, limit
+    for key in PROFILE_GIVES:
+        if opts.get(key) is not None:
+            raise InputError(f"{PARAMETER} describes a one-step radio; the radio profile gives it: drop one of the two",
+                             parameter=key)
+        if key in section and opts.get("radio_profile") is None:
+            raise InputError(f"{where}: [radio] {key} and [radio] profile are both given; the profile gives "
+                             f"{key}: drop one of the two")
+    replaced = tuple(f"{where} [radio] {k}" for k in PROFILE_GIVES if k in section)
+    profile = read_radio_profile(path)
+    band = profile.band(radio.freq_ghz)
+    chosen = profile.channel(channel)
+    cap = opts.get("tx_power_dbm") if opts.get("tx_power_dbm") is not None else section.get("tx_power_dbm")
+    try:
+        steps = step_table(profile, chosen, None if cap is None else float(cap), radio.tx_power_dbm)
+    except InputError as exc:
+        if opts.get("tx_power_dbm") is None and exc.parameter == "tx_power_dbm":
+            raise InputError(exc.template.replace(f"({PARAMETER} ", f"({where} [radio] tx_power_dbm = ")) from None
+        raise
+    if limit is None and band.max_eirp_dbm is not None:
+        limit = EirpLimit(band.max_eirp_dbm, f"radio profile {profile.path}, band {band.describe()}")
+    plan = RadioPlan(profile=profile, channel_mhz=chosen.width_mhz, freq_ghz=float(radio.freq_ghz), band=band,
+                     steps=steps, min_margin_db=DEFAULT_MIN_MARGIN_DB if margin is None else margin,
+                     replaced=replaced)
+    return plan.engine_radio(radio).validate(), plan, limit
 
 
 def _terrain_request(spec: LinkSpec, opts: dict[str, Any]) -> Any:
@@ -470,4 +549,5 @@ def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings 
     return analyse_link(
         model, job.site_a, job.site_b, job.radio, job.settings, name=job.title,
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
+        radio_plan=job.radio_plan, eirp_limit=job.eirp_limit,
     )

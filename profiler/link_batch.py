@@ -50,6 +50,9 @@ class LinkBatch:
     placements_b: tuple | None = None
     clutter_warnings: tuple[tuple[str, ...], ...] = ()
     availability: LinkAvailability | None = None
+    # Radio profile figures (profiler.equipment.modulation.ModulationResult) and the EIRP check; None when unused.
+    modulation: Any = None
+    eirp: Any = None
 
     def __len__(self) -> int:
         return len(self.names)
