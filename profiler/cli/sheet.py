@@ -85,7 +85,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     ends = sites_a + sites_b  # an open dataset (--terrain) is fetched around every pair
     with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
-                              surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
+                              surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b,
+                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit)
         good = [i for i, problem in enumerate(batch.problems) if problem is None]
         unprofiled = [p for p in batch.problems if p is not None]
         if not good:
