@@ -24,6 +24,8 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Iterator, overload
 
+import numpy as np
+
 from .availability import ClimateSettings
 from .climate import CLIMATE_SOURCES
 from .budget import Radio
@@ -285,6 +287,85 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
 PROFILE_GIVES = ("bandwidth_mhz", "noise_figure_db", "required_snr_db")
 #: Keys of a link file's [radio] table that are not Radio fields.
 PROFILE_KEYS = ("profile", "channel_mhz", "max_eirp_dbm")
+
+
+#: Column of a sites file naming each site's radio profile (screening).
+RADIO_COLUMN = "radio"
+
+
+def site_radios(opts: dict[str, Any], sites: Any, sites_file: str | None, radio: Radio,
+                min_margin_db: float | None = None) -> Any:
+    """The radio profiles of a screening run (:class:`profiler.screening.evaluate.SiteRadios`), or None.
+
+    ``radio_profile`` (``--radio``) gives every site one profile; a ``radio``
+    column of the sites names a profile file per site (relative to the sites
+    file; a blank cell takes ``--radio`` if given, else the flags' one-step
+    radio ``radio``, whose ``bandwidth_mhz``/``required_snr_db`` flags then
+    apply to those sites only).  ``max_eirp_dbm`` sets the EIRP limit of all;
+    without it each profile band's own.  ``min_margin_db``: the margin a
+    step needs to be chosen (screen's viable margin).  A profile that cannot
+    be used stops the run with one line naming the site that names it.
+    """
+    from .equipment.modulation import DEFAULT_MIN_MARGIN_DB
+    from .screening.evaluate import SiteRadios
+
+    extra = getattr(sites, "extra", None)
+    column = extra is not None and RADIO_COLUMN in getattr(extra, "columns", ())
+    if opts.get("radio_profile") is None and not column and opts.get("max_eirp_dbm") is None:
+        for key in ("channel_mhz",):
+            if opts.get(key) is not None:
+                raise InputError(f"{PARAMETER} applies to a radio profile's steps: give --radio or a radio column",
+                                 parameter=key)
+        return None
+    margin = DEFAULT_MIN_MARGIN_DB if min_margin_db is None else min_margin_db
+    plans: list[Any] = []
+    limits: list[Any] = []
+    names: list[str] = []
+    index: dict[str | None, int] = {}
+
+    def plan_of(path: str | None, where: str) -> int:
+        if path in index:
+            return index[path]
+        if path is None:  # the flags' one-step radio
+            plain = {k: v for k, v in opts.items() if k not in ("channel_mhz", "radio_profile")}
+            _, plan, limit = resolve_radio_plan(plain, {}, {}, radio, "")
+            names.append("the one-step radio of the flags")
+        else:
+            given = dict(opts, radio_profile=path, min_margin_db=margin)
+            if opts.get("radio_profile") != path:  # a site's own profile: the one-step flags are not for it
+                given = {k: v for k, v in given.items() if k not in PROFILE_GIVES}
+            try:
+                _, plan, limit = resolve_radio_plan(given, {}, {}, radio, "")
+            except InputError as exc:
+                if not where:
+                    raise
+                raise type(exc)(f"{where}: " + exc.template, parameter=exc.parameter,
+                                value_word=exc.value_word) from None
+            names.append(str(path))
+        index[path] = len(plans)
+        plans.append(plan)
+        limits.append(limit)
+        return index[path]
+
+    default = opts.get("radio_profile")
+    n = len(sites)
+    site_plan = np.zeros(n, dtype=np.int16)
+    if not column:
+        site_plan[:] = plan_of(default, "")
+    else:
+        from pathlib import Path
+
+        base = Path(sites_file).parent if sites_file else Path(".")
+        cells = extra[RADIO_COLUMN].to_numpy()
+        for i in range(n):  # one look-up per site (files are read once each)
+            cell = cells[i]
+            text = "" if cell is None or (isinstance(cell, float) and cell != cell) else str(cell).strip()
+            where = (f"{sites_file or sites.source}: site {str(sites.names[i])!r} (row {int(sites.rows[i])}), "
+                     f"column {RADIO_COLUMN} {text!r}")
+            path = default if not text else (text if Path(text).is_absolute() else str(base / text))
+            site_plan[i] = plan_of(path, where if text else "")
+    return SiteRadios(plans=tuple(plans), limits=tuple(limits), site_plan=site_plan, names=tuple(names),
+                      site_rows=np.asarray(sites.rows))
 
 
 def _one_step_keys(section: dict[str, Any]) -> dict[str, Any]:

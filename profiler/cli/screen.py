@@ -11,7 +11,7 @@ import click
 from ..errors import InputError
 from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
-                      terrain_options)
+                      radio_profile_options, terrain_options)
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID
@@ -148,6 +148,7 @@ def _screen_radio_options(func):
 @click.argument("sites_file", metavar="SITES", type=click.Path(dir_okay=False))
 @terrain_options
 @_screen_radio_options
+@radio_profile_options
 @analysis_options
 @climate_options
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
@@ -220,6 +221,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         sites_file, pairs_file, dict(name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
                                      gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
                                      layer=layer))
+    radios = _site_radios(opts, sites, sites_file, radio, min_margin_db)
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit)
     rasters, fetched = list(opts["dem"]), None
@@ -240,7 +242,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 sites, model, radio, settings, out, plan=plan, bad_rows=bad, workers=workers,
                 scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
-                min_margin_db=min_margin_db, progress=bar.update,
+                min_margin_db=min_margin_db, progress=bar.update, radios=radios,
             )
     except KeyboardInterrupt:
         click.echo(
@@ -255,6 +257,13 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         click.echo(f"terrain: {d.name} ({d.title}), {len(fetched.tiles)} tile(s), heights above "
                    f"{d.vertical_datum} (EPSG:{d.vertical_epsg})"
                    + ("; a surface model (roofs and canopy in the heights)" if d.surface_model else ""))
+
+
+def _site_radios(opts: dict, sites, sites_file, radio, min_margin_db: float):
+    """Radio profiles per site (--radio or a radio column) and EIRP limits (:func:`profiler.jobs.site_radios`)."""
+    from ..jobs import site_radios
+
+    return site_radios(opts, sites, sites_file, radio, min_margin_db)
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:

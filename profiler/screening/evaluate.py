@@ -26,7 +26,8 @@ from ..profile import path_spacings_m, sample_limit_problem
 from ..terrain import ElevationModel
 from ..validation import MIN_PATH_M, too_close
 
-__all__ = ["ChunkTask", "evaluate_chunk", "make_task", "engine_columns", "SUBBATCH_SAMPLES"]
+__all__ = ["ChunkTask", "SiteRadios", "evaluate_chunk", "make_task", "engine_columns", "radio_columns",
+           "SUBBATCH_SAMPLES"]
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
 SUBBATCH_SAMPLES = 200_000
@@ -51,11 +52,52 @@ class ChunkTask:
     gain_b: np.ndarray | None
     radio: Radio
     settings: Settings
+    # Radio profiles (SiteRadios) and each pair's profile index at a and b; None without profiles or EIRP limit.
+    radios: Any = None
+    plan_a: np.ndarray | None = None
+    plan_b: np.ndarray | None = None
+    # The profile and EIRP limit of the pairs being evaluated (one group of a chunk).
+    radio_plan: Any = None
+    eirp_limit: Any = None
 
 
-def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings) -> ChunkTask:
+@dataclass(frozen=True)
+class SiteRadios:
+    """Radio profiles of a screening run: ``plans[k]`` (a RadioPlan, or None for the flags' one-step
+    radio) with its EIRP limit ``limits[k]`` (or None); ``site_plan[i]`` the index of site i's.  ``names[k]``
+    says where plan k came from, for messages.  Pairs whose two ends differ are reported and skipped."""
+
+    plans: tuple
+    limits: tuple
+    site_plan: np.ndarray
+    names: tuple[str, ...]
+    #: Row of each site in its source (SiteTable.rows), to follow the sites when some are dropped.
+    site_rows: np.ndarray | None = None
+
+    def aligned(self, sites: SiteTable) -> "SiteRadios":
+        """These radios for ``sites``, a subset of the table they were made for (matched by source row)."""
+        if self.site_rows is None or np.array_equal(self.site_rows, sites.rows):
+            return self
+        order = np.argsort(self.site_rows, kind="stable")
+        pos = np.searchsorted(self.site_rows[order], sites.rows)
+        return dataclasses.replace(self, site_plan=self.site_plan[order][pos], site_rows=np.asarray(sites.rows))
+
+    def key(self) -> str:
+        """Text that changes with any profile, limit or site assignment (the staging fingerprint)."""
+        import hashlib
+
+        h = hashlib.sha256(repr((self.plans, self.limits, self.names)).encode())
+        h.update(np.ascontiguousarray(self.site_plan, dtype=np.int64).tobytes())
+        return h.hexdigest()
+
+
+def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,
+              radios: SiteRadios | None = None) -> ChunkTask:
     g = sites.gain_dbi
     return ChunkTask(
+        radios=radios,
+        plan_a=None if radios is None else radios.site_plan[a],
+        plan_b=None if radios is None else radios.site_plan[b],
         first_pair=first, a=a, b=b,
         names_a=sites.names[a], names_b=sites.names[b],
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
@@ -86,13 +128,36 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask) -> tuple[dict[str, np
     length_m = np.full(n, np.nan)
     todo = np.flatnonzero(~same)
     if todo.size:
-        _evaluate_by_length(model, task, todo, out, problems, length_m)
+        _evaluate_by_radio(model, task, todo, out, problems, length_m)
     out["status"][:] = PairStatus.PROFILED
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
     out["status"][bad] = PairStatus.NOT_PROFILED
     _add_availability(task, out, length_m, model)
     _blank_error_rows(out)
     return out, problems
+
+
+def _evaluate_by_radio(model: ElevationModel, task: ChunkTask, todo: np.ndarray, out: dict, problems: list,
+                       length_m: np.ndarray) -> None:
+    """Evaluate pairs ``todo`` one radio profile at a time (a batch each); pairs whose ends differ are reported."""
+    radios = task.radios
+    if radios is None:
+        _evaluate_by_length(model, task, todo, out, problems, length_m)
+        return
+    assert task.plan_a is not None and task.plan_b is not None  # make_task sets them with radios
+    pa, pb = task.plan_a[todo], task.plan_b[todo]
+    mixed = pa != pb
+    for k in np.flatnonzero(mixed):
+        i = int(todo[k])
+        problems.append((task.first_pair + i,
+                         f"{task.names_a[i]} - {task.names_b[i]}: the two ends name different radios "
+                         f"({radios.names[pa[k]]} at {task.names_a[i]}, {radios.names[pb[k]]} at "
+                         f"{task.names_b[i]}); not evaluated: give both sites the same radio"))
+    for p in np.unique(pa[~mixed]):
+        plan = radios.plans[int(p)]
+        group = dataclasses.replace(task, radio=task.radio if plan is None else plan.engine_radio(task.radio),
+                                    radio_plan=plan, eirp_limit=radios.limits[int(p)])
+        _evaluate_by_length(model, group, todo[~mixed & (pa == p)], out, problems, length_m)
 
 
 def _same_place(task: ChunkTask, problems: list) -> np.ndarray:
@@ -231,13 +296,33 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     settings = dataclasses.replace(task.settings, compare_methods=False)
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a} - {b}" for a, b in zip(sites_a.names.tolist(), sites_b.names.tolist())],
-                          check_sites=False, estimate_availability=False)
+                          check_sites=False, estimate_availability=False,
+                          radio_plan=task.radio_plan, eirp_limit=task.eirp_limit)
     length_m[idx] = batch.profiles.length_m
     for name, values in engine_columns(batch).items():
+        out[name][idx] = np.asarray(values)
+    for name, values in radio_columns(batch).items():
         out[name][idx] = np.asarray(values)
     for k, problem in enumerate(batch.problems):
         if problem is not None:
             problems.append((task.first_pair + int(idx[k]), problem))
+
+
+def radio_columns(batch: LinkBatch) -> dict[str, Any]:
+    """Columns of :data:`profiler.io.columns.RADIO_COLUMNS` of the links of ``batch`` that it has figures for.
+
+    The same figures as the record's ``modulation`` and ``eirp_limit`` blocks
+    (:mod:`profiler.equipment.modulation`); a pair without a profile keeps NaN.
+    """
+    out: dict[str, Any] = {}
+    m = batch.modulation
+    if m is not None:
+        out["best_step"] = (m.chosen + 1).astype(np.int16)  # 0: no step has the margin
+        out["capacity_mbps"] = m.capacity_mbps()
+        out["capacity_at_target_mbps"] = m.capacity_at_target_mbps()
+    if batch.eirp is not None:
+        out["eirp_over_limit_db"] = batch.eirp.excess_db
+    return out
 
 
 def engine_columns(batch: LinkBatch) -> dict[str, Any]:

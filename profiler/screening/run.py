@@ -79,6 +79,7 @@ def screen(
     progress: Callable[[int, int], None] | None = None,
     inputs: Sequence[str | os.PathLike] = (),
     site_options: Mapping[str, Any] | None = None,
+    radios: Any = None,
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -116,6 +117,9 @@ def screen(
         Fade margin, dB, a pair needs at the design k to be ``viable``.
     progress : callable, optional
         ``progress(done, total)``, called after each committed chunk.
+    radios : SiteRadios, optional
+        Radio profiles per site and EIRP limits (:class:`profiler.screening.evaluate.SiteRadios`,
+        made by :func:`profiler.jobs.site_radios`); ``radio`` is then the flags' one-step radio.
     inputs : paths
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
@@ -155,7 +159,7 @@ def screen(
             bad_rows = [*bad_rows, *bad_read]
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
-                   progress=progress, inputs=inputs)
+                   progress=progress, inputs=inputs, radios=radios)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -168,7 +172,7 @@ def _screen_to(
     sites: SiteTable, model: ElevationModel, radio: Radio, settings: Settings, out: str | os.PathLike, *,
     plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
-    progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
+    progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike], radios: Any = None,
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -180,8 +184,10 @@ def _screen_to(
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
     check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
+    if radios is not None:
+        radios = radios.aligned(sites)  # sites outside the rasters were dropped
     with RunLock(lock_path(out), str(out)):
-        run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0)
+        run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0, radios)
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
@@ -252,12 +258,16 @@ _VERDICT_KEYS = ("pair", "a", "b", "status", "fade_margin_db", "meets_criterion"
 class _Run:
     """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
-    def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0) -> None:
+    def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
+                 radios: Any = None) -> None:
         self.sites, self.model, self.radio, self.settings = sites, model, radio, settings
         self.out, self.plan, self.bad = out, plan, bad
         self.chunk_pairs, self.min_margin_db, self.t0 = chunk_pairs, min_margin_db, t0
         self.stage = _stage(out)
         self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
+        self.radios = radios
+        if radios is not None:  # another radio profile or limit is another run
+            self.fingerprint = hashlib.sha256((self.fingerprint + radios.key()).encode()).hexdigest()
         self.total = count_pairs(sites, plan)
         self.done_rows = self.done_chunks = self.resumed = 0
 
@@ -333,7 +343,7 @@ class _Run:
                             exhausted = True
                             break
                         first, a, b = nxt
-                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings)))
+                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings, self.radios)))
                     if not pending:
                         break
                     cols, problems = pending.popleft().result()
@@ -349,7 +359,8 @@ class _Run:
         codes = verdicts(keys, self.min_margin_db)
         problems = {int(p): str(m) for p, m in stage.problems()}
         ranked = stage.rank(rank_order(keys))
-        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings)
+        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings,
+                                radio_columns=self.radios is not None)
         summary = self._summary(done_rows, self.resumed, outputs)
         stage.discard()
         crash_point("staging removed")
