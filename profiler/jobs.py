@@ -29,7 +29,7 @@ import numpy as np
 from .availability import ClimateSettings
 from .climate import CLIMATE_SOURCES
 from .budget import Radio
-from .errors import PARAMETER, InputError
+from .errors import PARAMETER, InputError, TerrahopError
 from .io.linkfile import VERTICAL_UNIT_CHOICES, LinkSpec, read_link_file
 from .link_batch import LinkBatch
 from .link_engine import analyse_link
@@ -336,7 +336,7 @@ def site_radios(opts: dict[str, Any], sites: Any, sites_file: str | None, radio:
                 given = {k: v for k, v in given.items() if k not in PROFILE_GIVES}
             try:
                 _, plan, limit = resolve_radio_plan(given, {}, {}, radio, "")
-            except InputError as exc:
+            except TerrahopError as exc:
                 if not where:
                     raise
                 raise type(exc)(f"{where}: " + exc.template, parameter=exc.parameter,

@@ -191,6 +191,7 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
     n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
+    n_pages += sum("modulation" in c.record for c in contents)  # the radio page of a link with a radio profile
     pages = f"{n_pages} page{'s' if n_pages != 1 else ''}"
     if fmt == "pdf":
         click.echo(f"wrote {paths[0]} ({pages})")
