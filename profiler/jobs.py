@@ -295,7 +295,7 @@ RADIO_COLUMN = "radio"
 
 def site_radios(opts: dict[str, Any], sites: Any, sites_file: str | None, radio: Radio,
                 min_margin_db: float | None = None) -> Any:
-    """The radio profiles of a screening run (:class:`profiler.screening.evaluate.SiteRadios`), or None.
+    """The radio profiles of a screening run (:class:`profiler.equipment.modulation.SiteRadios`), or None.
 
     ``radio_profile`` (``--radio``) gives every site one profile; a ``radio``
     column of the sites names a profile file per site (relative to the sites
@@ -306,10 +306,9 @@ def site_radios(opts: dict[str, Any], sites: Any, sites_file: str | None, radio:
     step needs to be chosen (screen's viable margin).  A profile that cannot
     be used stops the run with one line naming the site that names it.
     """
-    from .equipment.modulation import DEFAULT_MIN_MARGIN_DB
-    from .screening.evaluate import SiteRadios
+    from .equipment.modulation import DEFAULT_MIN_MARGIN_DB, SiteRadios
 
-    extra = getattr(sites, "extra", None)
+    extra: Any = getattr(sites, "extra", None)
     column = extra is not None and RADIO_COLUMN in getattr(extra, "columns", ())
     if opts.get("radio_profile") is None and not column and opts.get("max_eirp_dbm") is None:
         for key in ("channel_mhz",):

@@ -58,7 +58,7 @@ from .radios import EirpLimit, RadioBand, RadioProfile, StepTable
 __all__ = [
     "RadioPlan", "DEFAULT_MIN_MARGIN_DB", "step_margins_db", "highest_closing_step", "StepShares",
     "step_shares", "mean_capacity_mbps", "ModulationResult", "modulation_for_links", "EirpCheck", "eirp_check",
-    "SHANNON_SOURCE",
+    "SHANNON_SOURCE", "SiteRadios",
 ]
 
 #: Margin a step needs at the design k to be chosen, dB: screening's viable margin (common practice).
@@ -333,6 +333,39 @@ def modulation_for_links(
         mean_low_mbps=low, mean_high_mbps=high, at_target=at_target,
         shannon_mbps=shannon_capacity_mbps(steps.noise_bandwidth_mhz, snr), snr_db=snr,
     )
+
+
+# --- screening: a profile per site ---------------------------------------------
+
+
+@dataclass(frozen=True)
+class SiteRadios:
+    """Radio profiles of a screening run: ``plans[k]`` (a RadioPlan, or None for the flags' one-step
+    radio) with its EIRP limit ``limits[k]`` (or None); ``site_plan[i]`` the index of site i's.  ``names[k]``
+    says where plan k came from, for messages.  Pairs whose two ends differ are reported and skipped."""
+
+    plans: tuple
+    limits: tuple
+    site_plan: np.ndarray
+    names: tuple[str, ...]
+    #: Row of each site in its source (SiteTable.rows), to follow the sites when some are dropped.
+    site_rows: np.ndarray | None = None
+
+    def aligned(self, sites: Any) -> "SiteRadios":
+        """These radios for ``sites`` (a SiteTable), a subset of the table they were made for (matched by source row)."""
+        if self.site_rows is None or np.array_equal(self.site_rows, sites.rows):
+            return self
+        order = np.argsort(self.site_rows, kind="stable")
+        pos = np.searchsorted(self.site_rows[order], sites.rows)
+        return dataclasses.replace(self, site_plan=self.site_plan[order][pos], site_rows=np.asarray(sites.rows))
+
+    def key(self) -> str:
+        """Text that changes with any profile, limit or site assignment (the staging fingerprint)."""
+        import hashlib
+
+        h = hashlib.sha256(repr((self.plans, self.limits, self.names)).encode())
+        h.update(np.ascontiguousarray(self.site_plan, dtype=np.int64).tobytes())
+        return h.hexdigest()
 
 
 # --- EIRP limit -----------------------------------------------------------------

@@ -215,8 +215,7 @@ def step_table(profile: RadioProfile, channel: RadioChannel, tx_power_cap_dbm: f
     power = np.array([fallback_tx_power_dbm if p is None else p for p in own], dtype=float)
     if tx_power_cap_dbm is not None:
         power = np.minimum(power, float(tx_power_cap_dbm))
-    snr = np.array([s.required_snr_db if s.required_snr_db is not None else s.rx_threshold_dbm - noise
-                    for s in channel.steps], dtype=float)
+    snr: np.ndarray = np.array([_required_snr_db(s, noise) for s in channel.steps], dtype=float)
     return StepTable(
         labels=tuple(s.label for s in channel.steps),
         capacity_mbps=np.array([s.capacity_mbps for s in channel.steps], dtype=float),
@@ -230,6 +229,14 @@ def step_table(profile: RadioProfile, channel: RadioChannel, tx_power_cap_dbm: f
         noise_bandwidth_mhz=noise_mhz,
         noise_floor_dbm=noise,
     )
+
+
+def _required_snr_db(step: ModulationStep, noise_floor_dbm: float) -> float:
+    """The SNR a step needs, dB: given, or its receive threshold less the noise floor."""
+    if step.required_snr_db is not None:
+        return step.required_snr_db
+    assert step.rx_threshold_dbm is not None  # read_radio_profile makes sure one of the two is set
+    return step.rx_threshold_dbm - noise_floor_dbm
 
 
 # --- reading -------------------------------------------------------------------

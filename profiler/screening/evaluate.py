@@ -16,6 +16,7 @@ import numpy as np
 
 from ..availability import availability_for_links
 from ..budget import Radio
+from ..equipment.modulation import SiteRadios
 from ..geodesy import WGS84
 from ..heights import mast_raise_m
 from ..io.columns import KEPT_IN_ERROR_ROWS, STAGED_COLUMNS, PairStatus
@@ -59,36 +60,6 @@ class ChunkTask:
     # The profile and EIRP limit of the pairs being evaluated (one group of a chunk).
     radio_plan: Any = None
     eirp_limit: Any = None
-
-
-@dataclass(frozen=True)
-class SiteRadios:
-    """Radio profiles of a screening run: ``plans[k]`` (a RadioPlan, or None for the flags' one-step
-    radio) with its EIRP limit ``limits[k]`` (or None); ``site_plan[i]`` the index of site i's.  ``names[k]``
-    says where plan k came from, for messages.  Pairs whose two ends differ are reported and skipped."""
-
-    plans: tuple
-    limits: tuple
-    site_plan: np.ndarray
-    names: tuple[str, ...]
-    #: Row of each site in its source (SiteTable.rows), to follow the sites when some are dropped.
-    site_rows: np.ndarray | None = None
-
-    def aligned(self, sites: SiteTable) -> "SiteRadios":
-        """These radios for ``sites``, a subset of the table they were made for (matched by source row)."""
-        if self.site_rows is None or np.array_equal(self.site_rows, sites.rows):
-            return self
-        order = np.argsort(self.site_rows, kind="stable")
-        pos = np.searchsorted(self.site_rows[order], sites.rows)
-        return dataclasses.replace(self, site_plan=self.site_plan[order][pos], site_rows=np.asarray(sites.rows))
-
-    def key(self) -> str:
-        """Text that changes with any profile, limit or site assignment (the staging fingerprint)."""
-        import hashlib
-
-        h = hashlib.sha256(repr((self.plans, self.limits, self.names)).encode())
-        h.update(np.ascontiguousarray(self.site_plan, dtype=np.int64).tobytes())
-        return h.hexdigest()
 
 
 def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,

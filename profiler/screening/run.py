@@ -118,7 +118,7 @@ def screen(
     progress : callable, optional
         ``progress(done, total)``, called after each committed chunk.
     radios : SiteRadios, optional
-        Radio profiles per site and EIRP limits (:class:`profiler.screening.evaluate.SiteRadios`,
+        Radio profiles per site and EIRP limits (:class:`profiler.equipment.modulation.SiteRadios`,
         made by :func:`profiler.jobs.site_radios`); ``radio`` is then the flags' one-step radio.
     inputs : paths
         Input files an output must not overwrite (the sites and pairs files);

@@ -74,7 +74,7 @@ def modulation_rows(record: dict) -> list[Row]:
     e = record.get("eirp_limit")
     if e:
         text = (f"EXCEEDED by {e['excess_db']:.1f} dB" if e["exceeds"] else "within") + f" ({e['max_eirp_dbm']:g} dBm)"
-        rows.append(Row("EIRP limit", text, flag="bad" if e["exceeds"] else None))
+        rows.append(Row("EIRP limit", text, flag="bad" if e["exceeds"] else ""))
     return rows
 
 
