@@ -141,8 +141,8 @@ def modulation_pages(content: Any, page: PageSize, units: str = "m") -> list:
     rule(y_end, 0.6)
     t = _capacity_texts(m)
     lines = [
-        f"Chosen step (shaded): {t['chosen']}, the highest step whose fade margin at the design k is at least "
-        f"{m['min_margin_db']:g} dB.",
+        (f"Chosen step (shaded): {t['chosen']}" if m.get("chosen_step") is not None else "Chosen step: none")
+        + f" (the highest step whose fade margin at the design k is at least {m['min_margin_db']:g} dB).",
         f"Capacity for {m['target_availability_pct']:g} % of the year: {t['at']}.   Time-weighted mean capacity over "
         f"the year: {t['mean']}.   Shannon ceiling B log2(1 + SNR) at SNR {m['shannon_snr_db']:.1f} dB: "
         f"{t['shannon']} (C. E. Shannon, 1948), which no radio passes.",
