@@ -92,3 +92,10 @@ def test_profiles_per_site_and_pairs_with_different_radios(tmp_path):
 def test_no_radio_columns_without_a_profile(tmp_path):
     links, _ = _screen(tmp_path, DEMO_SITES, "--max-km", "6")
     assert not set(RADIO_COLUMNS) & set(links.columns)
+
+
+def test_an_eirp_limit_alone_gives_the_eirp_column(tmp_path):
+    links, _ = _screen(tmp_path, DEMO_SITES, "--max-km", "6", "--max-eirp-dbm", "50")
+    ok = links["verdict"] != "error"
+    np.testing.assert_allclose(links.loc[ok, "eirp_over_limit_db"], links.loc[ok, "eirp_dbm"] - 50.0, rtol=0, atol=1e-12)
+    assert links["best_step"].isna().all() and links["capacity_mbps"].isna().all()
