@@ -81,6 +81,7 @@ def test_profiles_per_site_and_pairs_with_different_radios(tmp_path):
     assert (mixed["verdict"] == "error").all()
     assert mixed["problem"].str.contains("name different radios").all()
     assert "different radios" in result.stderr  # reported, and the run went on
+    assert "radios: " in result.stdout and "other.toml, 28 MHz): 2 sites" in result.stdout
     same = links[~links.index.isin(mixed.index)]
     assert (same["verdict"] != "error").any() and same["best_step"].notna().any()
     # The two sites with the noisier radio get 2.5 dB less SNR than the same pair would with the other.

@@ -252,6 +252,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     finally:
         model.close()
     _report(summary, gain_warning, quiet, sites)
+    if radios is not None and not quiet:
+        click.echo(radio_line(radios))
     if fetched is not None and not quiet:
         d = fetched.dataset
         click.echo(f"terrain: {d.name} ({d.title}), {len(fetched.tiles)} tile(s), heights above "
@@ -264,6 +266,19 @@ def _site_radios(opts: dict, sites, sites_file, radio, min_margin_db: float):
     from ..jobs import site_radios
 
     return site_radios(opts, sites, sites_file, radio, min_margin_db)
+
+
+def radio_line(radios) -> str:
+    """One line: each radio of the run, its channel and EIRP limit, and how many sites use it."""
+    import numpy as np
+
+    counts = np.bincount(np.asarray(radios.site_plan, dtype=np.int64), minlength=len(radios.plans))
+    parts = []
+    for plan, limit, name, n in zip(radios.plans, radios.limits, radios.names, counts.tolist()):
+        what = name if plan is None else f"{plan.profile.name} ({name}, {plan.channel_mhz:g} MHz)"
+        eirp = f", EIRP limit {limit.max_eirp_dbm:g} dBm" if limit is not None else ""
+        parts.append(f"{what}{eirp}: {n} site{'s' if n != 1 else ''}")
+    return "radios: " + "; ".join(parts)
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:

@@ -141,7 +141,8 @@ class RadioProfile:
             if len(self.channels) == 1:
                 return self.channels[0]
             raise InputError(f"{self.path}: the radio has several channel widths ({widths} MHz); "
-                             "choose one with {parameter}", parameter="channel_mhz", value_word="MHZ")
+                             "choose one with {parameter} (or channel_mhz in a link file's [radio] table)",
+                             parameter="channel_mhz", value_word="MHZ")
         for c in self.channels:
             if math.isclose(c.width_mhz, float(width_mhz), rel_tol=0, abs_tol=1e-9):
                 return c
