@@ -77,7 +77,7 @@ def test_share_of_each_step_is_the_availability_engine_run_with_that_steps_margi
             np.testing.assert_equal(shares.multipath_pct[i, s], av.result.multipath_outage_pct[j])
     assert (shares.side[1] < 0).all() and (shares.low_pct[1] == 99.999).all() and (shares.high_pct[1] == 100).all()
     assert shares.status[2, 2] == AvailabilityStatus.DOES_NOT_CLOSE
-    assert shares.low_pct[2, 2] == shares.high_pct[2, 2] == 0.0 and "does not close" in shares.reasons[2][2]
+    assert shares.low_pct[2, 2] == shares.high_pct[2, 2] == 0.0 and "does not close" in shares.reason(2, 2)
 
 
 def _budget(snr_db):

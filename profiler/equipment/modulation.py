@@ -143,8 +143,15 @@ class StepShares:
     side: np.ndarray
     multipath_pct: np.ndarray
     meets_target: np.ndarray
-    reasons: tuple[tuple[str | None, ...], ...]
+    #: The engine's reason of each (path, step), flat in path-major order (see :meth:`reason`).
+    engine_reasons: tuple[str | None, ...]
     target_availability_pct: float
+
+    def reason(self, i: int, s: int) -> str | None:
+        """Why step ``s`` of path ``i`` has no share (None where it has a figure or a bound)."""
+        if self.status[i, s] == AvailabilityStatus.DOES_NOT_CLOSE:
+            return STEP_DOES_NOT_CLOSE
+        return self.engine_reasons[i * self.status.shape[1] + s]
 
     @property
     def estimated(self) -> np.ndarray:
@@ -196,11 +203,9 @@ def step_shares(
     no_close = status == AvailabilityStatus.DOES_NOT_CLOSE
     low = np.where(no_close, 0.0, low)
     high = np.where(no_close, 0.0, high)
-    reasons = tuple(tuple(STEP_DOES_NOT_CLOSE if no_close[k * s + t] else av.reasons[k * s + t] for t in range(s))
-                    for k in range(p))
     return StepShares(status=status.reshape(p, s), pct=pct.reshape(p, s), low_pct=low.reshape(p, s),
                       high_pct=high.reshape(p, s), side=side.reshape(p, s), multipath_pct=mp.reshape(p, s),
-                      meets_target=meets.reshape(p, s), reasons=reasons,
+                      meets_target=meets.reshape(p, s), engine_reasons=av.reasons,
                       target_availability_pct=settings.target_availability_pct)
 
 
@@ -263,7 +268,7 @@ class ModulationResult:
                 "share_of_year_pct": share,
                 "share_of_year_above_pct": (100.0 - P530_RAIN_MIN_PCT) if sh.side[i, s] < 0 else None,
                 "share_of_year_below_pct": (100.0 - P530_RAIN_MAX_PCT) if sh.side[i, s] > 0 else None,
-                "share_reason": None if share is not None or sh.side[i, s] != 0 else sh.reasons[i][s],
+                "share_reason": None if share is not None or sh.side[i, s] != 0 else sh.reason(i, s),
                 "multipath_outage_pct": _opt(sh.multipath_pct[i, s]),
                 "meets_target": bool(sh.meets_target[i, s]) if estimated else None,
             })
@@ -285,7 +290,7 @@ class ModulationResult:
             "mean_capacity_min_mbps": float(self.mean_low_mbps[i]) if estimated else None,
             "mean_capacity_max_mbps": float(self.mean_high_mbps[i]) if estimated else None,
             "shares_estimated": estimated,
-            "shares_reason": None if estimated else sh.reasons[i][0],
+            "shares_reason": None if estimated else sh.reason(i, 0),
             "shares_method": "availability engine (ITU-R P.530-17 s. 2.4.1 rain, P.838-3) run with each step's "
                              "own margin; share = 100 % - rain outage, multipath outage (s. 2.3) beside it; "
                              "outside 0.001-1 % rain outage a bound",
