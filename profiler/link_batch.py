@@ -53,6 +53,9 @@ class LinkBatch:
     # Antennas and installer figures (profiler.equipment), set by profiler.jobs; None when not made.
     antennas: dict | None = None  # {"a": Antenna, "b": Antenna}, either may be missing
     installation: Any = None  # profiler.equipment.installation.Installation
+    # Radio profile figures (profiler.equipment.modulation.ModulationResult) and the EIRP check; None when unused.
+    modulation: Any = None
+    eirp: Any = None
 
     def __len__(self) -> int:
         return len(self.names)

@@ -175,6 +175,8 @@ def analyse_links(
     mounts_b: Sequence[Any] | None = None,
     check_sites: bool = True,
     estimate_availability: bool = True,
+    radio_plan: Any = None,
+    eirp_limit: Any = None,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
@@ -188,6 +190,10 @@ def analyse_links(
     them already (screening validates each site once, not once per pair);
     ``estimate_availability=False`` leaves ``availability`` None for callers
     that estimate it themselves over larger batches (screening, per chunk).
+    ``radio_plan`` (:class:`profiler.equipment.modulation.RadioPlan`) adds the
+    ``modulation`` figures; ``radio`` must then be its ``engine_radio`` (the
+    lowest step).  ``eirp_limit`` (:class:`profiler.equipment.radios.EirpLimit`)
+    adds the EIRP check.
     """
     if len(sites_a) != len(sites_b):
         raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
@@ -227,6 +233,8 @@ def analyse_links(
         meets_criterion=meets,  # P.530 fading methods assume a clear path: not estimated otherwise
         values=_climate_values(settings, model, lat_a, lon_a, lat_b, lon_b),
     ) if estimate_availability else None
+    equipment = _equipment(radio_plan, eirp_limit, radio, settings, model, profiles, design, worst, antenna_a,
+                           antenna_b, meets, (lat_a, lon_a, lat_b, lon_b), availability)
     return LinkBatch(
         names=tuple(names),
         sites_a=sites_a if isinstance(sites_a, SiteColumns) else tuple(sites_a),
@@ -236,8 +244,29 @@ def analyse_links(
         free_space_db=fsl, design=design, worst=worst, meets_criterion=meets & profiles.valid,
         provenance=_provenance(model),
         surroundings=surroundings, crossings=crossings, placements_a=placements_a, placements_b=placements_b,
-        clutter_warnings=clutter_warnings, availability=availability,
+        clutter_warnings=clutter_warnings, availability=availability, **equipment,
     )
+
+
+def _equipment(plan: Any, eirp_limit: Any, radio: Radio, settings: Settings, model: ElevationModel,
+               profiles: Profiles, design: AtK, worst: AtK, antenna_a: np.ndarray, antenna_b: np.ndarray,
+               meets: np.ndarray, ends: tuple, availability: Any) -> dict:
+    """The ``modulation`` and ``eirp`` fields of a batch (profiler.equipment.modulation); empty without them."""
+    out: dict[str, Any] = {}
+    if plan is not None:
+        from .equipment.modulation import modulation_for_links
+
+        lat_a, lon_a, lat_b, lon_b = ends
+        out["modulation"] = modulation_for_links(
+            plan, design.budget, worst.budget, profiles.length_m, radio.freq_ghz, antenna_a, antenna_b,
+            (lat_a + lat_b) / 2.0, profiles.valid, settings.climate, meets_criterion=meets,
+            values=(availability.values if availability is not None  # the same climate values, made once
+                    else _climate_values(settings, model, lat_a, lon_a, lat_b, lon_b)))
+    if eirp_limit is not None:
+        from .equipment.modulation import eirp_check
+
+        out["eirp"] = eirp_check(radio, eirp_limit, len(profiles.length_m))
+    return out
 
 
 def _climate_values(settings: Settings, model: ElevationModel, lat_a: np.ndarray, lon_a: np.ndarray,
@@ -333,11 +362,12 @@ def _with_surface_cells(profiles: Profiles, surface: Any, spacing_m: float | Non
 def analyse_link(
     model: ElevationModel, site_a: Site, site_b: Site, radio: Radio, settings: Settings = Settings(),
     *, name: str | None = None, surroundings: Any = None, mount_a: Any = None, mount_b: Any = None,
+    radio_plan: Any = None, eirp_limit: Any = None,
 ) -> LinkBatch:
     """Analyse one link; raise DataError if its path cannot be profiled."""
     batch = analyse_links(
         model, [site_a], [site_b], radio, settings, names=[name] if name else None,
-        surroundings=surroundings,
+        surroundings=surroundings, radio_plan=radio_plan, eirp_limit=eirp_limit,
         mounts_a=None if mount_a is None else [mount_a],
         mounts_b=None if mount_b is None else [mount_b],
     )

@@ -47,7 +47,21 @@ def link_record(batch: Any, i: int) -> dict:
         "provenance": batch.provenance,
     }
     _add_surroundings(batch, record, i)
+    _add_equipment(batch, record, i)
     return record
+
+
+def _add_equipment(batch: Any, record: dict, i: int) -> None:
+    """The ``modulation`` and ``eirp_limit`` blocks of link i and the EIRP warning (radio profiles, EIRP limit)."""
+    modulation = getattr(batch, "modulation", None)
+    if modulation is not None:
+        record["modulation"] = modulation.record(i)
+    eirp = getattr(batch, "eirp", None)
+    if eirp is not None:
+        record["eirp_limit"] = eirp.record(i)
+        warning = eirp.warning(i)
+        if warning:
+            record.setdefault("warnings", []).append(warning)
 
 
 def _inputs_record(batch: Any, i: int) -> dict:

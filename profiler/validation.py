@@ -81,6 +81,8 @@ LIMITS: dict[str, Limit] = {
                              "(common practice)"),
     "required_snr_db": Limit(-30.0, 70.0, "dB", "spread-spectrum modes work near -30 dB, the densest "
                              "modulations need under 45 dB (common practice)"),
+    "channel_mhz": Limit(0.0, 20000.0, "MHz", "as bandwidth_mhz", low_open=True),
+    "max_eirp_dbm": Limit(-50.0, 150.0, "dBm", "150 dBm is 10^12 W, beyond any limit a regulator sets (common practice)"),
     # Analysis
     "k": Limit(0.1, 100.0, "", "k = 157 / (157 + dN/dh) (ITU-R P.453, from memory): k of 100 is dN/dh of about -155 N-units/km, "
                "the edge of ducting, which the method does not model; k below 0.1 is dN/dh above +1400 "
@@ -131,6 +133,7 @@ LABELS: dict[str, str] = {
     "antenna_ellipsoidal_m": "antenna height above the ellipsoid", "max_mast_m": "mast limit",
     "step_m": "height step", "nodata_fill_m": "nodata fill height", "tree_allowance_m": "tree allowance",
     "max_km": "maximum pair distance", "min_margin_db": "viable fade margin",
+    "channel_mhz": "channel width", "max_eirp_dbm": "EIRP limit",
     "rain_rate_mm_h": "rain rate", "target_availability_pct": "target availability", "dn1_n_per_km": "dN1",
     "terrain_roughness_m": "terrain roughness", "pressure_hpa": "pressure", "temperature_c": "temperature",
     "water_vapour_g_m3": "water-vapour density",

@@ -26,6 +26,8 @@ __all__ = [
     "terrain_options",
     "site_options",
     "radio_options",
+    "radio_profile_options",
+    "step_margin_option",
     "analysis_options",
     "climate_options",
     "CLIMATE_FLAGS",
@@ -71,7 +73,7 @@ def friendly_errors(func: Callable) -> Callable:
 
 #: Python arguments (an error's ``parameter``) whose command-line form is not ``--`` plus the name
 #: with dashes (climate flags: :data:`CLIMATE_FLAGS`).
-_FLAG_OF = {"surroundings": "--obstructions FILE", "default_agl_m": "--agl-m"}
+_FLAG_OF = {"surroundings": "--obstructions FILE", "default_agl_m": "--agl-m", "radio_profile": "--radio"}
 
 
 def flag_form(parameter: str, value_word: str = "") -> str:
@@ -236,6 +238,24 @@ radio_options = _compose(
       for name, text in RADIO_FLAGS.items()]
 )
 
+#: Radio profile flags (link, screen, sheet, heights): profiler.equipment.radios, merged in profiler.jobs.
+radio_profile_options = _compose(
+    _option("--radio", "radio_profile", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+            help="Radio profile (TOML, layout in the README): bands, noise figure and modulation steps per "
+                 "channel width. Replaces --bandwidth-mhz, --noise-figure-db and --required-snr-db; "
+                 "--tx-power-dbm may lower its power."),
+    _option("--channel-mhz", type=float, default=None, metavar="MHZ",
+            help="Channel width of the radio profile to use, MHz [default: its only one]."),
+    _option("--max-eirp-dbm", type=float, default=None, metavar="DBM",
+            help="EIRP limit, dBm: the result says where the EIRP exceeds it [default: the radio profile "
+                 "band's, else none]. No national limits are built in."),
+)
+
+#: The margin a modulation step needs to be chosen (link, sheet, heights; screen has its own --min-margin-db).
+step_margin_option = _option(
+    "--min-margin-db", type=float, default=None, metavar="DB",
+    help="With --radio: fade margin at the design k a modulation step needs to be chosen, dB [default: 10].")
+
 analysis_options = _compose(
     _option("--k", "k", default=None, metavar="K",
             help="Design (median) k-factor, a number or a fraction such as 4/3 [default: {default}]."),
@@ -340,8 +360,8 @@ date_option = _option(
 
 #: Every option that describes one link, shared by link, sheet and heights.
 link_input_options = _compose(
-    terrain_options, site_options, mount_options, surroundings_options, radio_options, analysis_options,
-    climate_options, antenna_options,
+    terrain_options, site_options, mount_options, surroundings_options, radio_options, radio_profile_options,
+    step_margin_option, analysis_options, climate_options, antenna_options,
 )
 
 

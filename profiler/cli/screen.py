@@ -11,7 +11,7 @@ import click
 from ..errors import InputError
 from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
-                      roof_mount_options, surroundings_options, terrain_options)
+                      radio_profile_options, roof_mount_options, surroundings_options, terrain_options)
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID
@@ -150,6 +150,7 @@ def _screen_radio_options(func):
 @surroundings_options
 @roof_mount_options
 @_screen_radio_options
+@radio_profile_options
 @analysis_options
 @climate_options
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
@@ -234,6 +235,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                                      gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
                                      layer=layer))
     sites, bad = _site_antennas(sites, bad, float(radio.freq_ghz), sites_file, antenna_col)
+    radios = _site_radios(opts, sites, sites_file, radio, min_margin_db)
     gain_warning = default_gain_warning(sites.gain_dbi is not None, opts)
     plan = PairPlan(max_km=max_km, hubs=resolve_hubs(sites, hubs) if hubs else (), explicit=explicit,
                     heights=pair_heights)
@@ -257,7 +259,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
                 min_margin_db=min_margin_db, progress=bar.update,
-                surroundings=surroundings, above_roof=above_roof,
+                surroundings=surroundings, above_roof=above_roof, radios=radios,
             )
     except KeyboardInterrupt:
         click.echo(
@@ -269,11 +271,33 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         if surroundings is not None and surroundings.surface is not None:
             surroundings.surface.close()
     _report(summary, gain_warning, quiet, sites)
+    if radios is not None and not quiet:
+        click.echo(radio_line(radios))
     if fetched is not None and not quiet:
         d = fetched.dataset
         click.echo(f"terrain: {d.name} ({d.title}), {len(fetched.tiles)} tile(s), heights above "
                    f"{d.vertical_datum} (EPSG:{d.vertical_epsg})"
                    + ("; a surface model (roofs and canopy in the heights)" if d.surface_model else ""))
+
+
+def _site_radios(opts: dict, sites, sites_file, radio, min_margin_db: float):
+    """Radio profiles per site (--radio or a radio column) and EIRP limits (:func:`profiler.jobs.site_radios`)."""
+    from ..jobs import site_radios
+
+    return site_radios(opts, sites, sites_file, radio, min_margin_db)
+
+
+def radio_line(radios) -> str:
+    """One line: each radio of the run, its channel and EIRP limit, and how many sites use it."""
+    import numpy as np
+
+    counts = np.bincount(np.asarray(radios.site_plan, dtype=np.int64), minlength=len(radios.plans))
+    parts = []
+    for plan, limit, name, n in zip(radios.plans, radios.limits, radios.names, counts.tolist()):
+        what = name if plan is None else f"{plan.profile.name} ({name}, {plan.channel_mhz:g} MHz)"
+        eirp = f", EIRP limit {limit.max_eirp_dbm:g} dBm" if limit is not None else ""
+        parts.append(f"{what}{eirp}: {n} site{'s' if n != 1 else ''}")
+    return "radios: " + "; ".join(parts)
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:

@@ -85,7 +85,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     ends = sites_a + sites_b  # an open dataset (--terrain) is fetched around every pair
     with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
-                              surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b)
+                              surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b,
+                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit)
         from ..jobs import with_equipment
 
         batch = with_equipment(batch, resolved)  # antennas and installer figures, as for a link file
@@ -209,6 +210,7 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
     n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
+    n_pages += sum("modulation" in c.record for c in contents)  # the radio page of a link with a radio profile
     pages = f"{n_pages} page{'s' if n_pages != 1 else ''}"
     if fmt == "pdf":
         click.echo(f"wrote {paths[0]} ({pages})")

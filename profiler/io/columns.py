@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 __all__ = [
     "Verdict", "VERDICTS", "PairStatus", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
-    "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS",
+    "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS", "RADIO_COLUMNS",
     "SURROUNDINGS_GROUP", "CODED_COLUMNS", "MOUNT_LABELS", "CLUTTER_LABELS", "run_staged_columns",
 ]
 
@@ -72,7 +72,8 @@ class Column:
     """One screening column.
 
     ``source``: ``engine`` (a figure of :func:`profiler.link.analyse_links`
-    for the pair), ``availability`` (computed once per chunk), ``pair``
+    for the pair), ``availability`` (computed once per chunk), ``radio``
+    (the radio profile's figures for the pair, or the EIRP check), ``pair``
     (indices and status), ``write`` (made when writing, from the sites, the
     settings or the verdict).  ``staged`` is the dtype kept in the staging
     folder (None: not staged); ``written`` says whether it is a column of the
@@ -103,6 +104,11 @@ def _engine(name: str, dtype: str = "f8", **kw) -> Column:
 
 def _avail(name: str, dtype: str = "f8", written: bool = True) -> Column:
     return Column(name, "availability", dtype, written=written)
+
+
+def _radio(name: str, dtype: str = "f8") -> Column:
+    """A column of the radio profile (modulation) or the EIRP limit: written only by runs that use one."""
+    return Column(name, "radio", dtype)
 
 
 def _write(name: str) -> Column:
@@ -149,6 +155,10 @@ LINK_TABLE: tuple[Column, ...] = (
     # meets_availability is 2 where there is no verdict (written as empty).
     _avail("availability_pct"), _avail("meets_availability", "u1"), _avail("rain_outage_min_per_year"),
     _avail("multipath_min_per_year"), _avail("multipath_worst_month_min"), _write("availability_note"),
+    # Radio profiles and EIRP limits (profiler.equipment.modulation): best_step is the chosen step's number
+    # in the profile's list (0: none has the margin), eirp_over_limit_db the EIRP above the limit (< 0: below).
+    _radio("best_step", "i2"), _radio("capacity_mbps"), _radio("capacity_at_target_mbps"),
+    _radio("eirp_over_limit_db"),
     _write("method"), _write("k"), _write("k_worst"),
     _engine("samples", "i4", kept_on_error=True), _engine("spacing_m", kept_on_error=True),
     _engine("mast_raise_m"), _write("problem"),
@@ -171,6 +181,8 @@ ENGINE_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source =
 AVAILABILITY_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "availability")
 #: Yes/no columns, NULL in the rows that could not be profiled.
 FLAG_COLUMNS = frozenset(c.name for c in LINK_TABLE if c.flag)
+#: Columns of radio profiles and EIRP limits: written only by runs that use one (their values: evaluate.py).
+RADIO_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "radio")
 #: Columns an error row keeps: they come from the two positions alone, not from the terrain.
 KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
 

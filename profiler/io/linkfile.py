@@ -19,8 +19,9 @@ Format (all sections optional except the two sites; paths relative to the file):
     ...
 
     [radio]        # keys as the Radio fields: freq_ghz, tx_power_dbm, gain_a_dbi, ...
+                   # or a radio profile: profile = "radio.toml", channel_mhz; max_eirp_dbm
     [analysis]     # k, k_worst, sample_spacing_m, min_f1_fraction, min_f1_fraction_worst,
-                   # diffraction_method, polarisation, ground
+                   # diffraction_method, polarisation, ground, min_margin_db (with a radio profile)
     [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
                    # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis]),
                    # source = "itu" (R0.01, dN1 from the ITU-R maps, sa from the terrain) or "default"
@@ -75,10 +76,11 @@ SECTION_KEYS: dict[str, set[str]] = {
     "radio": {
         "freq_ghz", "tx_power_dbm", "gain_a_dbi", "gain_b_dbi", "loss_a_db", "loss_b_db",
         "bandwidth_mhz", "noise_figure_db", "required_snr_db",
+        "profile", "channel_mhz", "max_eirp_dbm",  # a radio profile file (relative to the link file), EIRP limit
     },
     "analysis": {
         "k", "k_worst", "sample_spacing_m", "min_f1_fraction", "min_f1_fraction_worst",
-        "diffraction_method", "polarisation", "ground",
+        "diffraction_method", "polarisation", "ground", "min_margin_db",
     },
     "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
     "climate": {
@@ -94,12 +96,12 @@ ANTENNA_SECTIONS = ("antenna_a", "antenna_b")
 
 #: Keys that hold text; any other type is refused with the file, table and key.
 TEXT_KEYS = {"name", "vertical_unit", "vertical_crs", "diffraction_method", "polarisation", "ground",
-             "height_field", "top_field", "source"}
+             "height_field", "top_field", "source", "profile"}
 #: Keys that hold a number (k and k_worst may also be a fraction written as text, e.g. "4/3").
-NUMBER_KEYS = {key for table in ("radio", "climate") for key in SECTION_KEYS[table] if key != "source"} | {
+NUMBER_KEYS = {key for table in ("radio", "climate") for key in SECTION_KEYS[table] if key not in ("source", "profile")} | {
     "nodata_fill_m", "lat", "lon", "antenna_agl_m", "antenna_above_roof_m", "antenna_amsl_m",
     "antenna_ellipsoidal_m", "max_mast_m", "k", "k_worst", "sample_spacing_m", "min_f1_fraction",
-    "min_f1_fraction_worst", "tree_allowance_m",
+    "min_f1_fraction_worst", "tree_allowance_m", "min_margin_db",
 }
 
 
@@ -165,13 +167,16 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
     if surface:
         terrain["surface"] = [_resolve(p.parent, r) for r in surface]
     obstructions = _obstructions(p, dict(data.get("obstructions", {})))
+    radio = dict(data.get("radio", {}))
+    if "profile" in radio:
+        radio["profile"] = _resolve(p.parent, radio["profile"])  # relative to the link file
     return LinkSpec(
         path=str(p),
         title=data.get("title"),
         terrain=terrain,
         site_a=dict(data.get("site_a", {})),
         site_b=dict(data.get("site_b", {})),
-        radio=dict(data.get("radio", {})),
+        radio=radio,
         analysis=dict(data.get("analysis", {})),
         obstructions=obstructions,
         climate=dict(data.get("climate", {})),

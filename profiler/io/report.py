@@ -116,6 +116,60 @@ def _availability_lines(av: dict | None) -> list[str]:
     return lines
 
 
+def _eirp_limit_lines(e: dict | None) -> list[str]:
+    """The EIRP limit and whether either end exceeds it (--max-eirp-dbm or the radio profile's band)."""
+    if not e:
+        return []
+    verdict = (f"EXCEEDED by {e['excess_db']:.1f} dB" if e["exceeds"] else "within")
+    return [f"  EIRP limit       {e['max_eirp_dbm']:g} dBm ({e['source']}): {verdict}; site a "
+            f"{e['eirp_a_dbm']:.1f} dBm, site b {e['eirp_b_dbm']:.1f} dBm"]
+
+
+def _share_text(s: dict) -> str:
+    """A step's share of the year at or above it: a figure, a bound, or why there is none."""
+    if s["share_of_year_pct"] is not None:
+        return f"{s['share_of_year_pct']:.4f} %"
+    if s["share_of_year_above_pct"] is not None:
+        return f"> {s['share_of_year_above_pct']:g} %"
+    if s["share_of_year_below_pct"] is not None:
+        return f"< {s['share_of_year_below_pct']:g} %"
+    return "-"
+
+
+def _modulation_lines(m: dict | None) -> list[str]:
+    """The modulation table of a link with a radio profile: every step, the chosen one, capacities."""
+    if not m:
+        return []
+    lines = [
+        f"modulation         {m['radio']}, {m['channel_mhz']:g} MHz channel (noise bandwidth "
+        f"{m['noise_bandwidth_mhz']:g} MHz, NF {m['noise_figure_db']:g} dB, noise floor {m['noise_floor_dbm']:.1f} dBm)",
+        f"  {'step':<4} {'label':<14} {'Mbit/s':>7} {'thr dBm':>8} {'SNR dB':>7} {'tx dBm':>6} "
+        f"{'margin':>7} {'worst k':>7}  {'share of year':>13}",
+    ]
+    for s in m["steps"]:
+        mark = "*" if s["step"] == m["chosen_step"] else " "
+        lines.append(
+            f" {mark}{s['step']:<4} {s['label'][:14]:<14} {s['capacity_mbps']:>7.1f} {s['rx_threshold_dbm']:>8.1f} "
+            f"{s['required_snr_db']:>7.1f} {s['tx_power_dbm']:>6.1f} {s['fade_margin_db']:>+7.1f} "
+            f"{s['fade_margin_worst_db']:>+7.1f}  {_share_text(s):>13}")
+    chosen = (f"step {m['chosen_step']} {m['chosen_label']}, {m['capacity_mbps']:g} Mbit/s"
+              if m["chosen_step"] is not None else "none (no step has the margin)")
+    lines.append(f"  chosen (*)       {chosen}: highest step with >= {m['min_margin_db']:g} dB margin at the design k")
+    if m["shares_estimated"]:
+        at = (f"{m['capacity_at_target_mbps']:g} Mbit/s (step {m['capacity_at_target_step']})"
+              if m["capacity_at_target_mbps"] is not None else "none (no step meets it)")
+        mean = (f"{m['mean_capacity_mbps']:.1f} Mbit/s" if m["mean_capacity_mbps"] is not None
+                else f"{m['mean_capacity_min_mbps']:.1f}-{m['mean_capacity_max_mbps']:.1f} Mbit/s (shares are bounds)")
+        lines += [f"  at target        {at} for {m['target_availability_pct']:g} % of the year (rain only)",
+                  f"  mean capacity    {mean}, time-weighted over the year"]
+    else:
+        lines.append(f"  share of year    not estimated: {m['shares_reason']}")
+    lines += [f"  Shannon ceiling  {m['shannon_capacity_mbps']:.1f} Mbit/s at SNR {m['shannon_snr_db']:.1f} dB "
+              "(B log2(1 + SNR), Shannon 1948)",
+              f"  budget above     describes step 1 ({m['budget_step']}): whether the link is up at all"]
+    return lines
+
+
 def _terrain_source_lines(r: dict) -> list[str]:
     """The open dataset the heights came from (--terrain), and a caution when it is a surface model."""
     ts = (r.get("provenance") or {}).get("terrain_source")
@@ -200,12 +254,14 @@ def format_link_summary(r: dict) -> str:
         f"needs SNR {radio['required_snr_db']:g} dB",
         *_antenna_lines(r),
         f"EIRP               {r['budget']['eirp_dbm']:.1f} dBm",
+        *_eirp_limit_lines(r.get("eirp_limit")),
         f"design k = {r['k']:.4g} ({r['inputs'].get('diffraction_method', 'knife-edge')} diffraction)",
         *_at_k_lines(r),
         f"worst case k = {r['worst_case']['k']:.4g}",
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
         *_availability_lines(r.get("availability")),
+        *_modulation_lines(r.get("modulation")),
         *_installation_lines(r),
     ]
     lines += _clutter_lines(r)

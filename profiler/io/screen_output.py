@@ -21,7 +21,8 @@ import numpy as np
 
 from ..availability import availability_note
 from ..errors import InputError
-from .columns import CODED_COLUMNS, FLAG_COLUMNS, KEPT_IN_ERROR_ROWS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairStatus, Verdict
+from .columns import (CODED_COLUMNS, FLAG_COLUMNS, KEPT_IN_ERROR_ROWS, LINK_COLUMNS, RADIO_COLUMNS, SITE_COLUMNS,
+                      VERDICTS, PairStatus, Verdict)
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
 __all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
@@ -63,8 +64,12 @@ def _site_stats(n_sites: int, cols: dict, codes: np.ndarray, names: np.ndarray) 
     return stats
 
 
-def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, verdict_names):
-    """One batch of rows (columns already in rank order) as a DataFrame of the link layer."""
+def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, verdict_names,
+                radio_columns: bool = False):
+    """One batch of rows (columns already in rank order) as a DataFrame of the link layer.
+
+    ``radio_columns``: the run used a radio profile or an EIRP limit (else those columns are left out).
+    """
     import pandas as pd
 
     a, b = cols["a"], cols["b"]
@@ -84,11 +89,14 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
         problem=np.array([problems.get(int(p), "") for p in cols["pair"]], dtype=object),
         **_availability_data(cols, failed),
     )
+    if radio_columns:
+        data.update(_radio_data(cols, failed))
     for name, labels in CODED_COLUMNS.items():  # codes as words; none in rows that could not be profiled
         if name in data:
             words = np.asarray(labels, dtype=object)[data[name]]
             data[name] = words if name in KEPT_IN_ERROR_ROWS else np.where(failed, None, words)
-    frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data})
+    frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data
+                          and (radio_columns or name not in RADIO_COLUMNS)})
     if sites.gain_dbi is not None:
         frame["gain_a_dbi"] = sites.gain_dbi[a]
         frame["gain_b_dbi"] = sites.gain_dbi[b]
@@ -106,6 +114,16 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
         frame[f"a_{col}"] = values[a]
         frame[f"b_{col}"] = values[b]
     return frame
+
+
+def _radio_data(cols: dict, failed: np.ndarray) -> dict[str, Any]:
+    """best_step as an integer column, NULL where no step was chosen or the pair was not profiled."""
+    import pandas as pd
+
+    if "best_step" not in cols:
+        return {}
+    step = cols["best_step"]
+    return {"best_step": pd.array(np.where((step <= 0) | failed, None, step), dtype="Int16")}  # type: ignore[call-overload]
 
 
 def _flags(values: np.ndarray, failed: np.ndarray):
@@ -142,7 +160,7 @@ def _lines(frame) -> Any:
 
 def write_outputs(
     out: str | os.PathLike, stage, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
-    settings,
+    settings, radio_columns: bool = False,
 ) -> list[str]:
     """Write the ranked links and the sites; return the paths written.
 
@@ -163,7 +181,7 @@ def write_outputs(
     saved = {k: pyogrio.get_gdal_config_option(k) for k in _FAST_SQLITE}
     pyogrio.set_gdal_config_options(_FAST_SQLITE)
     try:
-        return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings)
+        return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings, radio_columns)
     finally:
         pyogrio.set_gdal_config_options(saved)
 
@@ -227,7 +245,8 @@ def _have_arrow() -> bool:
     return importlib.util.find_spec("pyarrow") is not None
 
 
-def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings) -> list[str]:
+def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings,
+           radio_columns: bool = False) -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
@@ -248,7 +267,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
     for start in range(0, max(n_rows, 1), WRITE_BATCH):
         stop = min(start + WRITE_BATCH, n_rows)
         frame = _link_frame(ranked(start, stop), ranked_codes[start:stop], problems, sites, settings,
-                            verdict_names)
+                            verdict_names, radio_columns)
         frame.insert(0, "rank", np.arange(start + 1, stop + 1))
         if driver == "CSV":
             frame.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)

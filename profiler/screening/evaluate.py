@@ -16,6 +16,7 @@ import numpy as np
 
 from ..availability import availability_for_links
 from ..budget import Radio
+from ..equipment.modulation import SiteRadios
 from ..geodesy import WGS84
 from ..heights import mast_raise_m
 from ..io.columns import KEPT_IN_ERROR_ROWS, STAGED_COLUMNS, PairStatus
@@ -26,7 +27,8 @@ from ..profile import path_spacings_m, sample_limit_problem
 from ..terrain import ElevationModel
 from ..validation import MIN_PATH_M, too_close
 
-__all__ = ["ChunkTask", "evaluate_chunk", "make_task", "engine_columns", "clutter_columns", "SUBBATCH_SAMPLES"]
+__all__ = ["ChunkTask", "SiteRadios", "evaluate_chunk", "make_task", "engine_columns", "clutter_columns",
+           "radio_columns", "SUBBATCH_SAMPLES"]
 
 #: Padded samples per call of the engine inside a chunk (small arrays stay in cache).
 SUBBATCH_SAMPLES = 200_000
@@ -57,15 +59,23 @@ class ChunkTask:
     roof_b: np.ndarray | None = None
     above_roof_a: np.ndarray | None = None
     above_roof_b: np.ndarray | None = None
+    # Radio profiles (SiteRadios) and each pair's profile index at a and b; None without profiles or EIRP limit.
+    radios: Any = None
+    plan_a: np.ndarray | None = None
+    plan_b: np.ndarray | None = None
+    # The profile and EIRP limit of the pairs being evaluated (one group of a chunk).
+    radio_plan: Any = None
+    eirp_limit: Any = None
 
 
 def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,
-              heights: Any = None) -> ChunkTask:
+              heights: Any = None, radios: SiteRadios | None = None) -> ChunkTask:
     """The chunk of pairs ``a``, ``b`` (site indices) starting at pair ``first``.
 
     ``heights`` (:class:`profiler.screening.placing.AntennaHeights`, or None)
     gives roof mounts and per-pair heights; without it each end has its site's
-    height above ground.
+    height above ground.  ``radios`` (:class:`SiteRadios`, or None) the radio
+    profile of each site.
     """
     g = sites.gain_dbi
     if heights is None:
@@ -73,6 +83,9 @@ def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio:
     else:
         agl_a, agl_b, mounts = heights.of_pairs(a, b)
     return ChunkTask(
+        radios=radios,
+        plan_a=None if radios is None else radios.site_plan[a],
+        plan_b=None if radios is None else radios.site_plan[b],
         first_pair=first, a=a, b=b,
         names_a=sites.names[a], names_b=sites.names[b],
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
@@ -108,7 +121,7 @@ def evaluate_chunk(model: ElevationModel, task: ChunkTask,
     length_m = np.full(n, np.nan)
     todo = np.flatnonzero(~same)
     if todo.size:
-        _evaluate_by_length(model, task, todo, out, problems, length_m, surroundings)
+        _evaluate_by_radio(model, task, todo, out, problems, length_m, surroundings)
     out["status"][:] = PairStatus.PROFILED
     bad = np.array([p for p, _ in problems], dtype=np.int64) - task.first_pair
     out["status"][bad] = PairStatus.NOT_PROFILED
@@ -128,6 +141,29 @@ def _mount_columns(task: ChunkTask, out: dict) -> None:
         out["roof_b_m"][:] = task.roof_b
         out["above_roof_a_m"][:] = task.above_roof_a
         out["above_roof_b_m"][:] = task.above_roof_b
+
+
+def _evaluate_by_radio(model: ElevationModel, task: ChunkTask, todo: np.ndarray, out: dict, problems: list,
+                       length_m: np.ndarray, surroundings: Any = None) -> None:
+    """Evaluate pairs ``todo`` one radio profile at a time (a batch each); pairs whose ends differ are reported."""
+    radios = task.radios
+    if radios is None:
+        _evaluate_by_length(model, task, todo, out, problems, length_m, surroundings)
+        return
+    assert task.plan_a is not None and task.plan_b is not None  # make_task sets them with radios
+    pa, pb = task.plan_a[todo], task.plan_b[todo]
+    mixed = pa != pb
+    for k in np.flatnonzero(mixed):
+        i = int(todo[k])
+        problems.append((task.first_pair + i,
+                         f"{task.names_a[i]} - {task.names_b[i]}: the two ends name different radios "
+                         f"({radios.names[pa[k]]} at {task.names_a[i]}, {radios.names[pb[k]]} at "
+                         f"{task.names_b[i]}); not evaluated: give both sites the same radio"))
+    for p in np.unique(pa[~mixed]):
+        plan = radios.plans[int(p)]
+        group = dataclasses.replace(task, radio=task.radio if plan is None else plan.engine_radio(task.radio),
+                                    radio_plan=plan, eirp_limit=radios.limits[int(p)])
+        _evaluate_by_length(model, group, todo[~mixed & (pa == p)], out, problems, length_m, surroundings)
 
 
 def _same_place(task: ChunkTask, problems: list) -> np.ndarray:
@@ -269,13 +305,16 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     settings = dataclasses.replace(task.settings, compare_methods=False)
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a} - {b}" for a, b in zip(sites_a.names.tolist(), sites_b.names.tolist())],
-                          check_sites=False, estimate_availability=False, surroundings=surroundings)
+                          check_sites=False, estimate_availability=False, surroundings=surroundings,
+                          radio_plan=task.radio_plan, eirp_limit=task.eirp_limit)
     length_m[idx] = batch.profiles.length_m
     for name, values in engine_columns(batch).items():
         out[name][idx] = np.asarray(values)
     if surroundings is not None:
         for name, values in clutter_columns(batch).items():
             out[name][idx] = values
+    for name, values in radio_columns(batch).items():
+        out[name][idx] = np.asarray(values)
     for k, problem in enumerate(batch.problems):
         if problem is not None:
             problems.append((task.first_pair + int(idx[k]), problem))
@@ -289,6 +328,23 @@ def clutter_columns(batch: LinkBatch) -> dict[str, np.ndarray]:
     j = np.asarray(batch.design.clearance.worst_index)
     kind = np.zeros(rows.size, np.int8) if p.clutter_kind is None else p.clutter_kind[rows, j]
     return {"worst_point_clutter_m": p.clutter_m[rows, j], "worst_point_clutter": kind}
+
+
+def radio_columns(batch: LinkBatch) -> dict[str, Any]:
+    """Columns of :data:`profiler.io.columns.RADIO_COLUMNS` of the links of ``batch`` that it has figures for.
+
+    The same figures as the record's ``modulation`` and ``eirp_limit`` blocks
+    (:mod:`profiler.equipment.modulation`); a pair without a profile keeps NaN.
+    """
+    out: dict[str, Any] = {}
+    m = batch.modulation
+    if m is not None:
+        out["best_step"] = (m.chosen + 1).astype(np.int16)  # 0: no step has the margin
+        out["capacity_mbps"] = m.capacity_mbps()
+        out["capacity_at_target_mbps"] = m.capacity_at_target_mbps()
+    if batch.eirp is not None:
+        out["eirp_over_limit_db"] = batch.eirp.excess_db
+    return out
 
 
 def engine_columns(batch: LinkBatch) -> dict[str, Any]:

@@ -96,6 +96,7 @@ def screen(
     site_options: Mapping[str, Any] | None = None,
     surroundings: Any = None,
     above_roof: bool = False,
+    radios: Any = None,
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -133,6 +134,9 @@ def screen(
         Fade margin, dB, a pair needs at the design k to be ``viable``.
     progress : callable, optional
         ``progress(done, total)``, called after each committed chunk.
+    radios : SiteRadios, optional
+        Radio profiles per site and EIRP limits (:class:`profiler.equipment.modulation.SiteRadios`,
+        made by :func:`profiler.jobs.site_radios`); ``radio`` is then the flags' one-step radio.
     inputs : paths
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
@@ -179,7 +183,8 @@ def screen(
             bad_rows = [*bad_rows, *bad_read]
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
-                   progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof)
+                   progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof,
+                   radios=radios)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -193,7 +198,7 @@ def _screen_to(
     plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
-    surroundings: Any = None, above_roof: bool = False,
+    surroundings: Any = None, above_roof: bool = False, radios: Any = None,
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -206,9 +211,11 @@ def _screen_to(
     check_outputs_spare_inputs(out, [*inputs, *_raster_files(model), *_surroundings_files(surroundings)])
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
     sites, plan, bad, heights, notes = _placed_sites(sites, model, plan, bad, surroundings, above_roof)
+    if radios is not None:
+        radios = radios.aligned(sites)  # sites outside the rasters or not placed were dropped
     with RunLock(lock_path(out), str(out)):
         run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
-                   surroundings, heights)
+                   surroundings, heights, radios)
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
@@ -323,13 +330,16 @@ class _Run:
     """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
     def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
-                 surroundings=None, heights=None) -> None:
+                 surroundings=None, heights=None, radios: Any = None) -> None:
         self.sites, self.model, self.radio, self.settings = sites, model, radio, settings
         self.out, self.plan, self.bad = out, plan, bad
         self.chunk_pairs, self.min_margin_db, self.t0 = chunk_pairs, min_margin_db, t0
         self.heights = heights
         self.stage = _stage(out, surroundings)
         self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs, surroundings, heights)
+        self.radios = radios
+        if radios is not None:  # another radio profile or limit is another run
+            self.fingerprint = hashlib.sha256((self.fingerprint + radios.key()).encode()).hexdigest()
         self.total = count_pairs(sites, plan)
         self.done_rows = self.done_chunks = self.resumed = 0
 
@@ -405,7 +415,8 @@ class _Run:
                             exhausted = True
                             break
                         first, a, b = nxt
-                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings, self.heights)))
+                        pending.append(executor.submit(make_task(sites, first, a, b, radio, settings,
+                                                                 self.heights, self.radios)))
                     if not pending:
                         break
                     cols, problems = pending.popleft().result()
@@ -421,7 +432,8 @@ class _Run:
         codes = verdicts(keys, self.min_margin_db)
         problems = {int(p): str(m) for p, m in stage.problems()}
         ranked = stage.rank(rank_order(keys))
-        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings)
+        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings,
+                                radio_columns=self.radios is not None)
         summary = self._summary(done_rows, self.resumed, outputs)
         stage.discard()
         crash_point("staging removed")

@@ -16,6 +16,7 @@ from typing import Any, Sequence
 from .content import SheetContent
 from .drawing import curvature_note, draw_profile, vertical_exaggeration
 from .minimap import draw_minimap
+from .modulation import modulation_pages, modulation_rows
 from .notes import (
     CONT_COLUMNS as _CONT_COLUMNS,
     CONT_ROWS as _CONT_ROWS,
@@ -187,7 +188,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
 
 
 def _table(fig: Any, c: SheetContent, lay: _Layout, units: str) -> None:
-    rows: list[Row] = parameter_rows(c.record, units)
+    rows: list[Row] = parameter_rows(c.record, units) + modulation_rows(c.record)
     x0, y0, w, h = 202.0, 67.0, 87.0, 114.0
     ax = fig.add_axes(lay.rect(x0, y0, w, h))
     ax.set_axis_off()
@@ -466,6 +467,8 @@ def write_sheets(
                     pdf.savefig(fig)
                     for cont in render_continuation(c, size, units):
                         pdf.savefig(cont)
+                    for extra_page in modulation_pages(c, size, units):  # with a radio profile only
+                        pdf.savefig(extra_page)
         else:
             written = []
             for c, path in zip(contents, paths):
@@ -475,6 +478,10 @@ def write_sheets(
                 for k, cont in enumerate(render_continuation(c, size, units)):
                     extra = path.with_name(f"{path.stem}-obstructions-{k + 1}{path.suffix}")
                     cont.savefig(extra, format=fmt, dpi=dpi, facecolor="white")
+                    written.append(extra)
+                for radio_page in modulation_pages(c, size, units):  # with a radio profile only
+                    extra = path.with_name(f"{path.stem}-radio{path.suffix}")
+                    radio_page.savefig(extra, format=fmt, dpi=dpi, facecolor="white")
                     written.append(extra)
             paths = written
     return paths
