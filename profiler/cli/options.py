@@ -43,6 +43,7 @@ __all__ = [
     "link_input_options",
     "opened_link_data",
     "analyse_resolved",
+    "command_words",
 ]
 
 
@@ -371,6 +372,42 @@ def analyse_resolved(job: Any, model: Any, surroundings: Any, *, mount_a: Any = 
     from ..jobs import analyse_job
 
     return analyse_job(job, model, surroundings, mount_a=mount_a, mount_b=mount_b)
+
+
+# --- the command line, for the run description of written files --------------
+
+
+def command_words() -> list[str]:
+    """The command being run as a list of words (``["terrahop", "screen", "sites.csv", "--dem", ...]``).
+
+    The process's own arguments when it is the ``terrahop`` program (or
+    ``python -m profiler``); otherwise (click's test runner, another program
+    calling the command) rebuilt from the options given on the command line.
+    """
+    import sys
+    from pathlib import Path
+
+    ctx = click.get_current_context()
+    argv = list(sys.argv)
+    if argv and Path(argv[0]).name in ("terrahop", "__main__.py") and ctx.info_name in argv[1:]:
+        return ["terrahop", *argv[1:]]
+    words = ["terrahop", str(ctx.info_name)]
+    source = click.core.ParameterSource.COMMANDLINE
+    for param in ctx.command.params:
+        if param.name is None or ctx.get_parameter_source(param.name) != source:
+            continue
+        value = ctx.params.get(param.name)
+        values = list(value) if isinstance(value, (list, tuple)) and getattr(param, "multiple", False) or \
+            isinstance(param, click.Argument) and isinstance(value, (list, tuple)) else [value]
+        for v in values:
+            text = ",".join(map(str, v)) if isinstance(v, tuple) else str(v)
+            if isinstance(param, click.Argument):
+                words.append(text)
+            elif getattr(param, "is_flag", False):
+                words.append(param.opts[-1])
+            else:
+                words += [param.opts[-1], text]
+    return words
 
 
 _FROM_JOBS = {"ResolvedLink": "LinkJob", "resolve_climate": "resolve_climate", "parse_number": "parse_number",

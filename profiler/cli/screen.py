@@ -151,9 +151,13 @@ def _screen_radio_options(func):
 @analysis_options
 @climate_options
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
-              help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it, "
-                   "as RESULT-sites). An existing result is kept unless --overwrite is given; "
-                   "a path that is one of the inputs is refused.")
+              help="Result file: .gpkg (layers links and sites, and a run table), .geojson or .csv (sites "
+                   "beside it, as RESULT-sites), or .kml/.kmz (sites and links for globe viewers); CSV, GeoJSON "
+                   "and KML get RESULT.run.json, how the result was made. An existing result is kept unless "
+                   "--overwrite is given; a path that is one of the inputs is refused.")
+@click.option("--csv-geometry", default="none", show_default=True, metavar="none|wkt",
+              help="CSV output only: wkt adds a column 'wkt' with each link's line (and each site's point) "
+                   "as WKT in WGS84 degrees.")
 @click.option("--max-km", type=float, default=None, help="Only pairs at most this far apart, km [default: no limit].")
 @click.option("--pairs", "pairs_file", type=click.Path(dir_okay=False), default=None,
               help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs.")
@@ -194,7 +198,7 @@ def _screen_radio_options(func):
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler, chunk_pairs, resume,
-           restart, overwrite, quiet, **opts) -> None:
+           restart, overwrite, quiet, csv_geometry, **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -211,6 +215,9 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
     inputs = [sites_file, pairs_file, *opts["dem"]]
     _check_out(out, inputs)
+    from ..io.screen_output import check_csv_geometry
+
+    check_csv_geometry(csv_geometry, out)
     if scheduler is not None:
         from ..screening import check_scheduler_address
 
@@ -233,6 +240,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         rasters.append(fetched.vrt)
     model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
+    description = _run_description(radio, settings, min_margin_db, rasters, sites_file)
     show = not quiet and sys.stderr.isatty()
     try:
         with _Progress(show) as bar:
@@ -240,7 +248,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 sites, model, radio, settings, out, plan=plan, bad_rows=bad, workers=workers,
                 scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
-                min_margin_db=min_margin_db, progress=bar.update,
+                min_margin_db=min_margin_db, progress=bar.update, run_description=description,
+                csv_geometry=csv_geometry,
             )
     except KeyboardInterrupt:
         click.echo(
@@ -255,6 +264,15 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         click.echo(f"terrain: {d.name} ({d.title}), {len(fetched.tiles)} tile(s), heights above "
                    f"{d.vertical_datum} (EPSG:{d.vertical_epsg})"
                    + ("; a surface model (roofs and canopy in the heights)" if d.surface_model else ""))
+
+
+def _run_description(radio, settings, min_margin_db: float, rasters: list, sites_file: str) -> dict:
+    """How this run's result is made (written into the GeoPackage or beside the file)."""
+    from ..io.run_description import describe_run
+    from .options import command_words
+
+    return describe_run(command=command_words(), radio=radio, settings=settings, min_margin_db=min_margin_db,
+                        dem=rasters, sites_file=sites_file)
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:

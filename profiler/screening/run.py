@@ -79,6 +79,8 @@ def screen(
     progress: Callable[[int, int], None] | None = None,
     inputs: Sequence[str | os.PathLike] = (),
     site_options: Mapping[str, Any] | None = None,
+    run_description: dict | None = None,
+    csv_geometry: str = "none",
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -120,6 +122,12 @@ def screen(
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
         while one is alive is refused (see :mod:`profiler.io.stage`).
+    run_description : dict, optional
+        How the result was made (:func:`profiler.io.run_description.describe_run`),
+        written into the GeoPackage or beside the file; by default one naming
+        this call, the settings and the raster files.
+    csv_geometry : str
+        ``none`` (default) or ``wkt``: a ``wkt`` geometry column in CSV output.
 
     Returns
     -------
@@ -148,6 +156,9 @@ def screen(
     else:
         elevation = ElevationModel([model] if isinstance(model, (str, os.PathLike)) else list(model))
     try:
+        if run_description is None:
+            run_description = _default_description(elevation, radio, settings, min_margin_db,
+                                                   sites if isinstance(sites, (str, os.PathLike)) else None)
         if isinstance(sites, (str, os.PathLike)):
             inputs = [*inputs, sites]  # a result must not land on the sites file
         if not isinstance(sites, SiteTable):
@@ -155,7 +166,7 @@ def screen(
             bad_rows = [*bad_rows, *bad_read]
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
-                   progress=progress, inputs=inputs)
+                   progress=progress, inputs=inputs, run_description=run_description, csv_geometry=csv_geometry)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -169,6 +180,7 @@ def _screen_to(
     plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
+    run_description: dict | None = None, csv_geometry: str = "none",
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -182,6 +194,8 @@ def _screen_to(
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
     with RunLock(lock_path(out), str(out)):
         run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0)
+        run.run_description = run_description
+        run.csv_geometry = csv_geometry
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
@@ -196,6 +210,15 @@ def _screen_to(
             return dataclasses.replace(summary, warnings=summary.warnings + _spacing_warnings(model, sites, settings))
         finally:
             executor.close(cancel=True)
+
+
+def _default_description(model: ElevationModel, radio: Radio, settings: Settings, min_margin_db: float,
+                         sites_file: str | os.PathLike | None) -> dict:
+    """The run description of a call from Python: the call, the settings, the rasters and the sites file."""
+    from ..io.run_description import describe_run
+
+    return describe_run(command=["python", "-c", "profiler.screening.screen(...)"], radio=radio, settings=settings,
+                        min_margin_db=min_margin_db, dem=[s.path for s in model.sources], sites_file=sites_file)
 
 
 def _covered_sites(sites: SiteTable, model: ElevationModel, plan: PairPlan,
@@ -260,6 +283,8 @@ class _Run:
         self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs)
         self.total = count_pairs(sites, plan)
         self.done_rows = self.done_chunks = self.resumed = 0
+        self.run_description: dict | None = None
+        self.csv_geometry = "none"
 
     def prepare(self, resume: bool, restart: bool, overwrite: bool) -> "ScreenSummary | None":
         """Finish a crashed final write, apply the overwrite rule, open or create the stage.
@@ -349,7 +374,8 @@ class _Run:
         codes = verdicts(keys, self.min_margin_db)
         problems = {int(p): str(m) for p, m in stage.problems()}
         ranked = stage.rank(rank_order(keys))
-        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings)
+        outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings,
+                                run_description=self.run_description, csv_geometry=self.csv_geometry)
         summary = self._summary(done_rows, self.resumed, outputs)
         stage.discard()
         crash_point("staging removed")
