@@ -10,7 +10,7 @@ from ..io.linkfile import read_link_file
 from .options import analyse_resolved, friendly_errors, link_input_options, opened_link_data, resolve_link
 from .screen import gain_warning_text
 
-__all__ = ["link", "run_link"]
+__all__ = ["link", "run_link", "kml_options", "write_records_kml"]
 
 
 def run_link(resolved) -> dict:
@@ -32,12 +32,96 @@ def default_gain_warning(link_file: str | None, opts: dict) -> str | None:
     return gain_warning_text(missing, "--gain-a-dbi/--gain-b-dbi or [radio] gain_a_dbi/gain_b_dbi") if missing else None
 
 
+# --- KML of single links (also used by `terrahop sheet --kml`) -----------------
+
+#: Fade margin, dB, a link needs to be drawn as viable in --kml (the `screen --min-margin-db` default).
+KML_MIN_MARGIN_DB = 10.0
+
+
+def kml_options(func):
+    """``--kml FILE`` and ``--min-margin-db`` (the viable/marginal line of its verdict colours)."""
+    func = click.option("--min-margin-db", "kml_min_margin_db", type=float, default=KML_MIN_MARGIN_DB,
+                        show_default=True,
+                        help="With --kml: fade margin a link needs at the design k to be drawn as viable, dB.")(func)
+    return click.option("--kml", "kml_path", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+                        help="Also write the link(s) and sites as KML 2.2 (.kml) or KMZ (.kmz) for globe viewers, "
+                             "with FILE's stem + .run.json beside it (how it was made).")(func)
+
+
+def check_kml_request(kml_path: str | None, min_margin_db: float, inputs) -> None:
+    """InputError before any work: a bad --kml path (extension, folder, an input file) or margin."""
+    if kml_path is None:
+        return
+    from ..io.kml import check_kml_path
+    from ..io.run_description import sidecar_path
+    from ..validation import check_number
+
+    check_number(min_margin_db, "min_margin_db", "--min-margin-db")
+    path = check_kml_path(kml_path)
+    import os
+
+    for given in inputs:
+        if not given:
+            continue
+        for written in (path, sidecar_path(path)):
+            if os.path.realpath(written) == os.path.realpath(given):
+                from ..errors import InputError
+
+                raise InputError(f"--kml {kml_path} would overwrite the input {given}; choose another file")
+
+
+def write_records_kml(kml_path: str, records: list, ends: list, job, min_margin_db: float,
+                      link_files=(), sites_file: str | None = None, per_link: bool = False) -> list[str]:
+    """Write the KML (and its .run.json) of link records; verdicts by the screening rule; return the paths.
+
+    The run description holds ``job``'s radio and settings; with ``per_link``
+    (links made with different ones) each record's ``inputs`` are listed too.
+    """
+    import numpy as np
+
+    from ..io.columns import VERDICTS, PairStatus
+    from ..io.kml import links_from_records, sites_from_records, write_kml
+    from ..io.run_description import describe_run, sidecar_path, write_sidecar
+    from ..screening.summary import verdicts
+    from .options import command_words
+
+    def value(r, *path):
+        for key in path:
+            r = (r or {}).get(key)
+        return np.nan if r is None else float(r)
+
+    cols = {
+        "status": np.array([PairStatus.NOT_PROFILED if "error" in r else PairStatus.PROFILED for r in records]),
+        "line_of_sight": np.array([value(r, "clearance", "line_of_sight") == 1 for r in records], dtype=np.uint8),
+        "meets_criterion": np.array([value(r, "meets_criterion") == 1 for r in records], dtype=np.uint8),
+        "fade_margin_db": np.array([value(r, "budget", "fade_margin_db") for r in records]),
+    }
+    codes = verdicts(cols, min_margin_db)
+    description = describe_run(
+        command=command_words(), radio=job.radio, settings=job.settings, min_margin_db=min_margin_db,
+        dem=job.rasters, surface=job.surface_rasters, sites_file=sites_file,
+        other_inputs={"link_files": [f for f in link_files if f],
+                      "obstruction_layers": [getattr(spec, "path", spec) for spec in job.obstruction_layers]},
+    )
+    if per_link:
+        description["per_link_inputs"] = [{"name": r.get("name"), **(r.get("inputs") or {})} for r in records]
+    from pathlib import Path
+
+    title = Path(kml_path).stem
+    write_kml(kml_path, title, links_from_records(records, [VERDICTS[int(c)] for c in codes], ends),
+              sites_from_records(records, ends), description)
+    sidecar = write_sidecar(sidecar_path(kml_path), description)
+    return [str(kml_path), str(sidecar)]
+
+
 @click.command()
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
 @link_input_options
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
+@kml_options
 @friendly_errors
-def link(link_file: str | None, as_json: bool, **opts) -> None:
+def link(link_file: str | None, as_json: bool, kml_path: str | None = None,
+         kml_min_margin_db: float = KML_MIN_MARGIN_DB, **opts) -> None:
     """Analyse one link: clearance at two k-factors, losses, budget.
 
     LINK_FILE is an optional TOML link file; flags override its values.
@@ -45,6 +129,9 @@ def link(link_file: str | None, as_json: bool, **opts) -> None:
     from ..io.report import format_link_summary  # lazy: brings numpy; the CLI's import stays light
 
     resolved = resolve_link(link_file, opts)
+    check_kml_request(kml_path, kml_min_margin_db,
+                      [link_file, *resolved.rasters, *resolved.surface_rasters,
+                       *[getattr(s, "path", None) for s in resolved.obstruction_layers]])
     record = run_link(resolved)
     warning = default_gain_warning(link_file, opts)
     if warning and "error" not in record:
@@ -55,3 +142,7 @@ def link(link_file: str | None, as_json: bool, **opts) -> None:
         click.echo(json.dumps(record, indent=2))
     else:
         click.echo(format_link_summary(record))
+    if kml_path is not None:
+        written = write_records_kml(kml_path, [record], [(resolved.site_a, resolved.site_b)], resolved,
+                                    kml_min_margin_db, [link_file])
+        click.echo(f"wrote {', '.join(written)}", err=as_json)

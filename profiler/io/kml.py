@@ -232,18 +232,30 @@ def record_numbers(record: dict) -> dict[str, Any]:
     else:
         numbers.pop("availability_above_pct")
     if "error" in record:
-        numbers = {"problem": record["error"], **{k: None for k in numbers if k not in ("distance_km",)},
-                   "distance_km": record.get("distance_km")}
+        numbers = {"problem": record["error"]}
     return {k: round_value(k, v) for k, v in numbers.items()}
 
 
-def links_from_records(records: Sequence[dict], verdicts: Sequence[Verdict]) -> list[KmlLink]:
-    """KML links of link records (``terrahop link --json``) with their verdicts."""
+def _ends(record: dict, fallback: Any) -> tuple[dict, dict]:
+    """The two sites of a record ({name, lat, lon, ...}); an error record has none, so ``fallback`` gives them."""
+    if "sites" in record:
+        return record["sites"]["a"], record["sites"]["b"]
+    a, b = fallback
+    return ({"name": a.name, "lat": a.lat_deg, "lon": a.lon_deg}, {"name": b.name, "lat": b.lat_deg, "lon": b.lon_deg})
+
+
+def links_from_records(records: Sequence[dict], verdicts: Sequence[Verdict], ends: Sequence[Any] | None = None
+                       ) -> list[KmlLink]:
+    """KML links of link records (``terrahop link --json``) with their verdicts.
+
+    ``ends[i]`` is the (site a, site b) pair of :class:`profiler.link.Site` of
+    record i, used when the record is an error (it names no sites).
+    """
     from .geolines import geodesic_parts
 
     out = []
-    for record, verdict in zip(records, verdicts):
-        a, b = record["sites"]["a"], record["sites"]["b"]
+    for i, (record, verdict) in enumerate(zip(records, verdicts)):
+        a, b = _ends(record, ends[i] if ends is not None else None)
         parts: list = []
         if verdict is not Verdict.ERROR:
             parts = geodesic_parts(a["lon"], a["lat"], b["lon"], b["lat"])[0]
@@ -252,14 +264,13 @@ def links_from_records(records: Sequence[dict], verdicts: Sequence[Verdict]) -> 
     return out
 
 
-def sites_from_records(records: Sequence[dict]) -> list[KmlSite]:
+def sites_from_records(records: Sequence[dict], ends: Sequence[Any] | None = None) -> list[KmlSite]:
     """The sites of link records, each position once (first name kept)."""
     from .rounding import round_value
 
     seen: dict[tuple[float, float], KmlSite] = {}
-    for record in records:
-        for end in ("a", "b"):
-            s = record["sites"][end]
+    for i, record in enumerate(records):
+        for s in _ends(record, ends[i] if ends is not None else None):
             key = (round(float(s["lat"]), 7), round(float(s["lon"]), 7))
             if key not in seen:
                 numbers = {"lat": s["lat"], "lon": s["lon"], "ground_m": s.get("ground_m"),
