@@ -1,4 +1,4 @@
-"""Link lines for vector outputs: the geodesic between the sites, densified, cut at the antimeridian.
+"""Link lines for vector outputs: the geodesic between the sites, densified, cut at the antimeridian (GeoJSON, KML, CSV) or unwrapped there (GeoPackage).
 
 The profile follows the WGS84 geodesic (:mod:`profiler.geodesy`); a straight
 line in longitude/latitude drawn between the ends strays from it (about 85 m
@@ -8,8 +8,9 @@ less, placed with ``pyproj.Geod.fwd`` along the azimuth of ``Geod.inv``.
 
 A line that crosses the antimeridian is cut there in two parts, one ending at
 longitude +180 and the other starting at -180 (or the reverse), as RFC 7946
-section 3.1.9 asks of GeoJSON; the GeoPackage and KML writers use the same
-parts.  The latitude of the cut is interpolated between the two vertices on
+section 3.1.9 asks of GeoJSON; the KML and CSV (WKT) writers use the same
+parts.  A GeoPackage layer holds one geometry type (LineString), so there the
+line stays whole and its longitudes run on past +-180 instead.  The latitude of the cut is interpolated between the two vertices on
 either side (at most ``MAX_STEP_M`` apart, so it stays within millimetres
 of the geodesic's).
 """
@@ -95,13 +96,14 @@ def geodesic_parts(lon_a, lat_a, lon_b, lat_b, max_step_m: float = MAX_STEP_M) -
     return out
 
 
-def line_geometries(lon_a, lat_a, lon_b, lat_b, drawn: Any = None, *, multi: bool = False,
+def line_geometries(lon_a, lat_a, lon_b, lat_b, drawn: Any = None, *, unwrap: bool = False,
                     max_step_m: float = MAX_STEP_M) -> np.ndarray:
     """Shapely lines of the geodesics a->b, None where ``drawn`` is False (rows not profiled).
 
-    A line cut at the antimeridian is a MultiLineString; the others are
-    LineStrings, or MultiLineStrings of one part with ``multi`` (one type per
-    GeoPackage layer).
+    A line that crosses the antimeridian is a MultiLineString cut there; or,
+    with ``unwrap`` (the GeoPackage, whose layer holds LineStrings only), one
+    LineString whose longitudes run on past +-180 from site a's (179.9 to
+    180.1, not to -179.9), so that it is drawn short, not around the world.
     """
     import shapely
 
@@ -121,10 +123,13 @@ def line_geometries(lon_a, lat_a, lon_b, lat_b, drawn: Any = None, *, multi: boo
     crossing = np.zeros(rows.size, dtype=bool)
     crossing[index[jumps]] = True
     simple = shapely.linestrings(np.column_stack([lon, lat]), indices=index)
-    if multi:
-        simple = shapely.multilinestrings(simple, indices=np.arange(rows.size))
     for j in np.flatnonzero(crossing):
         lo, hi = offsets[j], offsets[j + 1]
-        simple[j] = shapely.MultiLineString(_split(lon[lo:hi], lat[lo:hi]))
+        if unwrap:
+            steps = (np.diff(lon[lo:hi]) + 180.0) % 360.0 - 180.0
+            run = lon[lo] + np.concatenate([[0.0], np.cumsum(steps)])
+            simple[j] = shapely.LineString(np.column_stack([run, lat[lo:hi]]))
+        else:
+            simple[j] = shapely.MultiLineString(_split(lon[lo:hi], lat[lo:hi]))
     geoms[rows] = simple
     return geoms

@@ -296,7 +296,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
         else:
             rounded = driver == "GeoJSON"
             gdf = gpd.GeoDataFrame(round_frame(frame) if rounded else frame,
-                                   geometry=line_geometries(*ends, drawn, multi=driver == "GPKG"), crs="EPSG:4326")
+                                   geometry=line_geometries(*ends, drawn, unwrap=driver == "GPKG"), crs="EPSG:4326")
             pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
                                     use_arrow=_have_arrow(), **_layer_options(driver, first))
         first = False
