@@ -208,7 +208,7 @@ def test_a_crash_at_any_step_of_the_final_write_leaves_the_old_pair_or_the_new(
             _run(sites, out, resume=True, overwrite=True)
     else:
         summary = _run(sites, out, resume=True, overwrite=True)
-        assert summary.pairs > 0 and summary.outputs == (str(out), str(out_sites), str(tmp_path / "r.run.json"))
+        assert summary.pairs > 0 and summary.outputs == (str(out), str(out_sites), str(tmp_path / "r.csv.run.json"))
     assert (out.read_bytes(), out_sites.read_bytes()) == new
     assert not staging.exists()
 

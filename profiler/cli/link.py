@@ -45,7 +45,7 @@ def kml_options(func):
                         help="With --kml: fade margin a link needs at the design k to be drawn as viable, dB.")(func)
     return click.option("--kml", "kml_path", type=click.Path(dir_okay=False), default=None, metavar="FILE",
                         help="Also write the link(s) and sites as KML 2.2 (.kml) or KMZ (.kmz) for globe viewers, "
-                             "with FILE's stem + .run.json beside it (how it was made).")(func)
+                             "with FILE.run.json beside it (how it was made).")(func)
 
 
 def check_kml_request(kml_path: str | None, min_margin_db: float, inputs) -> None:

@@ -2,7 +2,7 @@
 
 Built once per run by :func:`describe_run` and written unchanged into every
 output of that run: the GeoPackage's ``run`` table and metadata
-(:func:`profiler.io.gpkg_run.write_run_tables`), the ``<stem>.run.json``
+(:func:`profiler.io.gpkg_run.write_run_tables`), the ``<name>.run.json``
 sidecar beside CSV, GeoJSON and KML (:func:`write_sidecar`), and the KML's
 ``ExtendedData``.  Key names are fixed once released (``software``,
 ``created_utc``, ``command``, ``radio``, ``k``, ``k_worst``, ``criterion``,
@@ -206,9 +206,13 @@ def unwritable_reason(path: str | os.PathLike) -> str | None:
 
 
 def sidecar_path(out: str | os.PathLike) -> Path:
-    """``<folder>/<stem>.run.json`` for an output ``<folder>/<stem>.<ext>``."""
+    """``<folder>/<name>.run.json`` for an output ``<folder>/<name>`` (``r.csv`` -> ``r.csv.run.json``).
+
+    The whole name is kept so that results of one stem in several formats
+    (``r.csv``, ``r.kml``) each keep their own description.
+    """
     out = Path(out)
-    return out.with_name(out.stem + SIDECAR_SUFFIX)
+    return out.with_name(out.name + SIDECAR_SUFFIX)
 
 
 def write_sidecar(path: str | os.PathLike, description: dict) -> Path:

@@ -5,7 +5,7 @@ GeoPackage (.gpkg: layers ``links`` and ``sites`` in one file, plus the
 GeoJSON (.geojson/.json, RFC 7946), CSV (.csv) or KML/KMZ (.kml/.kmz, sites
 and links in one file, :mod:`profiler.io.kml`), chosen by the output's
 extension; for GeoJSON and CSV the sites go to ``<stem>-sites<ext>`` beside
-it, and CSV, GeoJSON and KML get the run description as ``<stem>.run.json``.
+it, and CSV, GeoJSON and KML get the run description as ``<name>.run.json`` (``r.csv.run.json``).
 Lines follow the geodesic (:mod:`profiler.io.geolines`); rows that could not
 be profiled have no geometry.  CSV, GeoJSON and KML numbers are rounded per
 :mod:`profiler.io.rounding`; the GeoPackage keeps full precision.  Rows are
@@ -201,7 +201,7 @@ def check_csv_geometry(csv_geometry: str, out: str | os.PathLike) -> None:
 
 def output_paths(out: str | os.PathLike) -> list[Path]:
     """The files a run writing ``out`` leaves: the result, for CSV and GeoJSON its sites file, and
-    for CSV, GeoJSON and KML the run description ``<stem>.run.json``."""
+    for CSV, GeoJSON and KML the run description ``<name>.run.json`` (``r.csv.run.json``)."""
     out = Path(out)
     driver = OUTPUT_SUFFIXES.get(out.suffix.lower())
     if driver == "GPKG":
