@@ -43,7 +43,8 @@ def kml_options(func):
     func = click.option("--min-margin-db", "kml_min_margin_db", type=float, default=KML_MIN_MARGIN_DB,
                         show_default=True,
                         help="With --kml: fade margin a link needs at the design k to be drawn as viable, dB.")(func)
-    return click.option("--kml", "kml_path", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+    # A plain string: profiler.io.kml.check_kml_path gives the one-line refusals (folder, extension, rights).
+    return click.option("--kml", "kml_path", type=str, default=None, metavar="FILE",
                         help="Also write the link(s) and sites as KML 2.2 (.kml) or KMZ (.kmz) for globe viewers, "
                              "with FILE.run.json beside it (how it was made).")(func)
 
