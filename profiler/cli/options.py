@@ -404,9 +404,9 @@ def command_words() -> list[str]:
             if isinstance(param, click.Argument):
                 words.append(text)
             elif getattr(param, "is_flag", False):
-                words.append(param.opts[-1])
+                words.append(max(param.opts, key=len))
             else:
-                words += [param.opts[-1], text]
+                words += [max(param.opts, key=len), text]
     return words
 
 
