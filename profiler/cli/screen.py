@@ -153,8 +153,8 @@ def _screen_radio_options(func):
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
               help="Result file: .gpkg (layers links and sites, and a run table), .geojson or .csv (sites "
                    "beside it, as RESULT-sites), or .kml/.kmz (sites and links for globe viewers); CSV, GeoJSON "
-                   "and KML get RESULT.run.json (e.g. r.csv.run.json), how the result was made. An existing result is kept unless "
-                   "--overwrite is given; a path that is one of the inputs is refused.")
+                   "and KML get RESULT.run.json (e.g. r.csv.run.json), how the result was made. An existing "
+                   "result is kept unless --overwrite is given; a path that is one of the inputs is refused.")
 @click.option("--csv-geometry", default="none", show_default=True, metavar="none|wkt",
               help="CSV output only: wkt adds a column 'wkt' with each link's line (and each site's point) "
                    "as WKT in WGS84 degrees.")

@@ -1,4 +1,4 @@
-"""Link lines for vector outputs: the geodesic between the sites, densified, cut at the antimeridian (GeoJSON, KML, CSV) or unwrapped there (GeoPackage).
+"""Link lines for vector outputs: the geodesic between the sites, densified, cut at the antimeridian.
 
 The profile follows the WGS84 geodesic (:mod:`profiler.geodesy`); a straight
 line in longitude/latitude drawn between the ends strays from it (about 85 m
@@ -9,10 +9,11 @@ less, placed with ``pyproj.Geod.fwd`` along the azimuth of ``Geod.inv``.
 A line that crosses the antimeridian is cut there in two parts, one ending at
 longitude +180 and the other starting at -180 (or the reverse), as RFC 7946
 section 3.1.9 asks of GeoJSON; the KML and CSV (WKT) writers use the same
-parts.  A GeoPackage layer holds one geometry type (LineString), so there the
-line stays whole and its longitudes run on past +-180 instead.  The latitude of the cut is interpolated between the two vertices on
+parts.  The latitude of the cut is interpolated between the two vertices on
 either side (at most ``MAX_STEP_M`` apart, so it stays within millimetres
-of the geodesic's).
+of the geodesic's).  A GeoPackage layer holds one geometry type
+(LineString), so there the line stays whole and its longitudes run on past
++-180 instead.
 """
 
 from __future__ import annotations
@@ -113,8 +114,8 @@ def line_geometries(lon_a, lat_a, lon_b, lat_b, drawn: Any = None, *, unwrap: bo
     rows = np.flatnonzero(keep)
     if rows.size == 0:
         return geoms
-    lon, lat, offsets = geodesic_vertices(*(np.asarray(v, dtype=float)[rows] for v in (lon_a, lat_a, lon_b, lat_b)),
-                                          max_step_m=max_step_m)
+    ends = [np.atleast_1d(np.asarray(v, dtype=float))[rows] for v in (lon_a, lat_a, lon_b, lat_b)]
+    lon, lat, offsets = geodesic_vertices(ends[0], ends[1], ends[2], ends[3], max_step_m=max_step_m)
     counts = np.diff(offsets)
     index = np.repeat(np.arange(rows.size), counts)
     jumps = np.zeros(lon.size, dtype=bool)

@@ -140,7 +140,7 @@ def _link_placemark(link: KmlLink):
     from fastkml.geometry import LineString, MultiGeometry
     from pygeoif.geometry import LineString as GeoLine
 
-    lines = [LineString(geometry=GeoLine([tuple(map(float, p)) for p in part]), tessellate=True,
+    lines = [LineString(geometry=GeoLine([(float(p[0]), float(p[1])) for p in part]), tessellate=True,
                         altitude_mode=AltitudeMode.clamp_to_ground) for part in link.parts]
     geometry: Any = None
     if len(lines) == 1:

@@ -23,8 +23,8 @@ from typing import Any, Iterable, Sequence
 
 from .._version import __version__
 
-__all__ = ["describe_run", "file_entry", "unwritable_reason", "sidecar_path", "write_sidecar", "run_json", "SIDECAR_SUFFIX",
-           "RUN_DESCRIPTION_VERSION"]
+__all__ = ["describe_run", "file_entry", "unwritable_reason", "sidecar_path", "write_sidecar", "run_json",
+           "SIDECAR_SUFFIX", "RUN_DESCRIPTION_VERSION"]
 
 #: Suffix of the sidecar file that holds the run description beside CSV, GeoJSON and KML outputs.
 SIDECAR_SUFFIX = ".run.json"

@@ -32,7 +32,8 @@ from .columns import FLAG_COLUMNS, LINK_COLUMNS, SITE_COLUMNS, VERDICTS, PairSta
 from .run_description import sidecar_path, unwritable_reason, write_sidecar
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
-__all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
+__all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES",
+           "LINK_COLUMNS", "SITE_COLUMNS", "rank_order", "check_csv_geometry", "CSV_GEOMETRY"]
 
 OUTPUT_SUFFIXES = {".gpkg": "GPKG", ".geojson": "GeoJSON", ".json": "GeoJSON", ".csv": "CSV", ".kml": "KML",
                    ".kmz": "KML"}
@@ -285,18 +286,18 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
         frame.insert(0, "rank", np.arange(start + 1, stop + 1))
         # A row that could not be profiled gets no line (not one between its two ends).
         drawn = batch_codes != Verdict.ERROR.code
-        ends = [frame[c].to_numpy(dtype=float) for c in ("lon_a", "lat_a", "lon_b", "lat_b")]
+        lon_a, lat_a, lon_b, lat_b = (frame[c].to_numpy(dtype=float) for c in ("lon_a", "lat_a", "lon_b", "lat_b"))
         if driver == "CSV":
             written = round_frame(frame)
             if csv_geometry == "wkt":
-                written["wkt"] = _wkt(line_geometries(*ends, drawn))
+                written["wkt"] = _wkt(line_geometries(lon_a, lat_a, lon_b, lat_b, drawn))
             written.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)
         elif driver == "KML":
-            kml_links += _kml_links(round_frame(frame), line_geometries(*ends, drawn))
+            kml_links += _kml_links(round_frame(frame), line_geometries(lon_a, lat_a, lon_b, lat_b, drawn))
         else:
             rounded = driver == "GeoJSON"
-            gdf = gpd.GeoDataFrame(round_frame(frame) if rounded else frame,
-                                   geometry=line_geometries(*ends, drawn, unwrap=driver == "GPKG"), crs="EPSG:4326")
+            lines = line_geometries(lon_a, lat_a, lon_b, lat_b, drawn, unwrap=driver == "GPKG")
+            gdf = gpd.GeoDataFrame(round_frame(frame) if rounded else frame, geometry=lines, crs="EPSG:4326")
             pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
                                     use_arrow=_have_arrow(), **_layer_options(driver, first))
         first = False
