@@ -160,6 +160,9 @@ def test_kml_of_the_screening(scenario):
     assert len(links) == 6
     (error,) = folders["error (1)"].findall("k:Placemark", NS)
     assert error.find("k:LineString", NS) is None and error.find("k:MultiGeometry", NS) is None
+    data = {d.get("name"): d.findtext("k:value", namespaces=NS) for d in error.iter(f"{{{NS['k']}}}Data")}
+    assert "fade_margin_db" not in data and "line_of_sight" not in data  # unknown: left out, not "false"
+    assert "same position" in data["problem"]
     crossing = [p for p in links if p.find("k:MultiGeometry", NS) is not None]
     assert len(crossing) == 3  # A-B, A2-B and B-C
     for p in crossing:

@@ -115,9 +115,12 @@ def _description(numbers: dict[str, Any], heading: str = "") -> str:
 
 
 def _extended(numbers: dict[str, Any]):
+    """``ExtendedData`` of the known numbers; an unknown one (None, NaN) is left out, KML's way of saying NULL."""
     from fastkml import Data, ExtendedData
 
-    return ExtendedData(elements=[Data(name=k, value=_text(v)) for k, v in numbers.items()])
+    known = {k: v for k, v in numbers.items()
+             if v is not None and not (isinstance(v, (float, np.floating)) and not np.isfinite(v))}
+    return ExtendedData(elements=[Data(name=k, value=_text(v)) for k, v in known.items()])
 
 
 def _styles() -> list:
