@@ -218,6 +218,7 @@ def record_numbers(record: dict) -> dict[str, Any]:
         "azimuth_a_to_b_deg": record.get("azimuth_a_to_b_deg"),
         "worst_clearance_m": clear.get("worst_clearance_m"),
         "worst_f1_fraction": clear.get("worst_f1_fraction"),
+        "wc_worst_clearance_m": (worst.get("clearance") or {}).get("worst_clearance_m"),
         "fade_margin_db": budget.get("fade_margin_db"),
         "k": record.get("k"),
         "wc_worst_f1_fraction": (worst.get("clearance") or {}).get("worst_f1_fraction"),

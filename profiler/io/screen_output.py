@@ -372,16 +372,17 @@ def _kml_links(frame, geoms) -> list:
     from .kml import KmlLink
 
     keys = ("rank", "distance_km", "fade_margin_db", "wc_fade_margin_db", "worst_clearance_m", "worst_f1_fraction",
-            "wc_worst_f1_fraction", "line_of_sight", "meets_criterion", "availability_pct", "meets_availability",
-            "mast_raise_m", "problem")
+            "wc_worst_clearance_m", "wc_worst_f1_fraction", "line_of_sight", "meets_criterion", "availability_pct",
+            "meets_availability", "availability_note", "mast_raise_m", "problem")
     present = [k for k in keys if k in frame.columns]
     out = []
     records = frame[["site_a", "site_b", "verdict", *present]].to_dict("records")
     for row, geom in zip(records, geoms):
         parts = [] if geom is None else [shapely.get_coordinates(g) for g in shapely.get_parts(geom)]
         numbers = {k: (None if _missing(row[k]) else row[k]) for k in present}
-        if not numbers.get("problem"):
-            numbers.pop("problem", None)
+        for text in ("problem", "availability_note"):  # empty text: nothing to say
+            if not numbers.get(text):
+                numbers.pop(text, None)
         out.append(KmlLink(f"{row['site_a']} - {row['site_b']}", Verdict(row["verdict"]), parts, numbers))
     return out
 
