@@ -173,3 +173,14 @@ def test_kml_of_the_screening(scenario):
     styles = {s.get("id") for s in doc.iter(f"{{{NS['k']}}}Style")}
     for p in links:
         assert p.findtext("k:styleUrl", namespaces=NS).lstrip("#") in styles
+
+
+def test_csv_geometry_refused_before_any_work_from_python(tmp_path):
+    from profiler.budget import Radio
+    from profiler.errors import InputError
+    from profiler.screening import screen
+    from tests._screening_data import DEMO_DEM, DEMO_SITES
+
+    with pytest.raises(InputError, match="CSV output only"):
+        screen(DEMO_SITES, DEMO_DEM, Radio(5.8), out=tmp_path / "r.gpkg", workers=1, csv_geometry="wkt")
+    assert list(tmp_path.iterdir()) == []  # no staging, no lock, no result

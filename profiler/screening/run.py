@@ -21,8 +21,8 @@ import numpy as np
 from ..budget import Radio
 from ..errors import InputError
 from ..io.columns import STAGED_COLUMNS
-from ..io.screen_output import (check_output_path, check_outputs_spare_inputs, output_paths, rank_order,
-                                write_outputs)
+from ..io.screen_output import (check_csv_geometry, check_output_path, check_outputs_spare_inputs, output_paths,
+                                rank_order, write_outputs)
 from ..io.sites import BadRow, SiteTable
 from ..io.stage import (RunLock, Stage, crash_point, finish_renames, lock_path, pending_renames,
                         staging_folder)
@@ -189,6 +189,7 @@ def _screen_to(
     if chunk_pairs < 1:
         raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
     check_output_path(out)
+    check_csv_geometry(csv_geometry, out)  # before the work, not at the final write
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
     check_outputs_spare_inputs(out, [*inputs, *_raster_files(model)])
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
