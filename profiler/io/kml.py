@@ -10,8 +10,9 @@ ground (``tessellate``, ``clampToGround``).  A link that could not be
 profiled keeps its placemark (name, problem) without a geometry.  Each
 placemark carries a description table and ``ExtendedData`` of its key
 numbers; the document's ``ExtendedData`` holds the run description as JSON
-(``run_json``).  KMZ is a zip holding ``doc.kml`` (KML 2.2, section 6.1: the
-first ``.kml`` entry is the root document).
+(``run_json``).  KMZ is a ZIP archive holding ``doc.kml`` as its first entry,
+which viewers take as the root document (as OGC 07-147r2 describes KMZ; the
+clause is from memory, not checked).
 
 Colours are terrahop's own colour-blind-safe set (the Okabe-Ito hues of
 :data:`profiler.sheets.style.COLOURS`, as on the sheets); lines also differ
@@ -59,7 +60,7 @@ VERDICT_MEANING: dict[Verdict, str] = {
 
 
 def kml_colour(hex_rgb: str, alpha: int = 255) -> str:
-    """KML colour ``aabbggrr`` (KML 2.2, 16.9 kml:color) of ``#RRGGBB``."""
+    """KML colour ``aabbggrr`` (``kml:colorType`` of the KML 2.2 schema: alpha, blue, green, red) of ``#RRGGBB``."""
     h = hex_rgb.lstrip("#")
     return f"{alpha:02x}{h[4:6]}{h[2:4]}{h[0:2]}".lower()
 
