@@ -98,9 +98,12 @@ def write_records_kml(kml_path: str, records: list, ends: list, job, min_margin_
         "fade_margin_db": np.array([value(r, "budget", "fade_margin_db") for r in records]),
     }
     codes = verdicts(cols, min_margin_db)
+    # The rasters the engine read (a fetched --terrain dataset's VRT included), from the records' provenance.
+    used = [src.get("path") for r in records for src in (r.get("provenance") or {}).get("elevation_sources", [])]
+    dem = list(dict.fromkeys(p for p in used if p)) or list(job.rasters)
     description = describe_run(
         command=command_words(), radio=job.radio, settings=job.settings, min_margin_db=min_margin_db,
-        dem=job.rasters, surface=job.surface_rasters, sites_file=sites_file,
+        dem=dem, surface=job.surface_rasters, sites_file=sites_file,
         other_inputs={"link_files": [f for f in link_files if f],
                       "obstruction_layers": [getattr(spec, "path", spec) for spec in job.obstruction_layers]},
     )
