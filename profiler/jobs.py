@@ -106,6 +106,8 @@ class LinkJob:
     #: Radio profile applied (profiler.equipment.modulation.RadioPlan) and EIRP limit (EirpLimit), or None.
     radio_plan: Any = None
     eirp_limit: Any = None
+    #: Fade margin, dB, a link needs at the design k to be viable (--min-margin-db, [analysis]); None: default.
+    min_margin_db: float | None = None
 
 
 def default_text(name: str) -> str:
@@ -272,6 +274,8 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
     antennas = resolve_antennas(spec, opts)
     radio = with_antenna_gains(resolve_radio(opts, _one_step_keys(spec.radio), spec.path), antennas)
     radio, radio_plan, eirp_limit = resolve_radio_plan(opts, spec.radio, spec.analysis, radio, spec.path)
+    min_margin_db = _checked(opts, spec.analysis, "min_margin_db", opt="min_margin_db", table="analysis",
+                             source=spec.path)
     settings = resolve_settings(opts, spec.analysis, spec.climate, spec.path)
     return LinkJob(
         title=spec.title or f"{a.name} - {b.name}",
@@ -286,6 +290,7 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         terrain=terrain,
         radio_plan=radio_plan,
         eirp_limit=eirp_limit,
+        min_margin_db=min_margin_db,
         **_resolve_urban(spec, opts),
         antenna_a=antennas.get("a"),
         antenna_b=antennas.get("b"),
@@ -476,13 +481,12 @@ def resolve_radio_plan(opts: dict[str, Any], section: dict[str, Any], analysis: 
         limit = EirpLimit(limit_value, "--max-eirp-dbm" if opts.get("max_eirp_dbm") is not None
                           else f"{where} [radio] max_eirp_dbm")
     if path is None:
-        for key, value in (("channel_mhz", channel), ("min_margin_db", margin)):
-            if value is not None:
-                if opts.get(key) is not None:
-                    raise InputError(f"{PARAMETER} applies to a radio profile's steps: give a radio profile as well",
-                                     parameter=key)
-                table = "analysis" if key == "min_margin_db" else "radio"
-                raise InputError(f"{where}: [{table}] {key} applies to a radio profile's steps: give [radio] profile")
+        # min_margin_db without a profile is fine: it is also the viable margin of the verdict (--kml).
+        if channel is not None:
+            if opts.get("channel_mhz") is not None:
+                raise InputError(f"{PARAMETER} applies to a radio profile's steps: give a radio profile as well",
+                                 parameter="channel_mhz")
+            raise InputError(f"{where}: [radio] channel_mhz applies to a radio profile's steps: give [radio] profile")
         return radio, None, limit
     for key in PROFILE_GIVES:
         if opts.get(key) is not None:

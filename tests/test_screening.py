@@ -209,7 +209,7 @@ def test_csv_and_geojson_outputs(tmp_path, ext, sites25):
     out = tmp_path / f"r{ext}"
     summary = _run(sites25, out, max_km=5.0)
     companion = tmp_path / f"r-sites{ext}"
-    assert summary.outputs == (str(out), str(companion))
+    assert summary.outputs == (str(out), str(companion), str(tmp_path / f"r{ext}.run.json"))
     links = pd.read_csv(out) if ext == ".csv" else gpd.read_file(out)
     assert len(links) == summary.pairs
     if ext == ".geojson":

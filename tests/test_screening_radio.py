@@ -26,10 +26,12 @@ FLAGS = ["--freq-ghz", "18", "--tx-power-dbm", "20", "--gain-a-dbi", "38", "--ga
 
 
 def _screen(tmp_path, sites, *extra):
-    out = tmp_path / "r.csv"
+    out = tmp_path / "r.gpkg"  # full precision (CSV rounds to meaningful digits)
     result = run_command(["screen", str(sites), "--dem", str(DEMO_DEM), *FLAGS, "-o", str(out), *extra])
     assert result.exit_code == 0, result.stderr
-    return pd.read_csv(out), result
+    import pyogrio
+
+    return pd.DataFrame(pyogrio.read_dataframe(out, layer="links", read_geometry=False)), result
 
 
 def test_a_screened_pair_gives_exactly_the_modulation_of_terrahop_link(tmp_path):

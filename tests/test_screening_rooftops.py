@@ -42,10 +42,12 @@ def surroundings():
 
 
 def _screen(tmp_path, surroundings, job, name="r.csv", sites=ROOFTOPS, **kw):
-    out = tmp_path / name
+    out = (tmp_path / name).with_suffix(".gpkg")  # full precision (CSV rounds to meaningful digits)
     summary = screen(str(sites), str(DEMO_DEM), job.radio, job.settings, out, workers=kw.pop("workers", 1),
                      surroundings=surroundings, **kw)
-    return summary, pd.read_csv(out, keep_default_na=True)
+    import pyogrio
+
+    return summary, pd.DataFrame(pyogrio.read_dataframe(out, layer="links", read_geometry=False))
 
 
 def _link_record(job, row, mount_a, mount_b):

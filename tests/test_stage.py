@@ -146,8 +146,8 @@ def test_rows_written_after_the_last_commit_are_cut_away(interrupted, sites, tmp
 
 # --------------------------------------------------------------------------- final write
 
-STEPS = ["links written", "sites written", "marker written", "rename 1 of 2 done", "rename 2 of 2 done",
-         "staging removed"]
+STEPS = ["links written", "sites written", "marker written", "rename 1 of 3 done", "rename 2 of 3 done",
+         "rename 3 of 3 done", "staging removed"]  # the third file renamed is the run description, r.run.json
 
 
 class Crash(Exception):
@@ -188,10 +188,10 @@ def test_a_crash_at_any_step_of_the_final_write_leaves_the_old_pair_or_the_new(
     assert seen[-1] == step
     state = (out.read_bytes(), out_sites.read_bytes())
     staging = screening.staging_folder(out)
-    if STEPS.index(step) < STEPS.index("rename 1 of 2 done"):
+    if STEPS.index(step) < STEPS.index("rename 1 of 3 done"):
         assert state == old  # nothing renamed yet
         assert (staging / "finish.json").exists() == (step == "marker written")
-    elif step == "rename 1 of 2 done":
+    elif step == "rename 1 of 3 done":
         assert state == (new[0], old[1]) and (staging / "finish.json").exists()  # finished by the next run
     else:
         assert state == new
@@ -208,7 +208,7 @@ def test_a_crash_at_any_step_of_the_final_write_leaves_the_old_pair_or_the_new(
             _run(sites, out, resume=True, overwrite=True)
     else:
         summary = _run(sites, out, resume=True, overwrite=True)
-        assert summary.pairs > 0 and summary.outputs == (str(out), str(out_sites))
+        assert summary.pairs > 0 and summary.outputs == (str(out), str(out_sites), str(tmp_path / "r.csv.run.json"))
     assert (out.read_bytes(), out_sites.read_bytes()) == new
     assert not staging.exists()
 

@@ -48,6 +48,7 @@ __all__ = [
     "analyse_resolved",
     "antenna_options",
     "date_option",
+    "command_words",
 ]
 
 
@@ -254,7 +255,8 @@ radio_profile_options = _compose(
 #: The margin a modulation step needs to be chosen (link, sheet, heights; screen has its own --min-margin-db).
 step_margin_option = _option(
     "--min-margin-db", type=float, default=None, metavar="DB",
-    help="With --radio: fade margin at the design k a modulation step needs to be chosen, dB [default: 10].")
+    help="Fade margin at the design k a link needs to count as viable, dB [default: 10]: with --radio the "
+         "margin a modulation step needs to be chosen, with --kml the line between viable and marginal.")
 
 analysis_options = _compose(
     _option("--k", "k", default=None, metavar="K",
@@ -413,6 +415,42 @@ def analyse_resolved(job: Any, model: Any, surroundings: Any, *, mount_a: Any = 
     from ..jobs import analyse_job
 
     return analyse_job(job, model, surroundings, mount_a=mount_a, mount_b=mount_b)
+
+
+# --- the command line, for the run description of written files --------------
+
+
+def command_words() -> list[str]:
+    """The command being run as a list of words (``["terrahop", "screen", "sites.csv", "--dem", ...]``).
+
+    The process's own arguments when it is the ``terrahop`` program (or
+    ``python -m profiler``); otherwise (click's test runner, another program
+    calling the command) rebuilt from the options given on the command line.
+    """
+    import sys
+    from pathlib import Path
+
+    ctx = click.get_current_context()
+    argv = list(sys.argv)
+    if argv and Path(argv[0]).name in ("terrahop", "__main__.py") and ctx.info_name in argv[1:]:
+        return ["terrahop", *argv[1:]]
+    words = ["terrahop", str(ctx.info_name)]
+    source = click.core.ParameterSource.COMMANDLINE
+    for param in ctx.command.params:
+        if param.name is None or ctx.get_parameter_source(param.name) != source:
+            continue
+        value = ctx.params.get(param.name)
+        values = list(value) if isinstance(value, (list, tuple)) and getattr(param, "multiple", False) or \
+            isinstance(param, click.Argument) and isinstance(value, (list, tuple)) else [value]
+        for v in values:
+            text = ",".join(map(str, v)) if isinstance(v, tuple) else str(v)
+            if isinstance(param, click.Argument):
+                words.append(text)
+            elif getattr(param, "is_flag", False):
+                words.append(max(param.opts, key=len))
+            else:
+                words += [max(param.opts, key=len), text]
+    return words
 
 
 _FROM_JOBS = {"ResolvedLink": "LinkJob", "resolve_climate": "resolve_climate", "parse_number": "parse_number",

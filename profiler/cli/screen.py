@@ -154,9 +154,13 @@ def _screen_radio_options(func):
 @analysis_options
 @climate_options
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
-              help="Result file: .gpkg (layers links and sites), .geojson or .csv (sites beside it, "
-                   "as RESULT-sites). An existing result is kept unless --overwrite is given; "
-                   "a path that is one of the inputs is refused.")
+              help="Result file: .gpkg (layers links and sites, and a run table), .geojson or .csv (sites "
+                   "beside it, as RESULT-sites), or .kml/.kmz (sites and links for globe viewers); CSV, GeoJSON "
+                   "and KML get RESULT.run.json (e.g. r.csv.run.json), how the result was made. An existing "
+                   "result is kept unless --overwrite is given; a path that is one of the inputs is refused.")
+@click.option("--csv-geometry", default="none", show_default=True, metavar="none|wkt",
+              help="CSV output only: wkt adds a column 'wkt' with each link's line (and each site's point) "
+                   "as WKT in WGS84 degrees.")
 @click.option("--max-km", type=float, default=None, help="Only pairs at most this far apart, km [default: no limit].")
 @click.option("--pairs", "pairs_file", type=click.Path(dir_okay=False), default=None,
               help="CSV of the pairs to screen (two columns of site names: a,b) instead of all pairs; "
@@ -205,7 +209,7 @@ def _screen_radio_options(func):
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            antenna_file, antenna_col, max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler,
-           chunk_pairs, resume, restart, overwrite, quiet, above_roof, **opts) -> None:
+           chunk_pairs, resume, restart, overwrite, quiet, above_roof, csv_geometry, **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -224,6 +228,9 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
     inputs = [sites_file, pairs_file, *opts["dem"], antenna_file]
     _check_out(out, inputs)
+    from ..io.screen_output import check_csv_geometry
+
+    check_csv_geometry(csv_geometry, out)
     opts = _with_antenna_gains(antenna_file, opts)
     if scheduler is not None:
         from ..screening import check_scheduler_address
@@ -251,6 +258,8 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         rasters.append(fetched.vrt)
     model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
+    description = _run_description(radio, settings, min_margin_db, rasters, sites_file,
+                                   other_inputs=_other_inputs(opts, pairs_file, antenna_file, radios, surroundings))
     show = not quiet and sys.stderr.isatty()
     try:
         with _Progress(show) as bar:
@@ -260,6 +269,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
                 min_margin_db=min_margin_db, progress=bar.update,
                 surroundings=surroundings, above_roof=above_roof, radios=radios,
+                run_description=description, csv_geometry=csv_geometry,
             )
     except KeyboardInterrupt:
         click.echo(
@@ -298,6 +308,32 @@ def radio_line(radios) -> str:
         eirp = f", EIRP limit {limit.max_eirp_dbm:g} dBm" if limit is not None else ""
         parts.append(f"{what}{eirp}: {n} site{'s' if n != 1 else ''}")
     return "radios: " + "; ".join(parts)
+
+
+def _run_description(radio, settings, min_margin_db: float, rasters: list, sites_file: str,
+                     other_inputs: dict | None = None) -> dict:
+    """How this run's result is made (written into the GeoPackage or beside the file)."""
+    from ..io.run_description import describe_run
+    from .options import command_words
+
+    return describe_run(command=command_words(), radio=radio, settings=settings, min_margin_db=min_margin_db,
+                        dem=rasters, surface=list(other_inputs.pop("surface", []) if other_inputs else []),
+                        sites_file=sites_file, other_inputs=other_inputs)
+
+
+def _other_inputs(opts: dict, pairs_file, antenna_file, radios, surroundings) -> dict:
+    """The run's other input files (hashed in the run description): pairs, layers, antennas, radio profiles."""
+    import os
+
+    profiles = [] if radios is None else [n for n in radios.names if os.path.isfile(n)]
+    return {
+        "surface": list(opts.get("surface") or ()),
+        "pairs_file": pairs_file,
+        "obstruction_layers": None if surroundings is None else
+        sorted({layer.spec.path for layer in surroundings.layers}),
+        "antenna_file": antenna_file,
+        "radio_profiles": profiles or None,
+    }
 
 
 def _check_flags(opts: dict, resume: bool, restart: bool, pairs_file, hubs, max_km, min_margin_db) -> None:

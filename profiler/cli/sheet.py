@@ -13,6 +13,7 @@ from ..errors import InputError
 from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
 from .options import (analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
+from .link import KML_MIN_MARGIN_DB, check_kml_request, kml_options, write_records_kml
 from .screen import SHOWN_BAD_ROWS
 
 __all__ = ["sheet", "build_sheet_contents"]
@@ -20,7 +21,7 @@ __all__ = ["sheet", "build_sheet_contents"]
 _SUFFIX_FORMATS = {".pdf": "pdf", ".png": "png", ".svg": "svg"}
 
 
-def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
+def _from_link_files(files: tuple[str, ...], opts: dict, title: Any, kml: list | None = None) -> list:
     from ..sheets.build import sheet_contents
 
     contents: list = []
@@ -31,11 +32,14 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any) -> list:
             batch = analyse_resolved(resolved, model, surroundings)
             contents += sheet_contents(batch, model, title=title, checksums=checksums,
                                        vertical_crs=_vertical_crs(resolved))
+            if kml is not None:  # --kml: the records of the links drawn, with their ends and job
+                kml += [(batch.record(i), (resolved.site_a, resolved.site_b), resolved, f)
+                        for i in range(len(batch.problems)) if batch.problems[i] is None]
     return contents
 
 
 def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
-                opts: dict, title: Any) -> list:
+                opts: dict, title: Any, kml: list | None = None) -> list:
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
     from ..validation import same_place_problem
@@ -96,6 +100,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
             raise InputError(f"{pairs}: none of the selected pairs can be profiled on the given elevation data; "
                              f"first: {unprofiled[0]}")
         _echo_skipped(unprofiled)
+        if kml is not None:  # --kml: the records of the links drawn, with their ends and job
+            kml += [(batch.record(i), (sites_a[i], sites_b[i]), resolved, template) for i in good]
         return sheet_contents(batch, model, title=title, indices=good, vertical_crs=_vertical_crs(resolved))
 
 
@@ -122,17 +128,21 @@ def _agl(flag: float | None, column: float | None) -> float:
 
 
 def build_sheet_contents(link_files: tuple[str, ...], opts: dict, title: Any, *, pairs: str | None = None,
-                         layer: str | None = None, rows: str | None = None, best: int | None = None) -> list:
-    """Sheet contents for link files (or flags alone), or for pairs picked from a table; numbered 1..N."""
+                         layer: str | None = None, rows: str | None = None, best: int | None = None,
+                         kml: list | None = None) -> list:
+    """Sheet contents for link files (or flags alone), or for pairs picked from a table; numbered 1..N.
+
+    With ``kml`` (a list), (record, (site a, site b), job, link file) of each link drawn is appended to it.
+    """
     if pairs:
         if len(link_files) > 1:
             raise InputError("with --pairs give at most one link file (its terrain, radio and analysis "
                              "settings apply to every pair)")
-        contents = _from_pairs(pairs, link_files[0] if link_files else None, layer, rows, best, opts, title)
+        contents = _from_pairs(pairs, link_files[0] if link_files else None, layer, rows, best, opts, title, kml)
     else:
         if rows or best is not None or layer:
             raise InputError("--rows, --best and --layer select rows of a pair table; give the table with --pairs")
-        contents = _from_link_files(link_files, opts, title)
+        contents = _from_link_files(link_files, opts, title, kml)
     n = len(contents)
     return [dataclasses.replace(c, sheet_number=i + 1, sheet_count=n) for i, c in enumerate(contents)]
 
@@ -187,10 +197,12 @@ def _output_format(out: str, fmt: str | None) -> str:
               help="Date in the title block [default: today]; written YYYY-MM-DD it also dates the magnetic "
                    "declination of the installer figures.")
 @click.option("--revision", default="A", show_default=True, help="Revision mark in the title block.")
+@kml_options
 @friendly_errors
 def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, rows: str | None, best: int | None,
           out: str, fmt: str | None, page: str, units: str, dpi: int, project: str, prepared_by: str,
-          checked_by: str, date_text: str | None, revision: str, **opts: Any) -> None:
+          checked_by: str, date_text: str | None, revision: str, kml_path: str | None = None,
+          **opts: Any) -> None:
     """Draw profile sheets for permit files: one page per link.
 
     LINK_FILES are TOML link files (several allowed; flags override their
@@ -207,7 +219,10 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
         date=date_text if date_text is not None else _dt.date.today().isoformat(), revision=revision,
     )
     opts = dict(opts, date=_declination_date(date_text))
-    contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best)
+    kml_margin_db = KML_MIN_MARGIN_DB if opts.get("min_margin_db") is None else float(opts["min_margin_db"])
+    check_kml_request(kml_path, kml_margin_db, [*link_files, pairs, *opts.get("dem", ()), out])
+    kml: list | None = [] if kml_path is not None else None
+    contents = build_sheet_contents(link_files, opts, title, pairs=pairs, layer=layer, rows=rows, best=best, kml=kml)
     paths = write_sheets(contents, out, fmt=fmt, page=page.lower(), units=units, dpi=dpi)
     n_pages = len(contents) + sum(continuation_pages(c) for c in contents)
     n_pages += sum("modulation" in c.record for c in contents)  # the radio page of a link with a radio profile
@@ -217,3 +232,17 @@ def sheet(link_files: tuple[str, ...], pairs: str | None, layer: str | None, row
     else:
         for p in paths:
             click.echo(f"wrote {p}")
+    if kml_path is not None and kml:
+        _write_kml(kml_path, kml, kml_margin_db, pairs)
+
+
+def _write_kml(kml_path: str, drawn: list, min_margin_db: float, pairs: str | None) -> None:
+    """--kml: every link of the sheets in one KML, with the run description (first job's settings)."""
+    records = [r for r, _, _, _ in drawn]
+    ends = [e for _, e, _, _ in drawn]
+    jobs = [j for _, _, j, _ in drawn]
+    files = list(dict.fromkeys(f for _, _, _, f in drawn if f))
+    written = write_records_kml(kml_path, records, ends, jobs[0], min_margin_db, files, sites_file=pairs,
+                                per_link=any((j.radio, j.settings) != (jobs[0].radio, jobs[0].settings)
+                                             for j in jobs))
+    click.echo(f"wrote {', '.join(written)}")

@@ -1,13 +1,20 @@
 """Write screening results: a line layer of pairs and a point layer of sites.
 
-GeoPackage (.gpkg: layers ``links`` and ``sites`` in one file), GeoJSON
-(.geojson/.json) or CSV (.csv), chosen by the output's extension; for
-GeoJSON and CSV the sites go to ``<stem>-sites<ext>`` beside it.  Rows are
+GeoPackage (.gpkg: layers ``links`` and ``sites`` in one file, plus the
+``run`` table and GeoPackage metadata of :mod:`profiler.io.gpkg_run`),
+GeoJSON (.geojson/.json, RFC 7946), CSV (.csv) or KML/KMZ (.kml/.kmz, sites
+and links in one file, :mod:`profiler.io.kml`), chosen by the output's
+extension; for GeoJSON and CSV the sites go to ``<stem>-sites<ext>`` beside
+it, and CSV, GeoJSON and KML get the run description as ``<name>.run.json`` (``r.csv.run.json``).
+Lines follow the geodesic (:mod:`profiler.io.geolines`); rows that could not
+be profiled have no geometry.  CSV, GeoJSON and KML numbers are rounded per
+:mod:`profiler.io.rounding`; the GeoPackage keeps full precision.  Rows are
 ranked by fade margin (best first, pairs that could not be profiled last)
 and written in batches, so memory stays bounded.  Each file is written under
 a temporary name in the staging folder; when both are complete the renames
 are recorded and done (:func:`profiler.io.stage.finish_renames`), so the
-result and its ``-sites`` file are replaced together or not at all.
+result, its ``-sites`` file and its run description are replaced together
+or not at all.
 """
 
 from __future__ import annotations
@@ -23,11 +30,16 @@ from ..availability import availability_note
 from ..errors import InputError
 from .columns import (CODED_COLUMNS, FLAG_COLUMNS, KEPT_IN_ERROR_ROWS, LINK_COLUMNS, RADIO_COLUMNS, SITE_COLUMNS,
                       VERDICTS, PairStatus, Verdict)
+from .run_description import sidecar_path, unwritable_reason, write_sidecar
 from .stage import crash_point, finish_renames, lock_path, staging_folder
 
-__all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES", "LINK_COLUMNS", "SITE_COLUMNS", "rank_order"]
+__all__ = ["write_outputs", "output_paths", "check_output_path", "check_outputs_spare_inputs", "OUTPUT_SUFFIXES",
+           "LINK_COLUMNS", "SITE_COLUMNS", "rank_order", "check_csv_geometry", "CSV_GEOMETRY"]
 
-OUTPUT_SUFFIXES = {".gpkg": "GPKG", ".geojson": "GeoJSON", ".json": "GeoJSON", ".csv": "CSV"}
+OUTPUT_SUFFIXES = {".gpkg": "GPKG", ".geojson": "GeoJSON", ".json": "GeoJSON", ".csv": "CSV", ".kml": "KML",
+                   ".kmz": "KML"}
+#: Values of ``--csv-geometry``: none (no geometry column, the default) or wkt (a ``wkt`` column).
+CSV_GEOMETRY = ("none", "wkt")
 
 #: Rows per write batch.
 WRITE_BATCH = 50_000
@@ -160,7 +172,7 @@ def _lines(frame) -> Any:
 
 def write_outputs(
     out: str | os.PathLike, stage, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
-    settings, radio_columns: bool = False,
+    settings, radio_columns: bool = False, run_description: dict | None = None, csv_geometry: str = "none",
 ) -> list[str]:
     """Write the ranked links and the sites; return the paths written.
 
@@ -169,19 +181,23 @@ def write_outputs(
     all columns of rows ``start:stop`` in rank order (:func:`rank_order`), so
     only one batch of rows is in memory at a time.  ``stage`` is the run's
     :class:`profiler.io.stage.Stage`: the files are written in its folder,
-    then renamed into place together.
+    then renamed into place together.  ``run_description``
+    (:mod:`profiler.io.run_description`) goes into the GeoPackage or the
+    ``.run.json`` sidecar; ``csv_geometry`` is ``none`` or ``wkt``.
     """
     import pyogrio
 
     out = Path(out)
     suffix = out.suffix.lower()
     check_output_path(out)
+    check_csv_geometry(csv_geometry, out)
     driver = OUTPUT_SUFFIXES[suffix]
     # The file is private until renamed into place: no need for SQLite's crash journal.
     saved = {k: pyogrio.get_gdal_config_option(k) for k in _FAST_SQLITE}
     pyogrio.set_gdal_config_options(_FAST_SQLITE)
     try:
-        return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings, radio_columns)
+        return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings,
+                      run_description, csv_geometry, radio_columns)
     finally:
         pyogrio.set_gdal_config_options(saved)
 
@@ -190,17 +206,31 @@ def check_output_path(out: str | os.PathLike) -> None:
     """Raise InputError unless ``out`` has a known extension and a folder that exists."""
     out = Path(out)
     if out.suffix.lower() not in OUTPUT_SUFFIXES:
-        raise InputError(f"output {out}: unknown extension {out.suffix!r}; use .gpkg, .geojson or .csv")
-    if not out.parent.exists():
-        raise InputError(f"output {out}: the folder {out.parent} does not exist")
+        raise InputError(f"output {out}: unknown extension {out.suffix!r}; use .gpkg, .geojson, .csv, .kml or .kmz")
+    reason = unwritable_reason(out)
+    if reason is not None:
+        raise InputError(f"output {out}: {reason}")
+
+
+def check_csv_geometry(csv_geometry: str, out: str | os.PathLike) -> None:
+    """Raise InputError for an unknown ``--csv-geometry`` or one given with an output that is not CSV."""
+    if csv_geometry not in CSV_GEOMETRY:
+        raise InputError(f"--csv-geometry {csv_geometry!r} is unknown; use one of {', '.join(CSV_GEOMETRY)}")
+    if csv_geometry != "none" and OUTPUT_SUFFIXES.get(Path(out).suffix.lower()) != "CSV":
+        raise InputError(f"--csv-geometry {csv_geometry} applies to CSV output only; --out {out} is not .csv "
+                         "(GeoPackage, GeoJSON and KML carry their geometry)")
 
 
 def output_paths(out: str | os.PathLike) -> list[Path]:
-    """The files a run writing ``out`` leaves: the result and, for CSV and GeoJSON, its sites file."""
+    """The files a run writing ``out`` leaves: the result, for CSV and GeoJSON its sites file, and
+    for CSV, GeoJSON and KML the run description ``<name>.run.json`` (``r.csv.run.json``)."""
     out = Path(out)
-    if OUTPUT_SUFFIXES.get(out.suffix.lower()) == "GPKG":
+    driver = OUTPUT_SUFFIXES.get(out.suffix.lower())
+    if driver == "GPKG":
         return [out]
-    return [out, out.with_name(f"{out.stem}-sites{out.suffix}")]
+    if driver == "KML":
+        return [out, sidecar_path(out)]
+    return [out, out.with_name(f"{out.stem}-sites{out.suffix}"), sidecar_path(out)]
 
 
 def check_outputs_spare_inputs(out: str | os.PathLike, inputs) -> None:
@@ -211,7 +241,8 @@ def check_outputs_spare_inputs(out: str | os.PathLike, inputs) -> None:
     the end).  Paths are compared after resolving links, and by identity for
     files that exist (hard links, case-insensitive file systems).
     """
-    written = [(p, "the result" if k == 0 else "the result's sites file") for k, p in enumerate(output_paths(out))]
+    written = [(p, "the result" if k == 0 else "the run description" if p.name.endswith(".run.json")
+                else "the result's sites file") for k, p in enumerate(output_paths(out))]
     written += [(lock_path(out), "the lock file"), (staging_folder(out), "the staging folder")]
     for given in inputs:
         if given is None or str(given) == "":
@@ -245,11 +276,14 @@ def _have_arrow() -> bool:
     return importlib.util.find_spec("pyarrow") is not None
 
 
-def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings,
-           radio_columns: bool = False) -> list[str]:
+def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings, run_description,
+           csv_geometry, radio_columns: bool = False) -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
+
+    from .geolines import line_geometries
+    from .rounding import round_frame
 
     verdict_names = [VERDICTS[k].value for k in sorted(VERDICTS)]
     order = rank_order(keys)
@@ -258,23 +292,36 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
     del order
     staging = stage.folder
     tmp_links = staging / f"links.tmp{suffix}"
-    sites_out = out if driver == "GPKG" else out.with_name(f"{out.stem}-sites{out.suffix}")
-    tmp_sites = tmp_links if driver == "GPKG" else staging / f"sites.tmp{suffix}"
-    for p in {tmp_links, tmp_sites}:
+    sites_out = out if driver in ("GPKG", "KML") else out.with_name(f"{out.stem}-sites{out.suffix}")
+    tmp_sites = tmp_links if driver in ("GPKG", "KML") else staging / f"sites.tmp{suffix}"
+    tmp_run = staging / "run.tmp.json"
+    for p in {tmp_links, tmp_sites, tmp_run}:
         if p.exists():
             p.unlink()
+    kml_links: list = []
     first = True
     for start in range(0, max(n_rows, 1), WRITE_BATCH):
         stop = min(start + WRITE_BATCH, n_rows)
-        frame = _link_frame(ranked(start, stop), ranked_codes[start:stop], problems, sites, settings,
-                            verdict_names, radio_columns)
+        batch_codes = ranked_codes[start:stop]
+        frame = _link_frame(ranked(start, stop), batch_codes, problems, sites, settings, verdict_names,
+                            radio_columns)
         frame.insert(0, "rank", np.arange(start + 1, stop + 1))
+        # A row that could not be profiled gets no line (not one between its two ends).
+        drawn = batch_codes != Verdict.ERROR.code
+        lon_a, lat_a, lon_b, lat_b = (frame[c].to_numpy(dtype=float) for c in ("lon_a", "lat_a", "lon_b", "lat_b"))
         if driver == "CSV":
-            frame.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)
+            written = round_frame(frame)
+            if csv_geometry == "wkt":
+                written["wkt"] = _wkt(line_geometries(lon_a, lat_a, lon_b, lat_b, drawn))
+            written.to_csv(tmp_links, mode="w" if first else "a", header=first, index=False)
+        elif driver == "KML":
+            kml_links += _kml_links(round_frame(frame), line_geometries(lon_a, lat_a, lon_b, lat_b, drawn))
         else:
-            gdf = gpd.GeoDataFrame(frame, geometry=_lines(frame), crs="EPSG:4326")
+            rounded = driver == "GeoJSON"
+            lines = line_geometries(lon_a, lat_a, lon_b, lat_b, drawn, unwrap=driver == "GPKG")
+            gdf = gpd.GeoDataFrame(round_frame(frame) if rounded else frame, geometry=lines, crs="EPSG:4326")
             pyogrio.write_dataframe(gdf, tmp_links, layer="links", driver=driver, append=not first,
-                                    use_arrow=_have_arrow())
+                                    use_arrow=_have_arrow(), **_layer_options(driver, first))
         first = False
         del frame
     stats = _site_stats(len(sites), keys, codes, sites.names)
@@ -289,23 +336,95 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
     for col in sites.extra.columns:
         if col not in site_frame:
             site_frame[col] = sites.extra[col].to_numpy()
-    if driver == "CSV":
-        site_frame.to_csv(tmp_sites, index=False)
-    else:
-        import shapely
+    import shapely
 
-        gdf = gpd.GeoDataFrame(site_frame, geometry=shapely.points(sites.lon_deg, sites.lat_deg), crs="EPSG:4326")
+    points = shapely.points(sites.lon_deg, sites.lat_deg)
+    if driver == "CSV":
+        written = round_frame(site_frame)
+        if csv_geometry == "wkt":
+            written["wkt"] = _wkt(points)
+        written.to_csv(tmp_sites, index=False)
+    elif driver == "KML":
+        from .kml import write_kml
+
+        write_kml(tmp_links, out.stem, kml_links, _kml_sites(round_frame(site_frame)), run_description)
+    else:
+        rounded = driver == "GeoJSON"
+        gdf = gpd.GeoDataFrame(round_frame(site_frame) if rounded else site_frame, geometry=points, crs="EPSG:4326")
         pyogrio.write_dataframe(gdf, tmp_sites, layer="sites", driver=driver, append=driver == "GPKG",
-                                use_arrow=_have_arrow())
+                                use_arrow=_have_arrow(), **_layer_options(driver, driver != "GPKG"))
+    if driver == "GPKG" and run_description is not None:
+        from .gpkg_run import write_run_tables
+
+        write_run_tables(tmp_links, run_description, ("links", "sites"))
     _fsync(tmp_links)
     crash_point("links written")
     renames = [(tmp_links, out)]
-    if driver != "GPKG":
+    if driver not in ("GPKG", "KML"):
         _fsync(tmp_sites)
         crash_point("sites written")
         renames.append((tmp_sites, sites_out))
+    if driver != "GPKG" and run_description is not None:
+        write_sidecar(tmp_run, run_description)
+        _fsync(tmp_run)
+        renames.append((tmp_run, sidecar_path(out)))
     finish_renames(stage, renames)
     return [str(dst) for _, dst in renames]
+
+
+def _layer_options(driver: str, creating: bool) -> dict:
+    """GeoJSON per RFC 7946 (no ``crs`` member, lines cut at the antimeridian by us), 6 decimals of degree."""
+    if driver == "GeoJSON" and creating:
+        return {"layer_options": {"RFC7946": "YES", "COORDINATE_PRECISION": "6"}}
+    return {}
+
+
+def _wkt(geoms) -> Any:
+    """WKT of each geometry, 6 decimals of degree; empty where there is none."""
+    import shapely
+
+    text = shapely.to_wkt(geoms, rounding_precision=6, trim=True)
+    return np.where(shapely.is_missing(geoms), "", text)
+
+
+def _kml_links(frame, geoms) -> list:
+    """KML links of one batch of the links layer (rounded), in rank order."""
+    import shapely
+
+    from .kml import KmlLink
+
+    keys = ("rank", "distance_km", "fade_margin_db", "wc_fade_margin_db", "worst_clearance_m", "worst_f1_fraction",
+            "wc_worst_clearance_m", "wc_worst_f1_fraction", "line_of_sight", "meets_criterion", "availability_pct",
+            "meets_availability", "availability_note", "mast_raise_m", "problem")
+    present = [k for k in keys if k in frame.columns]
+    out = []
+    records = frame[["site_a", "site_b", "verdict", *present]].to_dict("records")
+    for row, geom in zip(records, geoms):
+        parts = [] if geom is None else [shapely.get_coordinates(g) for g in shapely.get_parts(geom)]
+        numbers = {k: (None if _missing(row[k]) else row[k]) for k in present}
+        for text in ("problem", "availability_note"):  # empty text: nothing to say
+            if not numbers.get(text):
+                numbers.pop(text, None)
+        out.append(KmlLink(f"{row['site_a']} - {row['site_b']}", Verdict(row["verdict"]), parts, numbers))
+    return out
+
+
+def _kml_sites(frame) -> list:
+    from .kml import KmlSite
+
+    keys = [c for c in frame.columns if c not in ("name",)]
+    return [KmlSite(str(r["name"]), float(r["lon"]), float(r["lat"]),
+                    {k: (None if _missing(r[k]) else r[k]) for k in keys})
+            for r in frame.to_dict("records")]
+
+
+def _missing(value) -> bool:
+    import pandas as pd
+
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
 
 
 def _fsync(path: Path) -> None:

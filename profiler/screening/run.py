@@ -21,8 +21,8 @@ import numpy as np
 from ..budget import Radio
 from ..errors import InputError
 from ..io.columns import run_staged_columns
-from ..io.screen_output import (check_output_path, check_outputs_spare_inputs, output_paths, rank_order,
-                                write_outputs)
+from ..io.screen_output import (check_csv_geometry, check_output_path, check_outputs_spare_inputs, output_paths,
+                                rank_order, write_outputs)
 from ..io.sites import BadRow, SiteTable
 from ..io.stage import (RunLock, Stage, crash_point, finish_renames, lock_path, pending_renames,
                         staging_folder)
@@ -97,6 +97,8 @@ def screen(
     surroundings: Any = None,
     above_roof: bool = False,
     radios: Any = None,
+    run_description: dict | None = None,
+    csv_geometry: str = "none",
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -148,6 +150,12 @@ def screen(
         The sites' antenna heights are above the roof of the building each
         stands in (a ``mount`` column of ground/roof overrides it per site).
         Per-pair heights come in ``plan.heights``.
+    run_description : dict, optional
+        How the result was made (:func:`profiler.io.run_description.describe_run`),
+        written into the GeoPackage or beside the file; by default one naming
+        this call, the settings and the raster files.
+    csv_geometry : str
+        ``none`` (default) or ``wkt``: a ``wkt`` geometry column in CSV output.
 
     Returns
     -------
@@ -176,6 +184,9 @@ def screen(
     else:
         elevation = ElevationModel([model] if isinstance(model, (str, os.PathLike)) else list(model))
     try:
+        if run_description is None:
+            run_description = _default_description(elevation, radio, settings, min_margin_db,
+                                                   sites if isinstance(sites, (str, os.PathLike)) else None)
         if isinstance(sites, (str, os.PathLike)):
             inputs = [*inputs, sites]  # a result must not land on the sites file
         if not isinstance(sites, SiteTable):
@@ -184,7 +195,7 @@ def screen(
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
                    progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof,
-                   radios=radios)
+                   radios=radios, run_description=run_description, csv_geometry=csv_geometry)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -199,6 +210,7 @@ def _screen_to(
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
     surroundings: Any = None, above_roof: bool = False, radios: Any = None,
+    run_description: dict | None = None, csv_geometry: str = "none",
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -207,6 +219,7 @@ def _screen_to(
     if chunk_pairs < 1:
         raise InputError(f"chunk size must be at least 1 pair, got {chunk_pairs}")
     check_output_path(out)
+    check_csv_geometry(csv_geometry, out)  # before the work, not at the final write
     # sites.source is only a file name, so the sites file's path comes in ``inputs``.
     check_outputs_spare_inputs(out, [*inputs, *_raster_files(model), *_surroundings_files(surroundings)])
     sites, plan, bad = _covered_sites(sites, model, plan, bad_rows)
@@ -216,6 +229,8 @@ def _screen_to(
     with RunLock(lock_path(out), str(out)):
         run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
                    surroundings, heights, radios)
+        run.run_description = run_description
+        run.csv_geometry = csv_geometry
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
@@ -232,6 +247,15 @@ def _screen_to(
                                        + _spacing_warnings(model, sites, settings))
         finally:
             executor.close(cancel=True)
+
+
+def _default_description(model: ElevationModel, radio: Radio, settings: Settings, min_margin_db: float,
+                         sites_file: str | os.PathLike | None) -> dict:
+    """The run description of a call from Python: the call, the settings, the rasters and the sites file."""
+    from ..io.run_description import describe_run
+
+    return describe_run(command=["python", "-c", "profiler.screening.screen(...)"], radio=radio, settings=settings,
+                        min_margin_db=min_margin_db, dem=[s.path for s in model.sources], sites_file=sites_file)
 
 
 def _covered_sites(sites: SiteTable, model: ElevationModel, plan: PairPlan,
@@ -342,6 +366,8 @@ class _Run:
             self.fingerprint = hashlib.sha256((self.fingerprint + radios.key()).encode()).hexdigest()
         self.total = count_pairs(sites, plan)
         self.done_rows = self.done_chunks = self.resumed = 0
+        self.run_description: dict | None = None
+        self.csv_geometry = "none"
 
     def prepare(self, resume: bool, restart: bool, overwrite: bool) -> "ScreenSummary | None":
         """Finish a crashed final write, apply the overwrite rule, open or create the stage.
@@ -433,7 +459,8 @@ class _Run:
         problems = {int(p): str(m) for p, m in stage.problems()}
         ranked = stage.rank(rank_order(keys))
         outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings,
-                                radio_columns=self.radios is not None)
+                                radio_columns=self.radios is not None,
+                                run_description=self.run_description, csv_geometry=self.csv_geometry)
         summary = self._summary(done_rows, self.resumed, outputs)
         stage.discard()
         crash_point("staging removed")

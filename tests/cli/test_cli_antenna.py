@@ -155,24 +155,26 @@ def test_screen_antenna_column_equals_link_with_antennas(tmp_path, cli):
     sites.write_text("name,lat,lon,antenna_agl_m,antenna\n"
                      "Fellgate Depot,-30.543381,-20.947872,12,dish.toml\n"
                      "Kestrel Knoll,-30.407957,-20.860490,10,dish.toml\n")
-    out = tmp_path / "out.csv"
+    out = tmp_path / "out.gpkg"  # full precision (CSV rounds to meaningful digits)
     _run(cli, "screen", sites, "--dem", DEMO_DEM, "--freq-ghz", "18", "--tx-power-dbm", "18", "--loss-a-db", "0.5",
          "--loss-b-db", "0.5", "--bandwidth-mhz", "28", "--noise-figure-db", "7", "--required-snr-db", "22",
          "--polarisation", "vertical", "--rain-rate-mm-h", "42", "--target-availability-pct", "99.99",
          "--dn1", "-250", "--terrain-roughness-m", "35", "--out", out, "--workers", "1", "-q")
-    row = next(csv.DictReader(out.open()))
+    import pyogrio
+
+    row = pyogrio.read_dataframe(out, layer="links").iloc[0]
     link = json.loads(_run(cli, "link", DEMO6, "--antenna-a", DISH, "--antenna-b", DISH, "--json",
                            "--date", "2026-03-01").stdout)
     assert float(row["fade_margin_db"]) == pytest.approx(link["budget"]["fade_margin_db"], abs=1e-9)
     assert float(row["eirp_dbm"]) == pytest.approx(link["budget"]["eirp_dbm"], abs=1e-9)
     # the same with --antenna for every site
-    out2 = tmp_path / "out2.csv"
+    out2 = tmp_path / "out2.gpkg"
     plain = tmp_path / "plain.csv"
     plain.write_text("\n".join(line.rsplit(",", 1)[0] for line in sites.read_text().splitlines()) + "\n")
     _run(cli, "screen", plain, "--dem", DEMO_DEM, "--freq-ghz", "18", "--tx-power-dbm", "18", "--loss-a-db", "0.5",
          "--loss-b-db", "0.5", "--bandwidth-mhz", "28", "--noise-figure-db", "7", "--required-snr-db", "22",
          "--polarisation", "vertical", "--antenna", DISH, "--out", out2, "--workers", "1", "-q")
-    row2 = next(csv.DictReader(out2.open()))
+    row2 = pyogrio.read_dataframe(out2, layer="links").iloc[0]
     assert float(row2["fade_margin_db"]) == pytest.approx(link["budget"]["fade_margin_db"], abs=1e-9)
 
 

@@ -184,11 +184,13 @@ ROOFTOP_ARGS = ["--obstructions", REPO / "data/demo/town.gpkg#buildings",
 def test_screen_rooftop_candidates_equals_terrahop_link_with_the_same_layers(tmp_path):
     import pandas as pd
 
-    out = tmp_path / "rooftops.csv"
+    out = tmp_path / "rooftops.gpkg"  # full precision (CSV rounds to meaningful digits)
     proc = terrahop("screen", REPO / "data/demo/rooftops.csv", "--dem", DEMO_DEM, *RADIO, *ROOFTOP_ARGS,
                     "--out", out, "--workers", "1")
     assert "66 pairs of 12 sites screened" in proc.stdout and proc.stderr == ""
-    links = pd.read_csv(out)
+    import pyogrio
+
+    links = pd.DataFrame(pyogrio.read_dataframe(out, layer="links"))
     row = links[(links["site_a"] == "Linthorpe Library") & (links["site_b"] == "Harbour Row Flats")].iloc[0]
     rec = json.loads(terrahop("link", REPO / "examples/demo-5-rooftop.toml", "--surface",
                               REPO / "data/demo/town-surface.tif", "--json").stdout)
@@ -224,7 +226,8 @@ def test_screen_reports_bad_roof_sites_and_pair_heights_and_goes_on(tmp_path):
                               "--json").stdout)
     rec = rec[0] if isinstance(rec, list) else rec
     row = links.loc["Linthorpe Library"]
-    assert row["fade_margin_db"] == rec["budget"]["fade_margin_db"] and bool(row["line_of_sight"])
-    assert row["worst_f1_fraction"] == rec["clearance"]["worst_f1_fraction"]
-    assert row["agl_b_m"] == rec["sites"]["b"]["antenna_agl_m"]
+    # CSV figures are rounded to the README's digits per column kind (dB 2, F1 fractions 3, m 2).
+    assert row["fade_margin_db"] == round(rec["budget"]["fade_margin_db"], 2) and bool(row["line_of_sight"])
+    assert row["worst_f1_fraction"] == round(rec["clearance"]["worst_f1_fraction"], 3)
+    assert row["agl_b_m"] == round(rec["sites"]["b"]["antenna_agl_m"], 2)
     assert links.loc["Block 5 (12 m)", "above_roof_b_m"] == 3.0
