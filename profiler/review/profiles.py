@@ -183,13 +183,14 @@ def _check_clearance(prof, result: ScreeningResult, idx: np.ndarray,
 def _binned(prof, points: int) -> tuple[np.ndarray, np.ndarray]:
     """Ground and clutter (m) at ``points`` even stops along each path: the highest sample of each stretch.
 
-    The clutter is the surface's highest point of the stretch minus the ground
+    The first and last stops are the sites' own samples.  The clutter is the surface's highest point of the stretch minus the ground
     drawn there.  Stretches holding no sample are interpolated.
     """
     n_paths, width = prof.distance_m.shape
     length = np.where(prof.length_m > 0, prof.length_m, 1.0)
     pos = np.rint(prof.distance_m / length[:, None] * (points - 1)).astype(np.int64)
-    pos = np.clip(pos, 0, points - 1)
+    # The end stops are the two sites exactly (the masts stand there); interior samples fill the rest.
+    pos = np.where(prof.interior, np.clip(pos, 1, points - 2), np.where(prof.distance_m > 0, points - 1, 0))
     flat = (np.arange(n_paths)[:, None] * points + pos).ravel()
     g = np.full(n_paths * points, -np.inf)
     s = np.full(n_paths * points, -np.inf)

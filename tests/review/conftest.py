@@ -1,0 +1,15 @@
+import pytest
+
+from tests.review.fixtures import screen_demo, with_run_table
+
+
+@pytest.fixture(scope="session")
+def demo_result(tmp_path_factory):
+    """The demo screening result (GeoPackage, no run table)."""
+    return screen_demo(tmp_path_factory.mktemp("review") / "demo.gpkg")
+
+
+@pytest.fixture(scope="session")
+def demo_result_with_run(demo_result, tmp_path_factory):
+    """The demo screening result with a run description naming the demo terrain."""
+    return with_run_table(demo_result, tmp_path_factory.mktemp("review-run") / "demo-run.gpkg")
