@@ -89,6 +89,12 @@ def relief_image(sources: Sequence[Any], lon_deg: np.ndarray, lat_deg: np.ndarra
     dx = (right - left) / width * math.cos(lat_mid)
     dy = (top - bottom) / height * math.cos(lat_mid)
     shade = hillshade(z, dx, dy)
+    # Stretch the light between its 2nd and 98th percentiles to 0.5-1: gentle relief stays visible
+    # on a screen, and lines drawn over it stay readable (our own choice of range).
+    have = np.isfinite(z)
+    lo, hi = np.percentile(shade[have], [2, 98])
+    if hi - lo > 1e-6:
+        shade = 0.5 + 0.5 * np.clip((shade - lo) / (hi - lo), 0.0, 1.0)
     grey = np.clip(np.round(shade * 255.0), 0, 255).astype(np.uint8)
     alpha = np.where(np.isfinite(z), 255, 0).astype(np.uint8)
     png = png_grey_alpha(grey, alpha)

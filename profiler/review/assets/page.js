@@ -128,10 +128,12 @@
   const thead = $("thead");
   for (const col of TABLE) {
     const s = document.createElement("span");
+    const unit = cols[col.key] ? cols[col.key].unit : "";
     s.textContent = col.label;
+    if (unit) { const u = document.createElement("small"); u.textContent = unit; s.appendChild(u); }
     s.dataset.key = col.key;
     if (col.num) s.className = "num";
-    s.title = col.key === "rank" || !cols[col.key] ? col.label : cols[col.key].label + (cols[col.key].unit ? ", " + cols[col.key].unit : "");
+    s.title = col.key === "rank" ? "Rank" : !cols[col.key] ? col.label : cols[col.key].label + (unit ? ", " + unit : "");
     s.addEventListener("click", () => {
       if (sortKey === col.key) sortDir = -sortDir; else { sortKey = col.key; sortDir = 1; }
       shown = sortIndices(shown);
@@ -214,7 +216,7 @@
   let dpr = window.devicePixelRatio || 1, W = 0, H = 0;   // W, H in CSS pixels
   const view = { cx: 0.5, cy: 0.5, z: 2 };                // centre in world units, zoom (256 * 2^z px per world)
   let cacheView = null, cacheMargin = 0, dirty = true, pending = false, idleTimer = 0, moving = false;
-  let relief = null;
+  let relief = null, labelled = false;
   if (D.relief) { relief = new Image(); relief.onload = invalidate; relief.src = D.relief.uri; }
   const tiles = new Map();
 
@@ -280,6 +282,7 @@
     c.fillStyle = "#ffffff"; c.strokeStyle = "#1c2226"; c.lineWidth = 1;
     c.beginPath();
     let inView = [];
+    labelled = false;
     for (let i = 0; i < sx.length; i++) {
       const px = ox + sx[i] * s, py = oy + sy[i] * s;
       if (px < -5 || py < -5 || px > CW + 5 || py > CH + 5) continue;
@@ -289,6 +292,7 @@
     c.fill(); c.stroke();
     if (inView.length <= 60) {
       c.font = "11px system-ui, sans-serif"; c.lineWidth = 3; c.strokeStyle = "rgba(255,255,255,0.9)"; c.fillStyle = "#1c2226";
+      labelled = true;
       for (const i of inView) {
         const px = ox + sx[i] * s + 5, py = oy + sy[i] * s - 5;
         c.strokeText(siteNames[i], px, py); c.fillText(siteNames[i], px, py);
@@ -330,10 +334,10 @@
       ctx.strokeStyle = "#1c2226"; ctx.lineWidth = 6; ctx.beginPath(); ctx.moveTo(ax, ay); ctx.lineTo(bx, by); ctx.stroke();
       ctx.strokeStyle = COLOURS[verdict[selected]]; ctx.lineWidth = 3; ctx.beginPath(); ctx.moveTo(ax, ay); ctx.lineTo(bx, by); ctx.stroke();
       ctx.font = "bold 12px system-ui, sans-serif"; ctx.lineWidth = 3; ctx.strokeStyle = "#fff"; ctx.fillStyle = "#1c2226";
-      for (const [px, py, t] of [[ax, ay, "a " + siteNames[linkA[selected]]], [bx, by, "b " + siteNames[linkB[selected]]]]) {
+      for (const [px, py, t] of [[ax, ay, "a" + (labelled ? "" : " " + siteNames[linkA[selected]])], [bx, by, "b" + (labelled ? "" : " " + siteNames[linkB[selected]])]]) {
         ctx.beginPath(); ctx.arc(px, py, 4.5, 0, 2 * Math.PI); ctx.fillStyle = "#fff"; ctx.fill(); ctx.lineWidth = 2; ctx.strokeStyle = "#1c2226"; ctx.stroke();
         ctx.lineWidth = 3; ctx.strokeStyle = "#fff"; ctx.fillStyle = "#1c2226";
-        ctx.strokeText(t, px + 7, py - 7); ctx.fillText(t, px + 7, py - 7);
+        ctx.strokeText(t, px - 7 - ctx.measureText(t).width, py - 7); ctx.fillText(t, px - 7 - ctx.measureText(t).width, py - 7);
       }
     }
     drawScaleBar();
