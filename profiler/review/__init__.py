@@ -156,33 +156,33 @@ def build_review_page(
                          parameter="max_profiles", value_word="N")
     points = DEFAULT_POINTS if points is None else int(points)
     src = os.fspath(result_path)
-    dem = [os.fspath(p) for p in dem]
-    surface = [os.fspath(p) for p in surface]
-    for p in dem + surface:
+    dem_paths: list[str] = [os.fspath(p) for p in dem]
+    surface_paths: list[str] = [os.fspath(p) for p in surface]
+    for p in dem_paths + surface_paths:
         if not os.path.isfile(p):
             raise DataFileError(f"raster not found: {p}")
-    out = _check_output(os.fspath(output), [src, *dem, *surface], overwrite)
+    out = _check_output(os.fspath(output), [src, *dem_paths, *surface_paths], overwrite)
     result = read_result(src)
     notes: list[str] = []
-    if not dem:
-        dem, run_surface, run_notes = terrain_of_run(result.run)
-        surface = surface or run_surface
+    if not dem_paths:
+        dem_paths, run_surface, run_notes = terrain_of_run(result.run)
+        surface_paths = surface_paths or run_surface
         notes += run_notes
-        if not dem and not run_notes:
+        if not dem_paths and not run_notes:
             notes.append("no terrain: the result names no terrain rasters (no run description) and no --dem was "
                          "given, so the page has no relief and no profiles")
     freq = freq_ghz_of(result)
     packed = None
     relief = None
-    if dem:
+    if dem_paths:
         from ..terrain import ElevationModel
 
-        model = ElevationModel(dem, vertical_unit=vertical_unit)
+        model = ElevationModel(dem_paths, vertical_unit=vertical_unit)
         relief = relief_image(model.sources, result.site_lon, result.site_lat)
         if freq is None:
             notes.append("the frequency could not be found in the result, so no profiles are drawn")
         elif max_profiles > 0 and result.n_links:
-            packed = recompute_profiles(result, dem, surface, limit=int(max_profiles), points=points,
+            packed = recompute_profiles(result, dem_paths, surface_paths, limit=int(max_profiles), points=points,
                                         freq_ghz=freq, vertical_unit=vertical_unit)
             if packed.mismatch:
                 notes.append(
@@ -194,7 +194,7 @@ def build_review_page(
     if packed is not None and n_prof < profiled:
         no_profile = (f"No profile stored for this link: the page holds the profiles of the {n_prof:,} best-ranked "
                       f"links of {profiled:,} (terrahop review --profiles N keeps more, at about "
-                      f"{_mb_per_1000(points, surface):.2f} MB of page per 1,000).")
+                      f"{_mb_per_1000(points, surface_paths):.2f} MB of page per 1,000).")
         notes.append(f"profiles are stored for the {n_prof:,} best-ranked links of {profiled:,}; the others show "
                      "their figures only (--profiles N keeps more)")
     elif packed is None:
@@ -229,7 +229,7 @@ def build_review_page(
         data["profiles"] = {
             "points": packed.points, "step_m": STEP_M, "link": b64(packed.link, "i4"), "base": b64(packed.base_m, "f4"),
             "ground": b64(packed.ground, "u2"), "clutter": b64(packed.clutter, "u2") if packed.clutter is not None else None,
-            "freq_ghz": freq, "wavelength_m": float(wavelength_m(freq)),
+            "freq_ghz": freq, "wavelength_m": float(wavelength_m(float(freq or 0.0))),
         }
         for i, why in (packed.problems or {}).items():
             data["problems"].setdefault(str(i), why)
@@ -249,7 +249,7 @@ def build_review_page(
             os.unlink(tmp)
         raise
     return ReviewSummary(output=out, n_links=result.n_links, n_profiles=n_prof, size_bytes=os.path.getsize(out),
-                         notes=notes, terrain=list(dem) + list(surface))
+                         notes=notes, terrain=dem_paths + surface_paths)
 
 
 def _mb_per_1000(points: int, surface: Sequence[str]) -> float:
