@@ -211,8 +211,10 @@
   }
 
   // ---- map --------------------------------------------------------------------------------------
-  const canvas = $("map"), ctx = canvas.getContext("2d");
-  const cache = document.createElement("canvas"), cctx = cache.getContext("2d");
+  // Canvases kept in main memory: moving the drawn picture each frame is then a plain copy, not a GPU round trip.
+  const SOFT = { willReadFrequently: true };
+  const canvas = $("map"), ctx = canvas.getContext("2d", SOFT);
+  let cache = document.createElement("canvas"), cctx = cache.getContext("2d", SOFT);
   let dpr = window.devicePixelRatio || 1, W = 0, H = 0;   // W, H in CSS pixels
   const view = { cx: 0.5, cy: 0.5, z: 2 };                // centre in world units, zoom (256 * 2^z px per world)
   let cacheView = null, cacheMargin = 0, dirty = true, pending = false, idleTimer = 0, moving = false;
@@ -238,17 +240,22 @@
     invalidate();
   }
 
-  // Draw everything into the cache, which reaches half a view beyond each edge so a pan shows drawn links.
-  function drawScene() {
+  // The map is drawn into a back canvas reaching half a view beyond each edge, a slice of links per frame
+  // (so no frame waits for 100,000 lines), then swapped with the cache that frames show, moved and scaled.
+  let back = document.createElement("canvas"), bctx = back.getContext("2d", SOFT), job = null;
+  const SLICE = 2500, BUDGET_MS = 12, FIRST_BUDGET_MS = 250;  // the first picture may take longer frames: nothing moves yet
+
+  function startScene() {
     cacheMargin = 0.5;
     const CW = W * (1 + 2 * cacheMargin), CH = H * (1 + 2 * cacheMargin);
-    cache.width = Math.round(CW * dpr); cache.height = Math.round(CH * dpr);
-    cacheView = { cx: view.cx, cy: view.cy, z: view.z };
-    const s = scale(cacheView), ox = CW / 2 - view.cx * s, oy = CH / 2 - view.cy * s;
-    const c = cctx;
+    const bw = Math.round(CW * dpr), bh = Math.round(CH * dpr);
+    if (back.width !== bw || back.height !== bh) { back.width = bw; back.height = bh; }  // a new size only when it changes
+    const v = { cx: view.cx, cy: view.cy, z: view.z };
+    const s = scale(v), ox = CW / 2 - v.cx * s, oy = CH / 2 - v.cy * s;
+    const c = bctx;
     c.setTransform(dpr, 0, 0, dpr, 0, 0);
     c.fillStyle = "#e9ebe6"; c.fillRect(0, 0, CW, CH);
-    if (D.tiles) drawTiles(c, s, ox, oy, CW, CH);
+    if (D.tiles) drawTiles(c, v, s, ox, oy, CW, CH);
     if (relief && relief.complete && relief.naturalWidth) {
       const b = D.relief.bounds;
       c.globalAlpha = D.tiles ? 0.55 : 1;
@@ -256,27 +263,46 @@
       c.drawImage(relief, ox + b[0] * s, oy + b[1] * s, (b[2] - b[0]) * s, (b[3] - b[1]) * s);
       c.globalAlpha = 1;
     }
-    // Links: one path per verdict colour, culled to the cache; thinner and lighter when many are drawn.
+    // Thinner and lighter lines when many are drawn (level of detail by count).
     let total = 0;
     for (const a of shownByVerdict) total += a.length;
     const many = total > 20000, some = total > 3000;
-    c.lineWidth = many ? 0.8 : some ? 1.2 : 2;
-    c.lineCap = "round";
-    c.globalAlpha = many ? 0.55 : some ? 0.75 : 0.95;
-    for (let v = VERDICTS.length - 1; v >= 0; v--) {
-      const idx = shownByVerdict[v];
-      if (!idx || !idx.length) continue;
-      c.strokeStyle = COLOURS[v];
+    job = { view: v, s, ox, oy, CW, CH, v: VERDICTS.length - 1, k: 0,
+            width: some ? 1 / dpr : 2, alpha: many ? 0.55 : some ? 0.75 : 0.95 };  // 1 device px: the fast hairline
+  }
+
+  // Draw links for about BUDGET_MS: one path per verdict colour and slice, culled to the back canvas.
+  function stepScene() {
+    const t0 = performance.now(), j = job, c = bctx, s = j.s, ox = j.ox, oy = j.oy, CW = j.CW, CH = j.CH;
+    c.lineWidth = j.width; c.lineCap = "butt"; c.globalAlpha = j.alpha;
+    while (j.v >= 0) {
+      const idx = shownByVerdict[j.v];
+      if (!idx || j.k >= idx.length) { j.v--; j.k = 0; continue; }
+      const end = Math.min(idx.length, j.k + SLICE);
+      c.strokeStyle = COLOURS[j.v];
       c.beginPath();
-      for (let k = 0; k < idx.length; k++) {
+      for (let k = j.k; k < end; k++) {
         const i = idx[k];
         const ax = ox + x1[i] * s, ay = oy + y1[i] * s, bx = ox + x2[i] * s, by = oy + y2[i] * s;
         if ((ax < 0 && bx < 0) || (ax > CW && bx > CW) || (ay < 0 && by < 0) || (ay > CH && by > CH)) continue;
         c.moveTo(ax, ay); c.lineTo(bx, by);
       }
       c.stroke();
+      c.getImageData(0, 0, 1, 1);  // rasterise this slice now: the canvas defers drawing until it is read
+      j.k = end;
+      if (performance.now() - t0 > (cacheView ? BUDGET_MS : FIRST_BUDGET_MS)) { c.globalAlpha = 1; return false; }
     }
     c.globalAlpha = 1;
+    drawSites(c, s, ox, oy, CW, CH);
+    c.getImageData(0, 0, 1, 1);
+    [cache, back] = [back, cache];
+    [cctx, bctx] = [bctx, cctx];
+    cacheView = j.view;
+    job = null;
+    return true;
+  }
+
+  function drawSites(c, s, ox, oy, CW, CH) {
     // Sites: small rings, named when few are in view.
     const r = sx.length > 2000 ? 1.6 : 3.2;
     c.fillStyle = "#ffffff"; c.strokeStyle = "#1c2226"; c.lineWidth = 1;
@@ -291,8 +317,8 @@
     }
     c.fill(); c.stroke();
     if (inView.length <= 60) {
-      c.font = "11px system-ui, sans-serif"; c.lineWidth = 3; c.strokeStyle = "rgba(255,255,255,0.9)"; c.fillStyle = "#1c2226";
       labelled = true;
+      c.font = "11px system-ui, sans-serif"; c.lineWidth = 3; c.strokeStyle = "rgba(255,255,255,0.9)"; c.fillStyle = "#1c2226";
       for (const i of inView) {
         const px = ox + sx[i] * s + 5, py = oy + sy[i] * s - 5;
         c.strokeText(siteNames[i], px, py); c.fillText(siteNames[i], px, py);
@@ -300,8 +326,8 @@
     }
   }
 
-  function drawTiles(c, s, ox, oy, CW, CH) {
-    const tz = Math.max(0, Math.min(19, Math.round(cacheView.z)));
+  function drawTiles(c, v, s, ox, oy, CW, CH) {
+    const tz = Math.max(0, Math.min(19, Math.round(v.z)));
     const n = Math.pow(2, tz), ts = s / n;
     const xa = Math.floor(-ox / ts), xb = Math.floor((CW - ox) / ts), ya = Math.max(0, Math.floor(-oy / ts)), yb = Math.min(n - 1, Math.floor((CH - oy) / ts));
     for (let ty = ya; ty <= yb; ty++) for (let tx = xa; tx <= xb; tx++) {
@@ -346,12 +372,17 @@
   function frame() {
     pending = false;
     const t0 = performance.now();
-    const outside = cacheView && (Math.abs(cacheView.cx - view.cx) * scale() > W * cacheMargin * 0.9
-      || Math.abs(cacheView.cy - view.cy) * scale() > H * cacheMargin * 0.9);
-    if (dirty || !cacheView || (!moving && cacheView.z !== view.z) || outside) { drawScene(); dirty = false; }
-    blit();
+    const target = job ? job.view : cacheView;
+    const outside = target && (Math.abs(target.cx - view.cx) * scale() > W * cacheMargin * 0.9
+      || Math.abs(target.cy - view.cy) * scale() > H * cacheMargin * 0.9);
+    if (dirty || !target || (!moving && target.z !== view.z) || outside) {
+      startScene(); dirty = false;
+      if (cacheView) request();  // links from the next frame on: this one has set the canvas up
+      else if (!stepScene()) request();
+    } else if (job && !stepScene()) request();  // more links to draw next frame
+    if (cacheView) blit();
     const t1 = performance.now();
-    if (!window.__reviewFirstMap) { window.__reviewFirstMap = t1; document.body.dataset.ready = "1"; }
+    if (!window.__reviewFirstMap && cacheView) { window.__reviewFirstMap = t1; document.body.dataset.ready = "1"; }
     window.__reviewLastDraw = t1 - t0;
   }
   function request() { if (!pending) { pending = true; requestAnimationFrame(frame); } }
@@ -600,6 +631,9 @@
     setView: (cx, cy, z) => { view.cx = cx; view.cy = cy; view.z = z; invalidate(); },
     pan: (dx, dy) => { moving = true; view.cx -= dx / scale(); view.cy -= dy / scale(); request(); settle(); },
     selected: () => selected,
+    pickAt: (px, py) => pick(px, py),
+    lastDrawMs: () => window.__reviewLastDraw,
+    drawing: () => job !== null || dirty || pending,
     shown: () => shown.length,
   };
 
