@@ -632,6 +632,7 @@
     pan: (dx, dy) => { moving = true; view.cx -= dx / scale(); view.cy -= dy / scale(); request(); settle(); },
     selected: () => selected,
     pickAt: (px, py) => pick(px, py),
+    select: (i) => select(i, true),
     lastDrawMs: () => window.__reviewLastDraw,
     drawing: () => job !== null || dirty || pending,
     shown: () => shown.length,
