@@ -244,3 +244,74 @@ def test_many_rows_stay_virtual(browser, demo_result, tmp_path):
     assert "best-ranked links" in pg.inner_text("#detail .note")
     pg.close()
     assert not errors, errors
+
+
+def _tile_server():
+    """A local XYZ tile server answering every path with one grey PNG; returns it and the paths asked for."""
+    import threading
+    from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+
+    import numpy as np
+
+    from profiler.review.basemap import png_grey_alpha
+
+    png = png_grey_alpha(np.full((256, 256), 200, np.uint8), np.full((256, 256), 255, np.uint8))
+    asked: list[str] = []
+
+    class Handler(BaseHTTPRequestHandler):
+        def do_GET(self):  # noqa: N802 - the http.server name
+            asked.append(self.path)
+            self.send_response(200)
+            self.send_header("Content-Type", "image/png")
+            self.send_header("Content-Length", str(len(png)))
+            self.end_headers()
+            self.wfile.write(png)
+
+        def log_message(self, *args):
+            pass
+
+    server = ThreadingHTTPServer(("127.0.0.1", 0), Handler)
+    threading.Thread(target=server.serve_forever, daemon=True).start()
+    return server, asked
+
+
+def test_tiles_and_an_error_row(browser, demo_result, tmp_path):
+    """--tiles: the browser asks the tile server for the tiles under the view (allowed by the page's CSP);
+    a row that could not be profiled shows its problem instead of a profile."""
+    gpkg = tmp_path / "with-error.gpkg"
+    shutil.copyfile(demo_result, gpkg)
+    con = sqlite3.connect(gpkg)
+    with con:
+        for (trigger,) in con.execute("SELECT name FROM sqlite_master WHERE type = 'trigger'").fetchall():
+            con.execute(f'DROP TRIGGER "{trigger}"')
+        con.execute("UPDATE links SET verdict = 'error', problem = 'test: the path crosses nodata at 1.2 km', "
+                    "fade_margin_db = NULL WHERE rank = 3")
+    con.close()
+    server, asked = _tile_server()
+    try:
+        out = tmp_path / "tiles.html"
+        port = server.server_address[1]
+        build_review_page(gpkg, out, dem=[DEMO_DEM], tiles=f"http://127.0.0.1:{port}/{{z}}/{{x}}/{{y}}.png")
+        errors: list[str] = []
+        pg = open_page(browser, out, errors)
+        pg.wait_for_timeout(500)  # the tiles load after the first picture
+        view = pg.evaluate("terrahopReview.view()")
+        z = max(0, min(19, round(view["z"])))
+        assert asked, "no tile was asked for"
+        zs = {int(p.split("/")[1]) for p in asked}
+        assert z in zs
+        rows = links_rows(gpkg)
+        # The tile under site a of the first link was asked for (XYZ scheme, Web Mercator).
+        from tests.review.browser import world
+
+        x, y = world(rows[0]["lon_a"], rows[0]["lat_a"])
+        assert f"/{z}/{int(x * 2 ** z)}/{int(y * 2 ** z)}.png" in asked
+        assert f"127.0.0.1:{port}" in pg.inner_text("#attribution")
+        pg.evaluate("terrahopReview.select(2)")  # rank 3
+        wait_for(pg, "document.getElementById('detail').dataset.link === '2'")
+        assert "Not profiled: test: the path crosses nodata at 1.2 km" in pg.inner_text("#detail .note")
+        assert pg.inner_text('#detail tr[data-col="fade_margin_db"] td.v') == "\u2014"
+        pg.close()
+        assert not errors, errors
+    finally:
+        server.shutdown()

@@ -288,19 +288,26 @@
         c.moveTo(ax, ay); c.lineTo(bx, by);
       }
       c.stroke();
-      c.getImageData(0, 0, 1, 1);  // rasterise this slice now: the canvas defers drawing until it is read
+      flush(back);  // rasterise this slice now: a canvas defers drawing until it is used
       j.k = end;
       if (performance.now() - t0 > (cacheView ? BUDGET_MS : FIRST_BUDGET_MS)) { c.globalAlpha = 1; return false; }
     }
     c.globalAlpha = 1;
     drawSites(c, s, ox, oy, CW, CH);
-    c.getImageData(0, 0, 1, 1);
+    flush(back);
     [cache, back] = [back, cache];
     [cctx, bctx] = [bctx, cctx];
     cacheView = j.view;
     job = null;
     return true;
   }
+
+  // Copying one pixel into a scratch canvas makes the browser draw what is pending on ``src``
+  // (getImageData would too, but is refused once basemap tiles from another origin are on it).
+  const scratch = document.createElement("canvas");
+  scratch.width = scratch.height = 1;
+  const sctx = scratch.getContext("2d", SOFT);
+  function flush(src) { sctx.drawImage(src, 0, 0, 1, 1, 0, 0, 1, 1); }
 
   function drawSites(c, s, ox, oy, CW, CH) {
     // Sites: small rings, named when few are in view.
