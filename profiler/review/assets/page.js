@@ -174,8 +174,8 @@
         const s = document.createElement("span");
         if (col.num) s.className = "num";
         if (col.key === "rank") s.textContent = String(rank[i]);
-        else if (col.key === "site_a") s.textContent = siteNames[linkA[i]];
-        else if (col.key === "site_b") s.textContent = siteNames[linkB[i]];
+        else if (col.key === "site_a") s.textContent = s.title = siteNames[linkA[i]];
+        else if (col.key === "site_b") s.textContent = s.title = siteNames[linkB[i]];
         else if (col.key === "verdict") s.appendChild(chip(verdict[i]));
         else s.textContent = fmt(col.key, i);
         r.appendChild(s);
