@@ -33,7 +33,8 @@ DEFAULT_POINTS = 128
 STEP_M = 0.1
 #: Samples (paths x widest) handed to the engine at once.
 SUBBATCH_SAMPLES = 400_000
-#: A recomputed worst clearance further than this from the result's, m, counts as a mismatch.
+#: A recomputed worst clearance further than this from the result's, m, counts as a mismatch (our own
+#: threshold: the same engine on the same raster agrees to far less; another raster differs by far more).
 MISMATCH_M = 0.05
 _BLANK = 65535  # uint16 code of a height with no data
 

@@ -22,7 +22,8 @@
   for (const c of D.columns) { c.values = decode(c.data, Float32Array); cols[c.name] = c; }
   const problems = D.problems || {};
 
-  // Web Mercator world units (0..1, y southwards), as the XYZ tile scheme.
+  // Web Mercator world units (0..1, y southwards): spherical Pseudo-Mercator (EPSG:3857, method EPSG:1024)
+  // scaled to the unit square, as the XYZ tile scheme of web maps lays tiles out (common practice).
   function mercX(lon) { return (lon + 180) / 360; }
   function mercY(lat) {
     const l = Math.max(-85.05112878, Math.min(85.05112878, lat)) * Math.PI / 180;
@@ -400,9 +401,10 @@
   }
 
   function drawScaleBar() {
-    // Ground metres per CSS pixel at the centre (Web Mercator scale 1/cos(lat)).
+    // Ground metres per CSS pixel at the centre: the world is 2 pi x 6378137 m wide (EPSG:3857) and the
+    // Mercator scale at latitude phi is 1/cos(phi) (spherical form, EPSG Guidance Note 7-2, method 1024).
     const lat = Math.atan(Math.sinh(Math.PI * (1 - 2 * view.cy)));
-    const mpp = 40075016.686 * Math.cos(lat) / scale();
+    const mpp = 2 * Math.PI * 6378137 * Math.cos(lat) / scale();
     const target = mpp * 110;
     const p = Math.pow(10, Math.floor(Math.log10(target)));
     const step = [5, 2, 1].map((m) => m * p).find((v) => v <= target) || p;
