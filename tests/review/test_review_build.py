@@ -193,3 +193,22 @@ def test_mercator_world_units():
     np.testing.assert_allclose(y, [0.5, 0.5, 0.5])
     _, yn = mercator_xy(0.0, 85.05112878)
     assert float(yn) == pytest.approx(0.0, abs=1e-9)
+
+
+def test_names_that_look_like_markup_stay_data(demo_result, tmp_path):
+    gpkg = tmp_path / "odd.gpkg"
+    import shutil
+
+    shutil.copyfile(demo_result, gpkg)
+    con = sqlite3.connect(gpkg)
+    with con:
+        for (trigger,) in con.execute("SELECT name FROM sqlite_master WHERE type = 'trigger'").fetchall():
+            con.execute(f'DROP TRIGGER "{trigger}"')
+        con.execute("UPDATE links SET site_a = '</script><!-- x' WHERE site_a = 'Tallis Farm'")
+        con.execute("UPDATE sites SET name = '</script><!-- x' WHERE name = 'Tallis Farm'")
+    con.close()
+    out = tmp_path / "odd.html"
+    build_review_page(gpkg, out)
+    text = out.read_text(encoding="utf-8")
+    assert text.count("</script>") == 2  # the data's and the code's own ends, nothing from a name
+    assert "</script><!-- x" in page_data(out)["sites"]["names"]

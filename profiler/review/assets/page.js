@@ -503,7 +503,7 @@
     sub.appendChild(document.createTextNode("  \u00b7  rank " + rank[i]));
     box.appendChild(sub);
     const j = profileOf.get(i);
-    if (j !== undefined) {
+    if (j !== undefined && !problems[i]) {
       const cv = el("canvas"); cv.id = "profile"; box.appendChild(cv);
       const lg = el("div", "legend");
       const items = [["ground + earth bulge at k", D.palette.ground_edge], ["line of sight", D.palette.line], ["first Fresnel zone", D.palette.fresnel], ["ground at k worst", D.palette.worst_k], ["worst point", D.palette.worst_point]];
