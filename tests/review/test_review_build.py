@@ -212,3 +212,28 @@ def test_names_that_look_like_markup_stay_data(demo_result, tmp_path):
     text = out.read_text(encoding="utf-8")
     assert text.count("</script>") == 2  # the data's and the code's own ends, nothing from a name
     assert "</script><!-- x" in page_data(out)["sites"]["names"]
+
+
+def test_empty_result_makes_a_page(demo_result, tmp_path):
+    gpkg = tmp_path / "empty.gpkg"
+    import shutil
+
+    shutil.copyfile(demo_result, gpkg)
+    con = sqlite3.connect(gpkg)
+    with con:
+        for (trigger,) in con.execute("SELECT name FROM sqlite_master WHERE type = 'trigger'").fetchall():
+            con.execute(f'DROP TRIGGER "{trigger}"')
+        con.execute("DELETE FROM links")
+    con.close()
+    s = build_review_page(gpkg, tmp_path / "empty.html", dem=[DEMO_DEM])
+    assert (s.n_links, s.n_profiles) == (0, 0)
+    data = page_data(tmp_path / "empty.html")
+    assert data["n_links"] == 0 and len(data["sites"]["names"]) == 12
+
+
+def test_profile_bytes_per_link_as_the_readme_says(demo_result, tmp_path):
+    out = tmp_path / "p.html"
+    build_review_page(demo_result, out, dem=[DEMO_DEM])
+    p = page_data(out)["profiles"]
+    per_link = sum(len(p[k]) for k in ("link", "base", "ground")) / 66
+    assert 340 < per_link < 360  # about 0.35 MB of page per 1,000 profiles (README)
