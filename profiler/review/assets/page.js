@@ -251,6 +251,8 @@
     const CW = W * (1 + 2 * cacheMargin), CH = H * (1 + 2 * cacheMargin);
     const bw = Math.round(CW * dpr), bh = Math.round(CH * dpr);
     if (back.width !== bw || back.height !== bh) { back.width = bw; back.height = bh; }  // a new size only when it changes
+    // Size the other canvas too before anything is shown, so the first swap during a pan allocates nothing.
+    if (!cacheView && (cache.width !== bw || cache.height !== bh)) { cache.width = bw; cache.height = bh; }
     const v = { cx: view.cx, cy: view.cy, z: view.z };
     const s = scale(v), ox = CW / 2 - v.cx * s, oy = CH / 2 - v.cy * s;
     const c = bctx;
