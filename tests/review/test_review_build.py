@@ -237,3 +237,12 @@ def test_profile_bytes_per_link_as_the_readme_says(demo_result, tmp_path):
     p = page_data(out)["profiles"]
     per_link = sum(len(p[k]) for k in ("link", "base", "ground")) / 66
     assert 340 < per_link < 360  # about 0.35 MB of page per 1,000 profiles (README)
+
+
+def test_surface_model_adds_clutter(demo_result, tmp_path):
+    surface = DEMO_DEM.parent / "town-surface.tif"
+    out = tmp_path / "s.html"
+    build_review_page(demo_result, out, dem=[DEMO_DEM], surface=[surface], max_profiles=4)
+    p = page_data(out)["profiles"]
+    assert p["clutter"] is not None
+    assert decode(p["clutter"], "u2").size == 4 * p["points"]

@@ -508,7 +508,7 @@
     if (j !== undefined && !problems[i]) {
       const cv = el("canvas"); cv.id = "profile"; box.appendChild(cv);
       const lg = el("div", "legend");
-      const items = [["ground + earth bulge at k", D.palette.ground_edge], ["line of sight", D.palette.line], ["first Fresnel zone", D.palette.fresnel], ["ground at k worst", D.palette.worst_k], ["worst point", D.palette.worst_point]];
+      const items = [["ground + earth bulge at k", D.palette.ground_edge], ["line of sight", D.palette.line], ["first Fresnel zone", D.palette.fresnel], ["surface at k worst", D.palette.worst_k], ["worst point", D.palette.worst_point]];
       if (pClutter) items.splice(1, 0, ["clutter (surface model)", D.palette.clutter]);
       for (const [t, c] of items) { const s = el("span", "", t); s.style.setProperty("--c", c); lg.appendChild(s); }
       box.appendChild(lg);
