@@ -21,6 +21,11 @@
   const cols = {};
   for (const c of D.columns) { c.values = decode(c.data, Float32Array); cols[c.name] = c; }
   const problems = D.problems || {};
+  // The decoded arrays are all that is needed: let the text (megabytes at 100,000 links) go, so it
+  // is not carried through every later garbage collection.
+  for (const c of D.columns) c.data = null;
+  D.links = null; D.sites.lon = D.sites.lat = null;
+  document.getElementById("review-data").textContent = "";
 
   // Web Mercator world units (0..1, y southwards): spherical Pseudo-Mercator (EPSG:3857, method EPSG:1024)
   // scaled to the unit square, as the XYZ tile scheme of web maps lays tiles out (common practice).
@@ -50,6 +55,7 @@
     pGround = decode(P.ground, Uint16Array);
     pClutter = P.clutter ? decode(P.clutter, Uint16Array) : null;
     for (let j = 0; j < links.length; j++) profileOf.set(links[j], j);
+    P.link = P.base = P.ground = P.clutter = null;
   }
 
   // ---- filters ----------------------------------------------------------------------------------
