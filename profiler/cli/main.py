@@ -13,6 +13,7 @@ from .demo import demo
 from .heights import heights
 from .link import link
 from .options import quiet_broken_pipe
+from .review import review
 from .screen import screen
 from .sheet import sheet
 from .terrain import terrain
@@ -69,6 +70,7 @@ cli.add_command(heights)
 cli.add_command(sheet)
 cli.add_command(screen)
 cli.add_command(terrain)
+cli.add_command(review)
 
 
 def main() -> None:

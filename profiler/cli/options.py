@@ -24,6 +24,7 @@ __all__ = [
     "parse_lat_lon",
     "parse_number",
     "terrain_options",
+    "dem_option",
     "site_options",
     "radio_options",
     "radio_profile_options",
@@ -195,9 +196,12 @@ def _compose(*decorators: Callable) -> Callable:
     return apply
 
 
+#: The elevation raster option alone (``terrahop review`` takes only this one).
+dem_option = _option("--dem", "dem", multiple=True, metavar="RASTER",
+                     help="Elevation raster (GeoTIFF, VRT, any GDAL format, any CRS). Repeat for several tiles; the first given wins where they overlap.")
+
 terrain_options = _compose(
-    _option("--dem", "dem", multiple=True, metavar="RASTER",
-            help="Elevation raster (GeoTIFF, VRT, any GDAL format, any CRS). Repeat for several tiles; the first given wins where they overlap."),
+    dem_option,
     _option("--vertical-unit", type=click.Choice(VERTICAL_UNIT_CHOICES), default=None,
             help="Unit of the raster heights [default: the band's unit metadata, else m]."),
     _option("--nodata-fill-m", type=float, default=None, metavar="HEIGHT",

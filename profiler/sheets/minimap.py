@@ -17,7 +17,7 @@ import numpy as np
 from ..terrain import raster_read_error
 from .style import COLOURS
 
-__all__ = ["MapGrid", "map_frame", "read_map_grid", "draw_minimap", "nice_scale_length_m"]
+__all__ = ["MapGrid", "map_frame", "read_map_grid", "elevation_grid", "hillshade", "draw_minimap", "nice_scale_length_m"]
 
 
 @dataclass(frozen=True)
@@ -64,7 +64,6 @@ def read_map_grid(
     read only over the window the map covers.
     """
     from pyproj import CRS, Transformer
-    from rasterio.transform import from_origin
 
     lat = np.asarray(path_lat_deg, dtype=float)
     lon = np.asarray(path_lon_deg, dtype=float)
@@ -75,14 +74,7 @@ def read_map_grid(
     px, py = to_frame.transform(lon, lat)
     px, py = np.asarray(px, dtype=float), np.asarray(py, dtype=float)
     (left, right, bottom, top), (width, height) = _map_extent(px, py, aspect, max_px, margin_fraction)
-    dst_transform = from_origin(left, top, (right - left) / width, (top - bottom) / height)
-    out = np.full((height, width), np.nan)
-    for s in sources:
-        part = _reprojected(s, dst_crs, dst_transform, (left, right, bottom, top), (width, height))
-        if part is None:
-            continue
-        fill = np.isnan(out) & ~np.isnan(part)
-        out[fill] = part[fill]
+    out = elevation_grid(sources, dst_crs, (left, right, bottom, top), (width, height))
     return MapGrid(
         elevation_m=out,
         extent_m=(left, right, bottom, top),
@@ -92,6 +84,45 @@ def read_map_grid(
         centre_lat_deg=float(lat[mid]),
         centre_lon_deg=float(lon[mid]),
     )
+
+
+def elevation_grid(sources: Sequence[Any], dst_crs: Any, bounds: tuple[float, float, float, float],
+                   size: tuple[int, int]) -> np.ndarray:
+    """Heights (m, NaN where none) of the rasters over a north-up grid of ``dst_crs``.
+
+    ``bounds`` is (left, right, bottom, top) in ``dst_crs`` units, ``size``
+    (width, height) in pixels; the first source wins where they overlap.
+    """
+    from rasterio.transform import from_origin
+
+    left, right, bottom, top = bounds
+    width, height = size
+    dst_transform = from_origin(left, top, (right - left) / width, (top - bottom) / height)
+    out = np.full((height, width), np.nan)
+    for s in sources:
+        part = _reprojected(s, dst_crs, dst_transform, (left, right, bottom, top), (width, height))
+        if part is None:
+            continue
+        fill = np.isnan(out) & ~np.isnan(part)
+        out[fill] = part[fill]
+    return out
+
+
+def hillshade(elevation_m: np.ndarray, dx_m: float, dy_m: float) -> np.ndarray:
+    """Light (0.45 dark to 1 lit, 1 where no data) of a height grid lit from the north-west.
+
+    matplotlib's LightSource (azimuth 315 degrees, altitude 40 degrees,
+    vertical exaggeration 2), lightened so lines drawn over it stay readable.
+    """
+    from matplotlib.colors import LightSource
+
+    z = elevation_m
+    if not np.isfinite(z).any():
+        return np.ones(z.shape)
+    filled = np.where(np.isfinite(z), z, np.nanmean(z))
+    shade = LightSource(azdeg=315, altdeg=40).hillshade(filled, vert_exag=2.0, dx=dx_m, dy=dy_m)
+    shade = 0.45 + 0.55 * shade  # light, so the path and labels stay readable in print
+    return np.where(np.isfinite(z), shade, 1.0)
 
 
 def _map_extent(px: np.ndarray, py: np.ndarray, aspect: float, max_px: int,
@@ -168,17 +199,11 @@ def draw_minimap(ax: Any, grid: MapGrid, *, type_scale: float = 1.0, worst_index
 
     ``worst_index`` (a profile sample) marks the worst point on the path.
     """
-    from matplotlib.colors import LightSource
-
     fs = 6.5 * type_scale
     z = grid.elevation_m
     left, right, bottom, top = grid.extent_m
     if np.isfinite(z).any():
-        filled = np.where(np.isfinite(z), z, np.nanmean(z))
-        dx, dy = grid.cell_m
-        shade = LightSource(azdeg=315, altdeg=40).hillshade(filled, vert_exag=2.0, dx=dx, dy=dy)
-        shade = 0.45 + 0.55 * shade  # light, so the path and labels stay readable in print
-        shade = np.where(np.isfinite(z), shade, 1.0)
+        shade = hillshade(z, *grid.cell_m)
         ax.imshow(shade, extent=grid.extent_m, origin="upper", cmap="gray", vmin=0, vmax=1,
                   interpolation="bilinear", zorder=0)
     ax.plot(grid.path_x_m, grid.path_y_m, color="white", lw=3.2 * type_scale, solid_capstyle="round", zorder=2)
