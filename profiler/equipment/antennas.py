@@ -33,7 +33,6 @@ from __future__ import annotations
 
 import math
 import os
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -41,7 +40,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import DataFileError, InputError
+from ..errors import InputError
+from ..toml_files import read_toml
 from ..units import wavelength_m
 from ..validation import LIMITS
 
@@ -295,15 +295,7 @@ def parse_antenna(table: dict[str, Any], source: str) -> Antenna:
 
 def read_antenna_file(path: str | os.PathLike) -> Antenna:
     """Read an antenna TOML file; DataFileError if missing, InputError naming the file and key if wrong."""
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"antenna file not found: {p}")
-    try:
-        table = tomllib.loads(p.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p}: not a valid TOML antenna file: {exc}") from None
-    except UnicodeDecodeError:
-        raise InputError(f"{p}: not a text file (expected a TOML antenna file)") from None
+    p, table = read_toml(path, "antenna file")
     return parse_antenna(table, str(p))
 
 

@@ -33,15 +33,14 @@ from __future__ import annotations
 
 import math
 import os
-import tomllib
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from ..budget import noise_floor_dbm
-from ..errors import DataFileError, InputError
+from ..errors import InputError
+from ..toml_files import read_toml
 from ..validation import LIMITS, Limit
 
 __all__ = [
@@ -245,15 +244,7 @@ def _required_snr_db(step: ModulationStep, noise_floor_dbm: float) -> float:
 
 def read_radio_profile(path: str | os.PathLike) -> RadioProfile:
     """Read and check a radio profile; InputError or DataFileError naming the file and the key."""
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"radio profile not found: {p}")
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p}: not a valid TOML radio profile: {exc}") from None
-    except UnicodeDecodeError:
-        raise InputError(f"{p}: not a text file (expected a TOML radio profile)") from None
+    p, data = read_toml(path, "radio profile")
     where = str(p)
     _unknown(where, "", data, PROFILE_KEYS)
     for key in ("name", "noise_figure_db", "band", "channel"):

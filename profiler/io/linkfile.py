@@ -55,12 +55,12 @@ Unknown keys are refused with their name, so a typing error never passes silentl
 from __future__ import annotations
 
 import os
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from ..errors import DataFileError, InputError
+from ..errors import InputError
+from ..toml_files import read_toml
 
 __all__ = ["LinkSpec", "read_link_file", "SECTION_KEYS", "VERTICAL_UNIT_CHOICES"]
 
@@ -124,15 +124,7 @@ class LinkSpec:
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
     """Read and check a TOML link file; raise InputError or DataFileError naming the problem."""
-    p = Path(path)
-    if not p.is_file():
-        raise DataFileError(f"link file not found: {p}")
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{p}: not a valid TOML link file: {exc}") from None
-    except UnicodeDecodeError:
-        raise InputError(f"{p}: not a text file (expected a TOML link file)") from None
+    p, data = read_toml(path, "link file")
     for key, value in data.items():
         if key in SECTION_KEYS:
             if not isinstance(value, dict):
