@@ -1,0 +1,217 @@
+"""Kernel of the coverage sweep: every receiver on a radial from one pass over its samples.
+
+Along a radial from the hub the samples are met in order of distance.  Two
+running quantities describe everything a receiver further out needs:
+
+* the largest "curved slope" s_i = (z_i - ha) / d_i - d_i / (2 k a) of the
+  samples met so far: the largest elevation slope from the hub, earth bulge
+  included (Bullington's Stim = max s_i + D / (2 k a) for a receiver at D);
+* the upper convex hull of the points (d_i, y_i), y_i = z_i - d_i^2 / (2 k a),
+  kept by Andrew's monotone chain (each sample pushed once, popped at most
+  once).  For a receiver at distance D the bulged heights are
+  y_i + D d_i / (2 k a), a shear of these points, and a shear keeps the hull.
+
+From them, for a receiver at distance D and height hb (both the receiver's
+own, not the sample's):
+
+* line of sight: hb is above every obstacle's ray exactly when
+  (hb - ha) / D > Stim (the clearance of every interior sample is positive);
+* Srim, the largest slope from the receiver (ITU-R P.526-15 section 4.5.1), is
+  the tangent from (D, hb) to the hull: scanned from the hull's far end while
+  it grows (the slope is unimodal along a concave chain);
+* the worst F1 fraction q = min clearance / F1 and the largest v (ITU-R
+  P.526-15 eq. 26; v = -sqrt(2) q) are taken over the hull's vertices.  Where
+  the path is obstructed (q < 0) that is the minimum over every sample: on a
+  hull edge the clearance is linear and F1 concave, so a sample under an edge
+  is never worse than the worse end of the edge when both clearances there are
+  negative (a ratio of a linear to a concave positive function is
+  quasi-convex).  Where the path is clear it is an upper bound of the true
+  minimum (a sample under a long hull edge can come closer to the ray in F1
+  units); the README gives the measured difference.
+
+Cost: O(radials x samples) for the sweep (each sample enters and leaves the
+hull once) plus, per receiver, the hull vertices it reads (h, tens on real
+terrain; the whole radial only on a perfectly smooth convex surface), and no
+term in the receiver's distance.  The compiled loop is registered with
+:func:`profiler._compiled.twin`; its twin is the same loop run by the
+interpreter (a sweep with a stack has no vectorised form), so both run the same
+arithmetic in the same order.  Pure functions, no I/O.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .._compiled import twin, use_numba
+
+__all__ = ["sweep_radials", "sweep_radials_numpy", "SWEEP_OUTPUTS", "EXACT_BELOW_F1_FRACTION"]
+
+#: Clear paths whose F1 fraction may lie under this are scanned sample by sample (exact); above it the
+#: reported fraction is a lower bound (our own choice: 1.0 is above every usual criterion, and J(v) = 0 there).
+EXACT_BELOW_F1_FRACTION = 1.0
+
+#: Per receiver: worst F1 fraction, largest v, Stim, Srim, line of sight (1/0), profiled (1/0).
+SWEEP_OUTPUTS = ("f1_fraction", "v_max", "stim", "srim", "line_of_sight", "profiled")
+
+
+def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  # pragma: no cover - run compiled and as twin
+    n_rad, n_s = surface.shape
+    n_cells = cell_d.shape[0]
+    q_out = np.full(n_cells, np.inf)
+    v_out = np.full(n_cells, -np.inf)
+    stim_out = np.full(n_cells, -np.inf)
+    srim_out = np.full(n_cells, -np.inf)
+    los_out = np.zeros(n_cells, dtype=np.bool_)
+    ok_out = np.zeros(n_cells, dtype=np.bool_)
+    hx = np.empty(n_s)
+    hy = np.empty(n_s)
+    inv_den = 1.0 / den
+    for r in range(n_rad):
+        m = 0
+        s_max = -np.inf
+        hole = False
+        j = 1
+        for c in range(start[r], start[r + 1]):
+            big_d = cell_d[c]
+            hb = cell_hb[c]
+            # Samples strictly between the hub and the receiver enter the running state.
+            while j < n_s and dist[j] < big_d:
+                z = surface[r, j]
+                d = dist[j]
+                j += 1
+                if z != z:
+                    hole = True
+                    continue
+                s = (z - ha) / d - d * inv_den
+                if s > s_max:
+                    s_max = s
+                y = z - d * d * inv_den
+                while m >= 2 and (hx[m - 1] - hx[m - 2]) * (y - hy[m - 2]) - (hy[m - 1] - hy[m - 2]) * (d - hx[m - 2]) >= 0.0:
+                    m -= 1
+                hx[m] = d
+                hy[m] = y
+                m += 1
+            if hole or hb != hb or big_d > dist[n_s - 1] or big_d <= 0.0:
+                continue
+            ok_out[c] = True
+            if m == 0:
+                los_out[c] = True
+                continue
+            shear = big_d * inv_den
+            stim = s_max + shear
+            stim_out[c] = stim
+            los_out[c] = (hb - ha) / big_d > stim
+            # Srim: the tangent from the receiver, scanned back from the hull's far end.
+            best = -np.inf
+            k = m - 1
+            while k >= 0:
+                val = (hy[k] + shear * hx[k] - hb) / (big_d - hx[k])
+                if val < best:
+                    break
+                best = val
+                k -= 1
+            srim_out[c] = best
+            rise = (hb - ha) / big_d
+            q_min = np.inf
+            v_max = -np.inf
+            q_low = np.inf
+            g_prev = 0.0
+            for k in range(m):
+                d1 = hx[k]
+                d2 = big_d - d1
+                gap = ha + rise * d1 - (hy[k] + shear * d1)
+                f1 = np.sqrt(lam * d1 * d2 / big_d)
+                q = gap / f1
+                if q < q_min:
+                    q_min = q
+                v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                if v > v_max:
+                    v_max = v
+                if k > 0 and gap > 0.0 and g_prev > 0.0:
+                    # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
+                    # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
+                    x0 = hx[k - 1]
+                    be = (gap - g_prev) / (d1 - x0)
+                    al = g_prev - be * x0
+                    den_x = be * big_d + 2.0 * al
+                    if den_x != 0.0:
+                        xs = al * big_d / den_x
+                        if x0 < xs < d1:
+                            qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
+                            if qe < q_low:
+                                q_low = qe
+                g_prev = gap
+            if q_min < q_low:
+                q_low = q_min
+            if q_min < 0.0:
+                pass  # obstructed: the vertices hold the minimum over every sample (module docstring)
+            elif q_low >= exact_below:
+                q_min = q_low  # at least this clear: a lower bound, reported as such
+                v_max = -np.sqrt(2.0) * q_low
+            else:
+                # Marginal: every sample between the hub and the receiver, as the link engine reads them.
+                q_min = np.inf
+                v_max = -np.inf
+                for i in range(1, j):
+                    z = surface[r, i]
+                    d1 = dist[i]
+                    d2 = big_d - d1
+                    gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
+                    q = gap / np.sqrt(lam * d1 * d2 / big_d)
+                    if q < q_min:
+                        q_min = q
+                    v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                    if v > v_max:
+                        v_max = v
+            q_out[c] = q_min
+            v_out[c] = v_max
+    return q_out, v_out, stim_out, srim_out, los_out, ok_out
+
+
+def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):
+    """The sweep run by the interpreter: the compiled kernel's twin (see the module docstring)."""
+    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below)
+
+
+def _examples(rng: np.random.Generator) -> list[tuple]:
+    out = []
+    for n_rad, n_s, flat in ((6, 120, False), (3, 40, True)):
+        dist = np.arange(n_s) * 15.0
+        surface = np.zeros((n_rad, n_s)) if flat else rng.normal(100.0, 25.0, (n_rad, n_s))
+        if not flat:
+            surface[1, 50] = np.nan  # a nodata hole: receivers behind it are not profiled
+        per = rng.integers(0, 30, n_rad)
+        start = np.concatenate([[0], np.cumsum(per)]).astype(np.int64)
+        cell_d = np.concatenate([np.sort(rng.uniform(0.0, dist[-1] * 1.05, p)) for p in per])
+        cell_hb = rng.uniform(90.0, 180.0, cell_d.size)
+        for den in (2.0 * 4.0 / 3.0 * 6_371_000.0, np.inf):
+            out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, 1.0))
+    return out
+
+
+def _warm(_dtypes: tuple) -> list[tuple]:
+    return _examples(np.random.default_rng(0))[:1]
+
+
+_sweep_twin = twin("coverage_sweep", sweep_radials_numpy, _examples, _warm, error_model="numpy")(_sweep)
+
+
+def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength_m: float, bulge_den_m: float,
+                  start: np.ndarray, cell_d_m: np.ndarray, cell_hb_m: np.ndarray,
+                  exact_below: float = EXACT_BELOW_F1_FRACTION) -> tuple[np.ndarray, ...]:
+    """Sweep radials and evaluate their receivers: the arrays of :data:`SWEEP_OUTPUTS`, each (cells,).
+
+    ``dist`` (S,) sample distances from the hub, m (``dist[0]`` = 0, the hub);
+    ``surface`` (R, S) heights along each radial, m (NaN: not covered);
+    ``ha_m`` the hub antenna's elevation, m; ``bulge_den_m`` = 2 k a, m;
+    ``start`` (R + 1,) receivers of radial r are ``start[r]:start[r + 1]``,
+    sorted by distance; ``cell_d_m``, ``cell_hb_m`` each receiver's distance
+    and antenna elevation, m.  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
+    (:func:`profiler._compiled.use_numba`; any radial block is large).
+    """
+    args = (np.ascontiguousarray(dist, dtype=float), np.ascontiguousarray(surface, dtype=float), float(ha_m),
+            float(wavelength_m), float(bulge_den_m), np.ascontiguousarray(start, dtype=np.int64),
+            np.ascontiguousarray(cell_d_m, dtype=float), np.ascontiguousarray(cell_hb_m, dtype=float),
+            float(exact_below))
+    fn = _sweep_twin.compiled() if use_numba(max(surface.size, 1 << 20)) else _sweep_twin.numpy
+    return fn(*args)
