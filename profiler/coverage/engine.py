@@ -132,8 +132,10 @@ class CoveragePlan:
     cell_az: np.ndarray
     cell_radial: np.ndarray
     cell_agl: np.ndarray
-    #: Start of each radial's cells in the sorted arrays, (n_radials + 1,).
+    #: Start of each radial's cells in the sorted arrays, (radials + 1,).
     radial_start: np.ndarray
+    #: A block task holds the cells of radials first_radial.. only (see :meth:`task`).
+    first_radial: int = 0
 
     @property
     def hub_antenna_m(self) -> float:
@@ -146,6 +148,18 @@ class CoveragePlan:
     def block_radials(self, b: int) -> tuple[int, int]:
         size = self.settings.block_radials
         return b * size, min((b + 1) * size, self.n_radials)
+
+    def cells_of_block(self, b: int) -> tuple[int, int]:
+        """Positions of block ``b``'s cells in the sorted arrays."""
+        r0, r1 = self.block_radials(b)
+        return int(self.radial_start[r0]), int(self.radial_start[r1])
+
+    def task(self, b: int) -> "CoveragePlan":
+        """The plan cut to block ``b``: its radials' cells only (what a worker is sent)."""
+        r0, r1 = self.block_radials(b)
+        c0, c1 = self.cells_of_block(b)
+        cut = {f.name: getattr(self, f.name)[c0:c1] for f in dataclasses.fields(self) if f.name.startswith("cell_")}
+        return dataclasses.replace(self, radial_start=self.radial_start[r0:r1 + 1] - c0, first_radial=r0, **cut)
 
     @property
     def bands(self) -> tuple[str, ...]:
@@ -261,15 +275,16 @@ def sector_gain_db(sector: Sector, azimuth_deg: np.ndarray, elevation_deg: np.nd
     return np.interp(off_axis_deg(sector, azimuth_deg, elevation_deg), sector.angle_deg, sector.relative_db)
 
 
-def evaluate_block(model: Any, plan: CoveragePlan, block: int, surface: Any = None) -> dict[str, np.ndarray]:
-    """Evaluate the cells of one block of radials: ``{"position": sorted-cell positions, band: values}``.
+def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[str, np.ndarray]:
+    """Evaluate the cells of a block task (:meth:`CoveragePlan.task`): ``{band: values}`` in the task's cell order.
 
     Values are float32, NaN where a cell cannot be evaluated (no terrain on the
     way, or under the cell).
     """
     s = plan.settings
-    r0, r1 = plan.block_radials(block)
-    c0, c1 = int(plan.radial_start[r0]), int(plan.radial_start[r1])
+    r0 = plan.first_radial
+    r1 = r0 + plan.radial_start.size - 1
+    c0, c1 = 0, plan.cell_d.size
     dist = np.arange(plan.n_samples) * plan.spacing_m
     theta = np.arange(r0, r1) * (2.0 * np.pi / plan.n_radials)
     x = np.sin(theta)[:, None] * dist[None, :]
@@ -286,21 +301,23 @@ def evaluate_block(model: Any, plan: CoveragePlan, block: int, surface: Any = No
     lam = float(wavelength_m(s.radio.freq_ghz))
     den = 2.0 * s.k * EARTH_RADIUS_M
     d = plan.cell_d[c0:c1]
-    start = plan.radial_start[r0:r1 + 1] - c0
+    start = plan.radial_start
     q, v, stim, srim, los, ok = sweep_radials(dist, top, ha, lam, den, start, d, hb)
+    ok &= d >= 1.0  # a link needs ends 1 m apart (profiler.validation.MIN_PATH_M)
+    dd = np.where(ok, d, 1.0)
     if s.method == "knife-edge":
         diffraction = knife_edge_loss_db(v)
     else:
-        diffraction = bullington_from(stim, srim, v, np.full(d.shape, ha), hb, d, np.full(d.shape, lam))
-    gases = _gases_db(d, s)
-    total = free_space_loss_db(d, s.radio.freq_ghz) + diffraction + gases
+        diffraction = bullington_from(stim, srim, v, np.full(d.shape, ha), hb, dd, np.full(d.shape, lam))
+    gases = _gases_db(dd, s)
+    total = free_space_loss_db(dd, s.radio.freq_ghz) + diffraction + gases
     radio = s.radio
     if s.sector is not None:
         elev = np.degrees(np.arctan2(hb - ha, d) - d / den)
         gain = radio.gain_a_dbi + sector_gain_db(s.sector, plan.cell_az[c0:c1], elev)
         radio = dataclasses.replace(radio, gain_a_dbi=gain)
     budget = link_budget(radio, total)
-    out: dict[str, np.ndarray] = {"position": np.arange(c0, c1, dtype=np.int64)}
+    out: dict[str, np.ndarray] = {}
     bad = ~ok
     values = {
         "f1_fraction": q, "line_of_sight": los.astype(float), "diffraction_db": diffraction,
