@@ -79,9 +79,15 @@ def coverage(**opts) -> None:
     Receivers are evaluated along radial profiles from the hub with the link engine's formulas; a cell's
     figures match `terrahop link` from the hub to that cell within the tolerances in the README.
     """
-    for line in run_coverage_command(opts):
-        if not opts.get("quiet"):
-            click.echo(line)
+    import sys
+
+    try:
+        for line in run_coverage_command(opts):
+            if not opts.get("quiet"):
+                click.echo(line)
+    except KeyboardInterrupt:
+        click.echo("interrupted: finished blocks are kept; run the same command with --resume to finish", err=True)
+        sys.exit(130)
 
 
 def _hub_and_candidates(opts: dict):
@@ -178,6 +184,9 @@ def run_coverage_command(opts: dict):
     radius_km = check_number(opts["radius_km"], "radius_km")
     rx_agl = check_number(opts["rx_agl_m"], "rx_agl_m")
     cell_m = None if opts.get("cell_m") is None else check_number(opts["cell_m"], "cell_m")
+    if opts.get("hub_azimuth_deg") is not None:
+        check_number(opts["hub_azimuth_deg"], "hub_azimuth_deg")
+    check_number(opts["hub_downtilt_deg"], "hub_downtilt_deg")
     if opts.get("rx_above_surface") and not opts.get("surface"):
         raise InputError("--rx-above-surface needs --surface RASTER (the surface the receivers stand on)")
     if opts.get("block_radials") is not None and opts["block_radials"] < 1:
