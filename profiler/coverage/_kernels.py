@@ -65,6 +65,8 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
     ok_out = np.zeros(n_cells, dtype=np.bool_)
     hx = np.empty(n_s)
     hy = np.empty(n_s)
+    hi = np.zeros(n_s, dtype=np.int64)  # sample index of each hull vertex
+    edge_low = np.empty(n_s)  # smallest gap / F1 on the hull edge ending at each vertex
     inv_den = 1.0 / den
     for r in range(n_rad):
         m = 0
@@ -90,6 +92,7 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
                     m -= 1
                 hx[m] = d
                 hy[m] = y
+                hi[m] = j - 1
                 m += 1
             if hole or hb != hb or big_d > dist[n_s - 1] or big_d <= 0.0:
                 continue
@@ -116,6 +119,8 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
             v_max = -np.inf
             q_low = np.inf
             g_prev = 0.0
+            q_prev = 0.0
+            k_low = 0
             for k in range(m):
                 d1 = hx[k]
                 d2 = big_d - d1
@@ -127,20 +132,29 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
                 v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
                 if v > v_max:
                     v_max = v
-                if k > 0 and gap > 0.0 and g_prev > 0.0:
-                    # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
-                    # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
-                    x0 = hx[k - 1]
-                    be = (gap - g_prev) / (d1 - x0)
-                    al = g_prev - be * x0
-                    den_x = be * big_d + 2.0 * al
-                    if den_x != 0.0:
-                        xs = al * big_d / den_x
-                        if x0 < xs < d1:
-                            qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
-                            if qe < q_low:
-                                q_low = qe
+                if k > 0:
+                    low = min(q, q_prev)
+                    if gap > 0.0 and g_prev > 0.0:
+                        # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
+                        # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
+                        x0 = hx[k - 1]
+                        be = (gap - g_prev) / (d1 - x0)
+                        al = g_prev - be * x0
+                        den_x = be * big_d + 2.0 * al
+                        if den_x != 0.0:
+                            xs = al * big_d / den_x
+                            if x0 < xs < d1:
+                                qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
+                                if qe < low:
+                                    low = qe
+                    else:
+                        low = -np.inf
+                    edge_low[k] = low
+                    if low < q_low:
+                        q_low = low
+                        k_low = k
                 g_prev = gap
+                q_prev = q
             if q_min < q_low:
                 q_low = q_min
             if q_min < 0.0:
@@ -149,20 +163,25 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
                 q_min = q_low  # at least this clear: a lower bound, reported as such
                 v_max = -np.sqrt(2.0) * q_low
             else:
-                # Marginal: every sample between the hub and the receiver, as the link engine reads them.
-                q_min = np.inf
-                v_max = -np.inf
-                for i in range(1, j):
-                    z = surface[r, i]
-                    d1 = dist[i]
-                    d2 = big_d - d1
-                    gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
-                    q = gap / np.sqrt(lam * d1 * d2 / big_d)
-                    if q < q_min:
-                        q_min = q
-                    v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
-                    if v > v_max:
-                        v_max = v
+                # Marginal: the samples under every hull edge that could hold a smaller fraction than the
+                # best vertex (a sample under an edge is no closer than the edge itself: branch and bound),
+                # read as the link engine reads them.
+                # The most promising edge first, so the bound tightens early.
+                for kk in range(m):
+                    k = k_low if kk == 0 else (kk if kk != k_low else 0)
+                    if k == 0 or edge_low[k] >= q_min:
+                        continue
+                    for i in range(hi[k - 1] + 1, hi[k]):
+                        z = surface[r, i]
+                        d1 = dist[i]
+                        d2 = big_d - d1
+                        gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
+                        q = gap / np.sqrt(lam * d1 * d2 / big_d)
+                        if q < q_min:
+                            q_min = q
+                        v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                        if v > v_max:
+                            v_max = v
             q_out[c] = q_min
             v_out[c] = v_max
     return q_out, v_out, stim_out, srim_out, los_out, ok_out
