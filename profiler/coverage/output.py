@@ -203,12 +203,12 @@ def draw_png(path: str, result: CoverageResult, title: str) -> None:
     per_unit = (crs.axis_info[0].unit_conversion_factor if crs.is_projected
                 else 111_320.0 * math.cos(math.radians(plan.hub.lat_deg)))
     with plt.rc_context(RC_PARAMS):
-        fig, ax = plt.subplots(figsize=(7.0, 7.6), dpi=110)
+        fig, ax = plt.subplots(figsize=(7.0, 7.6), dpi=90)
         ax.set_facecolor(COLOURS["band"])
         ax.imshow(np.ma.masked_invalid(margin), extent=extent, cmap=ListedColormap(colours),
                   norm=BoundaryNorm(edges, len(colours)), interpolation="nearest")
         blocked = np.where(los == 0, 1.0, np.nan)
-        ax.imshow(np.ma.masked_invalid(blocked), extent=extent, cmap=ListedColormap([COLOURS["ink"]]), alpha=0.18,
+        ax.imshow(np.ma.masked_invalid(blocked), extent=extent, cmap=ListedColormap([COLOURS["ink"]]), alpha=0.3,
                   interpolation="nearest")
         hx, hy = _hub_xy(result)
         ax.plot([hx], [hy], marker="^", markersize=11, color=COLOURS["site_a"], markeredgecolor="white",
@@ -216,7 +216,7 @@ def draw_png(path: str, result: CoverageResult, title: str) -> None:
         ax.annotate(plan.hub.name, (hx, hy), xytext=(6, 6), textcoords="offset points", fontsize=8,
                     color=COLOURS["ink"])
         handles = [Patch(facecolor=col, label=lab) for col, lab in zip(colours, labels)]
-        handles.append(Patch(facecolor=COLOURS["ink"], alpha=0.18, label="ray from the hub blocked"))
+        handles.append(Patch(facecolor=COLOURS["ink"], alpha=0.3, label="ray from the hub blocked"))
         handles.append(plt.Line2D([], [], marker="^", color=COLOURS["site_a"], linestyle="none",
                                   label=f"hub ({plan.hub.agl_m:g} m above ground)"))
         ax.legend(handles=handles, loc="upper left", fontsize=7, framealpha=0.9, title="fade margin",
