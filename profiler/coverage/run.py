@@ -25,7 +25,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import DataError, InputError
 from ..io.stage import RunLock, lock_path, staging_folder, write_json
 from .engine import CoveragePlan, evaluate_block
 
@@ -92,6 +92,39 @@ class _Done:
         return self.value
 
 
+#: Longest wait for a Dask scheduler to answer, s (as screening's).
+SCHEDULER_CONNECT_TIMEOUT_S = 10.0
+
+
+def _absolute(model: Any) -> Any:
+    """A copy of an ElevationModel whose local raster paths are absolute (workers may run elsewhere)."""
+    import dataclasses
+
+    copy = type(model).__new__(type(model))
+    copy.__dict__.update(model.__getstate__())
+    copy.sources = tuple(s if "://" in s.path or s.path.startswith("/vsi") else
+                         dataclasses.replace(s, path=os.path.abspath(s.path)) for s in model.sources)
+    return copy
+
+
+def _dask_client(scheduler: Any) -> tuple[Any, bool]:
+    """A dask.distributed Client (given, or connected to an address or cluster) and whether we own it."""
+    try:
+        from distributed import Client
+    except ImportError:
+        raise InputError("running on a Dask cluster needs the distributed package: "
+                         "pip install 'terrahop[distributed]'") from None
+    if isinstance(scheduler, Client):
+        return scheduler, False
+    try:
+        return Client(scheduler, timeout=SCHEDULER_CONNECT_TIMEOUT_S), True
+    except Exception as exc:  # noqa: BLE001 - distributed raises many kinds; all mean "not reached"
+        cause = " ".join(str(exc).split())[:160] or type(exc).__name__
+        raise DataError(f"cannot connect to the Dask scheduler at {scheduler} within "
+                        f"{SCHEDULER_CONNECT_TIMEOUT_S:g} s ({cause}); check the address and that it is running") \
+            from None
+
+
 class _Executor:
     """Runs block tasks: in this process, on a local process pool, or on a Dask cluster."""
 
@@ -101,25 +134,21 @@ class _Executor:
         self.client: Any = None
         self.own_client = False
         if scheduler is not None:
-            from ..screening.executors import _DaskPool  # the screening's connection rules and messages
-
-            dask = _DaskPool(model, scheduler)
-            self.client, self.own_client = dask.client, dask.own
-            self.remote_model = dask.model
-            self.remote_surface = None if surface is None else self.client.scatter(surface, broadcast=True)
-            self.width = 2 * dask.workers + 2
+            self.client, self.own_client = _dask_client(scheduler)
+            self.remote_model = self.client.scatter(_absolute(model), broadcast=True)
+            self.remote_surface = None if surface is None else self.client.scatter(_absolute(surface), broadcast=True)
+            workers_seen = max(len(self.client.scheduler_info().get("workers", {})), 1)
+            self.width = 2 * workers_seen + 2
             return
         n = (os.cpu_count() or 1) if workers is None else int(workers)
         if n < 1:
             raise InputError(f"--workers must be 1 or more, got {n}")
         self.width = 1
         if n > 1 and n_tasks > 1:
-            from ..screening.executors import with_absolute_paths
-
             methods = mp.get_all_start_methods()
             method = "fork" if sys.platform.startswith("linux") and "fork" in methods else "spawn"
             self.pool = ProcessPoolExecutor(n, mp_context=mp.get_context(method), initializer=_init_worker,
-                                            initargs=(with_absolute_paths(model), surface))
+                                            initargs=(_absolute(model), None if surface is None else _absolute(surface)))
             self.width = 2 * n
 
     def submit(self, task: CoveragePlan) -> Any:
