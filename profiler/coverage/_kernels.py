@@ -20,22 +20,27 @@ own, not the sample's):
   the tangent from (D, hb) to the hull: scanned from the hull's far end while
   it grows (the slope is unimodal along a concave chain);
 * the worst F1 fraction q = min clearance / F1 and the largest v (ITU-R
-  P.526-15 eq. 26; v = -sqrt(2) q) are taken over the hull's vertices.  Where
-  the path is obstructed (q < 0) that is the minimum over every sample: on a
-  hull edge the clearance is linear and F1 concave, so a sample under an edge
-  is never worse than the worse end of the edge when both clearances there are
-  negative (a ratio of a linear to a concave positive function is
-  quasi-convex).  Where the path is clear it is an upper bound of the true
-  minimum (a sample under a long hull edge can come closer to the ray in F1
-  units); the README gives the measured difference.
+  P.526-15 eq. 26; v = -sqrt(2) q) start from the hull's vertices.  Where the
+  path is obstructed (q < 0 at a vertex) that is the minimum over every
+  sample: on a hull edge the clearance is linear and F1 concave, and a sample
+  under an edge has at least the edge's clearance, so it is never worse than
+  the worse end of the edge when the clearance there is negative (a ratio of a
+  linear to a concave positive function is quasi-convex).  Where the path is
+  clear, each hull edge gives a lower bound of q for the samples under it (the
+  smallest clearance / F1 along the edge, in closed form); a path whose bound
+  is under ``exact_below`` (1 F1) has the samples read under every edge whose
+  bound is below the best value found so far (branch and bound: exact); above
+  it the bound itself is reported, a lower bound (never more clearance than
+  the samples have).
 
 Cost: O(radials x samples) for the sweep (each sample enters and leaves the
-hull once) plus, per receiver, the hull vertices it reads (h, tens on real
-terrain; the whole radial only on a perfectly smooth convex surface), and no
-term in the receiver's distance.  The compiled loop is registered with
-:func:`profiler._compiled.twin`; its twin is the same loop run by the
-interpreter (a sweep with a stack has no vectorised form), so both run the same
-arithmetic in the same order.  Pure functions, no I/O.
+hull once); per receiver, the hull vertices it reads (h: tens on real
+terrain, the whole radial only on a smooth convex surface) and, on a clear path
+that may lie under 1 F1, the samples under the few hull edges the bound keeps.
+Nothing else depends on the receiver's distance.  The compiled loop is
+registered with :func:`profiler._compiled.twin`; its twin is the same loop run
+by the interpreter (a sweep with a stack has no vectorised form), so both run
+the same arithmetic in the same order.  Pure functions, no I/O.
 """
 
 from __future__ import annotations

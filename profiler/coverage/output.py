@@ -202,7 +202,7 @@ def draw_png(path: str, result: CoverageResult, title: str) -> None:
     # 111.32 km x cos(latitude) on the equator's radius; enough for a scale bar).
     per_unit = (crs.axis_info[0].unit_conversion_factor if crs.is_projected
                 else 111_320.0 * math.cos(math.radians(plan.hub.lat_deg)))
-    with plt.rc_context(RC_PARAMS):
+    with plt.rc_context(RC_PARAMS):  # type: ignore[arg-type]
         fig, ax = plt.subplots(figsize=(7.0, 7.6), dpi=90)
         ax.set_facecolor(COLOURS["band"])
         ax.imshow(np.ma.masked_invalid(margin), extent=extent, cmap=ListedColormap(colours),
@@ -215,7 +215,7 @@ def draw_png(path: str, result: CoverageResult, title: str) -> None:
                 linestyle="none")
         ax.annotate(plan.hub.name, (hx, hy), xytext=(6, 6), textcoords="offset points", fontsize=8,
                     color=COLOURS["ink"])
-        handles = [Patch(facecolor=col, label=lab) for col, lab in zip(colours, labels)]
+        handles: list[Any] = [Patch(facecolor=col, label=lab) for col, lab in zip(colours, labels)]
         handles.append(Patch(facecolor=COLOURS["ink"], alpha=0.3, label="ray from the hub blocked"))
         handles.append(plt.Line2D([], [], marker="^", color=COLOURS["site_a"], linestyle="none",
                                   label=f"hub ({plan.hub.agl_m:g} m above ground)"))

@@ -100,7 +100,8 @@ def _absolute(model: Any) -> Any:
     """A copy of an ElevationModel whose local raster paths are absolute (workers may run elsewhere)."""
     import dataclasses
 
-    copy = type(model).__new__(type(model))
+    cls: Any = type(model)
+    copy = cls.__new__(cls)
     copy.__dict__.update(model.__getstate__())
     copy.sources = tuple(s if "://" in s.path or s.path.startswith("/vsi") else
                          dataclasses.replace(s, path=os.path.abspath(s.path)) for s in model.sources)
@@ -175,7 +176,7 @@ def _save_block(folder: Path, b: int, values: dict[str, np.ndarray]) -> None:
     final = _block_path(folder, b)
     tmp = final.with_name(final.name + ".tmp")
     with open(tmp, "wb") as fh:
-        np.savez(fh, **values)
+        np.savez(fh, **values)  # type: ignore[arg-type]
         fh.flush()
         os.fsync(fh.fileno())
     os.replace(tmp, final)
