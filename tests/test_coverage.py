@@ -79,6 +79,7 @@ def test_sweep_equals_the_link_engine_reductions_on_the_radial_samples():
 
 
 def _run(model, hub, tmp_path, **kw):
+    model.preload()
     s = CoverageSettings(radius_m=kw.pop("radius_m", 2500.0), rx_agl_m=kw.pop("rx_agl_m", 2.0),
                          radio=kw.pop("radio", Radio(5.8, 20.0, 16.0, 16.0)), block_radials=kw.pop("block", 256),
                          **kw)
@@ -248,3 +249,32 @@ def test_a_local_pool_equals_one_process(tmp_path):
     two, _ = run_coverage(model, plan, str(tmp_path / "b.tif"), stage=False, workers=2)
     for name in plan.bands:
         assert np.array_equal(one.bands[name], two.bands[name], equal_nan=True), name
+
+
+def test_a_surface_model_casts_the_shadow_a_terrain_wall_casts(tmp_path):
+    """Flat terrain with the wall in the surface model (clutter = surface - terrain, as `link --surface`)
+    gives the line of sight of the terrain with the wall, away from the wall itself; receivers put on
+    the surface with rx_above_surface stand on the wall's top there."""
+    hx, hy = X0 + 1500.0, Y0 - 3000.0
+    hub = Hub("hub", *reversed(_lonlat(hx, hy)), 20.0)
+    walled = ElevationModel([_flat_with_wall(tmp_path, wall_col=300)])
+    _, ref = _run(walled, hub, tmp_path)
+    (tmp_path / "flat.tif").rename(tmp_path / "surface.tif")
+    surface = ElevationModel([tmp_path / "surface.tif"])
+    flat = ElevationModel([_flat_with_wall(tmp_path)])
+    surface.preload()
+    flat.preload()
+    s = CoverageSettings(radius_m=2500.0, rx_agl_m=2.0, radio=Radio(5.8, 20.0, 16.0, 16.0))
+    plan = plan_coverage(flat, hub, s, surface=surface)
+    got, _ = run_coverage(flat, plan, str(tmp_path / "y.tif"), surface=surface, stage=False, workers=1)
+    a, _, c, _, e, f = plan.grid.transform
+    cols = np.arange(plan.grid.width)
+    x = c + (cols + 0.5) * a
+    off_wall = (x < X0 + 2990.0) | (x > X0 + 3040.0)
+    same = ref.bands["line_of_sight"][:, off_wall] == got.bands["line_of_sight"][:, off_wall]
+    assert same[np.isfinite(ref.bands["line_of_sight"][:, off_wall])].all()
+    on = CoverageSettings(radius_m=2500.0, rx_agl_m=2.0, radio=Radio(5.8, 20.0, 16.0, 16.0), rx_above_surface=True)
+    plan_on = plan_coverage(flat, hub, on, surface=surface)
+    roof, _ = run_coverage(flat, plan_on, str(tmp_path / "z.tif"), surface=surface, stage=False, workers=1)
+    top = (x > X0 + 3005.0) & (x < X0 + 3025.0)
+    assert np.nanmin(roof.bands["line_of_sight"][:, top]) == 1  # on the wall's top every receiver sees the hub
