@@ -278,3 +278,20 @@ def test_a_surface_model_casts_the_shadow_a_terrain_wall_casts(tmp_path):
     roof, _ = run_coverage(flat, plan_on, str(tmp_path / "z.tif"), surface=surface, stage=False, workers=1)
     top = (x > X0 + 3005.0) & (x < X0 + 3025.0)
     assert np.nanmin(roof.bands["line_of_sight"][:, top]) == 1  # on the wall's top every receiver sees the hub
+
+
+def test_a_hub_beside_the_antimeridian_covers_both_sides(tmp_path):
+    """Longitudes around +-180 stay continuous in the lattice; cells on both sides are evaluated."""
+    z = np.full((300, 600), 50.0, dtype=np.float32)
+    path = write_raster(tmp_path / "am.tif", z, crs="EPSG:4326", transform=from_origin(179.7, 0.15, 0.001, 0.001))
+    model = ElevationModel([path])
+    hub = Hub("hub", 0.0, 179.995, 20.0)
+    s = CoverageSettings(radius_m=1500.0, rx_agl_m=5.0, radio=Radio(5.8, 20.0, 16.0, 16.0), cell_m=50.0)
+    plan = plan_coverage(model, hub, s)
+    assert np.all(np.abs(plan.cell_lon) <= 180.0) and (plan.cell_lon < 0).any() and (plan.cell_lon > 0).any()
+    result, _ = run_coverage(model, plan, str(tmp_path / "x.tif"), stage=False, workers=1)
+    los = result.bands["line_of_sight"]
+    # The raster runs from 179.7 E to 180.3 E (-179.7): every cell of the disk on both sides is evaluated,
+    # all in sight over flat ground.
+    assert np.isfinite(los).sum() > 0.98 * np.pi * 1500.0 ** 2 / 50.0 ** 2
+    assert np.all(los[np.isfinite(los)] == 1)

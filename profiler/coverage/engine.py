@@ -35,7 +35,7 @@ from ..losses.free_space import free_space_loss_db
 from ..losses.knife_edge import knife_edge_loss_db
 from ..units import EARTH_RADIUS_M, wavelength_m
 from ._kernels import sweep_radials
-from .grid import Grid, Lattice, aeqd_crs, hub_grid, raster_grid
+from .grid import Grid, Lattice, aeqd_crs, fold_lon, hub_grid, raster_grid
 
 __all__ = ["Hub", "Sector", "CoverageSettings", "CoveragePlan", "BANDS", "COVERAGE_METHODS", "plan_coverage",
            "evaluate_block", "band_names", "off_axis_deg"]
@@ -201,7 +201,8 @@ def plan_coverage(model: Any, hub: Hub, settings: CoverageSettings, candidates: 
     pad = 4.0 * max(settings.spacing_m or 0.0, 1.0) + radius * 0.01
     box = (-radius - pad, -radius - pad, radius + pad, radius + pad)
     # lon/lat from the hub's projection: 1 degree < 111.4 km on WGS84, so degrees x 111_400 bound metres.
-    to_lonlat = Lattice(aeqd, "EPSG:4326", box, min(radius / 8.0, 2_000.0) + 1.0, metres_per_unit=111_400.0)
+    to_lonlat = Lattice(aeqd, "EPSG:4326", box, min(radius / 8.0, 2_000.0) + 1.0, metres_per_unit=111_400.0,
+                        lon_about=hub.lon_deg)
     rows, cols = np.divmod(np.arange(grid.n_cells, dtype=np.int64), grid.width)
     gx, gy = grid.centres(rows, cols)
     if grid.crs == aeqd:
@@ -216,6 +217,7 @@ def plan_coverage(model: Any, hub: Hub, settings: CoverageSettings, candidates: 
     idx = np.flatnonzero(inside)
     x, y, d = x[idx], y[idx], d[idx]
     lon, lat = to_lonlat(x, y)
+    lon = fold_lon(lon)
     agl = np.full(idx.size, np.nan)
     if candidates is not None:
         _names, c_lat, c_lon, c_agl = candidates
@@ -290,6 +292,7 @@ def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[
     x = np.sin(theta)[:, None] * dist[None, :]
     y = np.cos(theta)[:, None] * dist[None, :]
     lon, lat = plan.to_lonlat(x.ravel(), y.ravel())
+    lon = fold_lon(lon)
     _, top = _surface_at(model, surface, lon, lat)
     top = top.reshape(x.shape)
     top[:, 0] = plan.hub_ground_m  # the hub itself is not an obstacle (never an interior sample)

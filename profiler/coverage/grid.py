@@ -20,7 +20,7 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["Grid", "Lattice", "LATTICE_TOLERANCE_M", "aeqd_crs", "raster_grid", "hub_grid"]
+__all__ = ["Grid", "Lattice", "LATTICE_TOLERANCE_M", "aeqd_crs", "raster_grid", "hub_grid", "fold_lon"]
 
 #: Largest interpolation error accepted for a lattice-mapped point, m (our own bound: far below any cell).
 LATTICE_TOLERANCE_M = 0.01
@@ -66,7 +66,8 @@ class Lattice:
     """
 
     def __init__(self, src: str, dst: str, bounds: tuple[float, float, float, float], step: float,
-                 metres_per_unit: float = 1.0, tolerance_m: float = LATTICE_TOLERANCE_M) -> None:
+                 metres_per_unit: float = 1.0, tolerance_m: float = LATTICE_TOLERANCE_M,
+                 lon_about: float | None = None) -> None:
         from pyproj import Transformer
 
         tr = Transformer.from_crs(src, dst, always_xy=True)
@@ -78,6 +79,7 @@ class Lattice:
             ys = np.linspace(y0, y1, ny)
             gx, gy = np.meshgrid(xs, ys)
             u, v = tr.transform(gx, gy)
+            u = _unwrap(np.asarray(u, dtype=float), lon_about)
             self.x0, self.y0 = x0, y0
             self.dx = (x1 - x0) / (nx - 1) if nx > 1 else 1.0
             self.dy = (y1 - y0) / (ny - 1) if ny > 1 else 1.0
@@ -88,6 +90,7 @@ class Lattice:
             my = (ys[:-1] + ys[1:]) / 2.0 if ny > 1 else ys
             px, py = np.meshgrid(mx, my)
             eu, ev = tr.transform(px, py)
+            eu = _unwrap(np.asarray(eu, dtype=float), lon_about)
             iu, iv = self(px.ravel(), py.ravel())
             err = np.hypot(iu - np.ravel(eu), iv - np.ravel(ev)) * metres_per_unit
             self.error_m = float(np.max(err)) if err.size else 0.0
@@ -113,6 +116,18 @@ class Lattice:
             bot = g[j1, i] * (1.0 - tx) + g[j1, i1] * tx
             out.append(top * (1.0 - ty) + bot * ty)
         return out[0], out[1]
+
+
+def _unwrap(lon: np.ndarray, about: float | None) -> np.ndarray:
+    """Longitudes within 180 degrees of ``about`` (so a lattice across the antimeridian stays smooth)."""
+    if about is None:
+        return lon
+    return about + np.mod(lon - about + 180.0, 360.0) - 180.0
+
+
+def fold_lon(lon: np.ndarray) -> np.ndarray:
+    """Longitudes folded into -180..180 degrees."""
+    return np.mod(np.asarray(lon, dtype=float) + 180.0, 360.0) - 180.0
 
 
 def hub_grid(lat_deg: float, lon_deg: float, radius_m: float, cell_m: float) -> Grid:
