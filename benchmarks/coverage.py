@@ -75,7 +75,7 @@ def main() -> None:
         model.preload()
         hub = Hub("bench hub", 0.5, 30.5, 30.0)
         radio = Radio(5.8, 23.0, 16.0, 16.0, bandwidth_mhz=20.0)
-        s = CoverageSettings(radius_m=args.radius_km * 1000.0, rx_agl_m=6.0, radio=radio)
+        s = CoverageSettings(radius_m=args.radius_km * 1000.0, rx_agl_m=6.0, radio=radio, method="bullington")
         t0 = time.perf_counter()
         plan = plan_coverage(model, hub, s)
         t_plan = time.perf_counter() - t0

@@ -13,7 +13,7 @@ from profiler.coverage import run as cov_run
 from profiler.coverage._kernels import sweep_radials
 from profiler.coverage.engine import CoverageSettings, Hub, Sector, off_axis_deg, plan_coverage
 from profiler.coverage.run import run_coverage
-from profiler.losses._bullington_kernels import bullington_reductions_numpy
+from profiler.losses._bullington_kernels import bullington_reductions_numpy, smooth_heights_numpy
 from profiler.terrain import ElevationModel
 from profiler.units import EARTH_RADIUS_M
 from tests.conftest import write_raster
@@ -39,8 +39,8 @@ def _flat_with_wall(tmp_path, cell=10.0, n=600, wall_col=None, wall_h=30.0, grou
 
 
 def test_sweep_equals_the_link_engine_reductions_on_the_radial_samples():
-    """Stim, Srim and line of sight exactly; F1 fraction and v exactly below 1 F1 (the link engine's
-    Bullington reductions, profiler.losses._bullington_kernels, on the same samples)."""
+    """Stim, Srim, line of sight and the smooth-surface heights exactly; F1 fraction and v exactly below
+    1 F1 (the link engine's reductions, profiler.losses._bullington_kernels, on the same samples)."""
     rng = np.random.default_rng(7)
     n_s = 400
     dist = np.arange(n_s) * 12.5
@@ -51,7 +51,8 @@ def test_sweep_equals_the_link_engine_reductions_on_the_radial_samples():
     rad = np.repeat(np.arange(8), per)
     cell_hb = surface[rad, np.minimum((cell_d / 12.5).astype(int), n_s - 1)] + rng.uniform(2.0, 40.0, rad.size)
     ha, lam = 140.0, 0.0517
-    q, v, stim, srim, los, ok = sweep_radials(dist, surface, ha, lam, DEN, start, cell_d, cell_hb)
+    cell_hr = cell_hb - 5.0
+    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, surface, ha, lam, DEN, start, cell_d, cell_hb, cell_hr)
     assert ok.all()
     for c in range(cell_d.size):
         r, D, hb = rad[c], cell_d[c], cell_hb[c]
@@ -63,6 +64,9 @@ def test_sweep_equals_the_link_engine_reductions_on_the_radial_samples():
         interior[0, 1:-1] = True
         s_ref, r_ref, v_ref, _ = bullington_reductions_numpy(d1, surf, interior, np.array([ha]), np.array([hb]),
                                                              np.array([D]), np.array([lam]), np.array([4.0 / 3.0]))
+        ends = np.concatenate([[surface[r, 0]], z, [cell_hr[c]]])[None, :]
+        hst_ref, hsr_ref = smooth_heights_numpy(d1, ends, interior, np.array([ha]), np.array([hb]), np.array([D]))
+        assert hstd[c] == pytest.approx(hst_ref[0], abs=1e-6) and hsrd[c] == pytest.approx(hsr_ref[0], abs=1e-6)
         assert stim[c] == pytest.approx(s_ref[0], abs=1e-9)
         assert srim[c] == pytest.approx(r_ref[0], abs=1e-9)
         gap = ha + (hb - ha) * inner / D - (z + inner * (D - inner) / DEN)

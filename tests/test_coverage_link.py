@@ -25,7 +25,7 @@ F1_TOLERANCE_90 = 0.03
 DB_TOLERANCE = 1.0
 
 
-@pytest.mark.parametrize("method", ["bullington", "knife-edge"])
+@pytest.mark.parametrize("method", ["delta-bullington", "bullington", "knife-edge"])
 def test_coverage_agrees_with_link_on_random_cells(tmp_path, method):
     model = ElevationModel([DEMO_DEM])
     hub = Hub("Tallis Farm", -30.444113, -20.937510, 15.0)

@@ -49,8 +49,12 @@ coverage_options = _compose(
     _option("--spacing-m", type=float, default=None,
             help="Sample spacing along each radial, m [default: half the terrain cell at the hub, as link]."),
     _option("--diffraction", "diffraction", callback=_diffraction_callback, default=None, metavar="METHOD",
-            help="Diffraction method: bullington (ITU-R P.526-15 section 4.5.1) or knife-edge (the worst edge, "
-                 "section 4.1) [default: bullington]."),
+            help="Diffraction method: delta-bullington (ITU-R P.526-15 section 4.5.2), bullington (section "
+                 "4.5.1) or knife-edge (the worst edge, section 4.1) [default: delta-bullington, as link]."),
+    _option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False), default=None,
+            help="Polarisation, for the smooth-earth part of delta-bullington [default: {default}]."),
+    _option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
+            help="Ground constants for the smooth-earth part of delta-bullington [default: {default}]."),
     _option("--hub-azimuth-deg", "hub_azimuth_deg", type=float, default=None, metavar="DEG",
             help="Sector antenna: boresight azimuth from true north; the --antenna-a file's [envelope] gives "
                  "the gain away from it [default: the antenna's gain in every direction]."),
@@ -202,10 +206,10 @@ def run_coverage_command(opts: dict):
               opts.get("antenna_a"), opts.get("antenna_b")]
     out = str(check_output_path(opts["out"], "--out", RASTER_SUFFIXES, inputs))
     png = None if opts.get("png") is None else str(check_output_path(opts["png"], "--png", (".png",), inputs))
-    method = opts.get("diffraction") or "bullington"
+    method = opts.get("diffraction") or "delta-bullington"
     if method not in COVERAGE_METHODS:
-        raise InputError(f"--diffraction {method}: coverage computes {' and '.join(COVERAGE_METHODS)} exactly from "
-                         "its radial sweep; use terrahop link for the other methods on chosen cells")
+        raise InputError(f"--diffraction {method}: coverage computes {', '.join(COVERAGE_METHODS)} from its radial "
+                         "sweep; use terrahop link for the other methods on chosen cells")
     hub, candidates = _hub_and_candidates(opts)
     sites_out = None
     if candidates is not None:
@@ -224,6 +228,7 @@ def run_coverage_command(opts: dict):
     cov = CoverageSettings(
         radius_m=radius_km * 1000.0, rx_agl_m=rx_agl, radio=radio, k=float(settings.k), method=method,
         cell_m=cell_m, spacing_m=settings.spacing_m, plan=plan, sector=sector, climate=settings.climate,
+        polarisation=settings.polarisation, ground=settings.ground,
         rx_above_surface=bool(opts.get("rx_above_surface")), block_radials=int(opts.get("block_radials") or 256))
     if model.total_cells() <= 200_000_000:
         model.preload()

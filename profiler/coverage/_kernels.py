@@ -33,6 +33,12 @@ own, not the sample's):
   it the bound itself is reported, a lower bound (never more clearance than
   the samples have).
 
+For delta-Bullington the kernel also keeps the running sums v1, v2 of the
+smooth-surface fit and a second upper hull of the raw heights (no bulge), so
+each receiver gets the smooth-surface heights hstd, hsrd of ITU-R P.526-15
+section 4.5.2 (the highest obstacle over the straight line, and the largest
+obstacle slopes from each end, by the same running maximum and tangent scans).
+
 Cost: O(radials x samples) for the sweep (each sample enters and leaves the
 hull once); per receiver, the hull vertices it reads (h: tens on real
 terrain, the whole radial only on a smooth convex surface) and, on a clear path
@@ -55,11 +61,12 @@ __all__ = ["sweep_radials", "sweep_radials_numpy", "SWEEP_OUTPUTS", "EXACT_BELOW
 #: reported fraction is a lower bound (our own choice: 1.0 is above every usual criterion, and J(v) = 0 there).
 EXACT_BELOW_F1_FRACTION = 1.0
 
-#: Per receiver: worst F1 fraction, largest v, Stim, Srim, line of sight (1/0), profiled (1/0).
-SWEEP_OUTPUTS = ("f1_fraction", "v_max", "stim", "srim", "line_of_sight", "profiled")
+#: Per receiver: worst F1 fraction, largest v, Stim, Srim, line of sight (1/0), profiled (1/0), and the
+#: smooth-surface heights at the hub and the receiver (ITU-R P.526-15 section 4.5.2), m.
+SWEEP_OUTPUTS = ("f1_fraction", "v_max", "stim", "srim", "line_of_sight", "profiled", "hstd", "hsrd")
 
 
-def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  # pragma: no cover - run compiled and as twin
+def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):  # pragma: no cover - run compiled and as twin
     n_rad, n_s = surface.shape
     n_cells = cell_d.shape[0]
     q_out = np.full(n_cells, np.inf)
@@ -68,6 +75,10 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
     srim_out = np.full(n_cells, -np.inf)
     los_out = np.zeros(n_cells, dtype=np.bool_)
     ok_out = np.zeros(n_cells, dtype=np.bool_)
+    hst_out = np.full(n_cells, np.nan)
+    hsr_out = np.full(n_cells, np.nan)
+    rx_ = np.empty(n_s)  # upper hull of the raw heights (no bulge): the smooth-surface fit's obstacle terms
+    ry_ = np.empty(n_s)
     hx = np.empty(n_s)
     hy = np.empty(n_s)
     hi = np.zeros(n_s, dtype=np.int64)  # sample index of each hull vertex
@@ -75,7 +86,13 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
     inv_den = 1.0 / den
     for r in range(n_rad):
         m = 0
+        m2 = 0
         s_max = -np.inf
+        t_max = -np.inf  # largest (z - ha) / d
+        sum1 = 0.0  # ITU-R P.526-15 section 4.5.2 (P.452-17 eq. 161-162): running v1, v2 up to sample j - 1
+        sum2 = 0.0
+        z_prev = surface[r, 0]
+        d_prev = dist[0]
         hole = False
         j = 1
         for c in range(start[r], start[r + 1]):
@@ -92,6 +109,19 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
                 s = (z - ha) / d - d * inv_den
                 if s > s_max:
                     s_max = s
+                t = (z - ha) / d
+                if t > t_max:
+                    t_max = t
+                step = d - d_prev
+                sum1 += step * (z + z_prev)
+                sum2 += step * (z * (2.0 * d + d_prev) + z_prev * (d + 2.0 * d_prev))
+                z_prev = z
+                d_prev = d
+                while m2 >= 2 and (rx_[m2 - 1] - rx_[m2 - 2]) * (z - ry_[m2 - 2]) - (ry_[m2 - 1] - ry_[m2 - 2]) * (d - rx_[m2 - 2]) >= 0.0:
+                    m2 -= 1
+                rx_[m2] = d
+                ry_[m2] = z
+                m2 += 1
                 y = z - d * d * inv_den
                 while m >= 2 and (hx[m - 1] - hx[m - 2]) * (y - hy[m - 2]) - (hy[m - 1] - hy[m - 2]) * (d - hx[m - 2]) >= 0.0:
                     m -= 1
@@ -102,6 +132,37 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
             if hole or hb != hb or big_d > dist[n_s - 1] or big_d <= 0.0:
                 continue
             ok_out[c] = True
+            # Smooth-surface heights at both ends (ITU-R P.526-15 section 4.5.2), the last segment to the
+            # receiver's own surface height added to the running sums.
+            hr = cell_hr[c]
+            step = big_d - d_prev
+            v1 = sum1 + step * (hr + z_prev)
+            v2 = sum2 + step * (hr * (2.0 * big_d + d_prev) + z_prev * (big_d + 2.0 * d_prev))
+            hst = (2.0 * v1 * big_d - v2) / (big_d * big_d)
+            hsr = (v2 - v1 * big_d) / (big_d * big_d)
+            if m2 > 0:
+                slope_tr = (hb - ha) / big_d
+                hobs = -np.inf
+                for k in range(m2):
+                    o = ry_[k] - ha - slope_tr * rx_[k]
+                    if o > hobs:
+                        hobs = o
+                aobt = t_max - slope_tr
+                best_r = -np.inf
+                k = m2 - 1
+                while k >= 0:
+                    val = (ry_[k] - hb) / (big_d - rx_[k])
+                    if val < best_r:
+                        break
+                    best_r = val
+                    k -= 1
+                aobr = best_r + slope_tr
+                if hobs > 0.0:
+                    share = aobt / (aobt + aobr)
+                    hst = hst - hobs * share
+                    hsr = hsr - hobs * (1.0 - share)
+            hst_out[c] = min(hst, surface[r, 0])
+            hsr_out[c] = min(hsr, hr)
             if m == 0:
                 los_out[c] = True
                 continue
@@ -189,12 +250,12 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):  #
                             v_max = v
             q_out[c] = q_min
             v_out[c] = v_max
-    return q_out, v_out, stim_out, srim_out, los_out, ok_out
+    return q_out, v_out, stim_out, srim_out, los_out, ok_out, hst_out, hsr_out
 
 
-def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below):
+def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):
     """The sweep run by the interpreter: the compiled kernel's twin (see the module docstring)."""
-    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, exact_below)
+    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below)
 
 
 def _examples(rng: np.random.Generator) -> list[tuple]:
@@ -208,8 +269,9 @@ def _examples(rng: np.random.Generator) -> list[tuple]:
         start = np.concatenate([[0], np.cumsum(per)]).astype(np.int64)
         cell_d = np.concatenate([np.sort(rng.uniform(0.0, dist[-1] * 1.05, p)) for p in per])
         cell_hb = rng.uniform(90.0, 180.0, cell_d.size)
+        cell_hr = cell_hb - rng.uniform(2.0, 30.0, cell_d.size)
         for den in (2.0 * 4.0 / 3.0 * 6_371_000.0, np.inf):
-            out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, 1.0))
+            out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, cell_hr, 1.0))
     return out
 
 
@@ -221,7 +283,7 @@ _sweep_twin = twin("coverage_sweep", sweep_radials_numpy, _examples, _warm, erro
 
 
 def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength_m: float, bulge_den_m: float,
-                  start: np.ndarray, cell_d_m: np.ndarray, cell_hb_m: np.ndarray,
+                  start: np.ndarray, cell_d_m: np.ndarray, cell_hb_m: np.ndarray, cell_surface_m: np.ndarray,
                   exact_below: float = EXACT_BELOW_F1_FRACTION) -> tuple[np.ndarray, ...]:
     """Sweep radials and evaluate their receivers: the arrays of :data:`SWEEP_OUTPUTS`, each (cells,).
 
@@ -230,12 +292,13 @@ def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength
     ``ha_m`` the hub antenna's elevation, m; ``bulge_den_m`` = 2 k a, m;
     ``start`` (R + 1,) receivers of radial r are ``start[r]:start[r + 1]``,
     sorted by distance; ``cell_d_m``, ``cell_hb_m`` each receiver's distance
-    and antenna elevation, m.  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
+    and antenna elevation, m; ``cell_surface_m`` the surface height under
+    each receiver (the profile's last height, for the smooth-surface fit).  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
     (:func:`profiler._compiled.use_numba`; any radial block is large).
     """
     args = (np.ascontiguousarray(dist, dtype=float), np.ascontiguousarray(surface, dtype=float), float(ha_m),
             float(wavelength_m), float(bulge_den_m), np.ascontiguousarray(start, dtype=np.int64),
             np.ascontiguousarray(cell_d_m, dtype=float), np.ascontiguousarray(cell_hb_m, dtype=float),
-            float(exact_below))
+            np.ascontiguousarray(cell_surface_m, dtype=float), float(exact_below))
     fn = _sweep_twin.compiled() if use_numba(max(surface.size, 1 << 20)) else _sweep_twin.numpy
     return fn(*args)

@@ -8,8 +8,9 @@ terrain once with the link engine's elevation model, sweeps them with the
 compiled kernel (:mod:`profiler.coverage._kernels`), and turns the per-cell
 reductions into losses and a budget with the link engine's own functions
 (free space ITU-R P.525-4, knife-edge J(v) ITU-R P.526-15 eq. 31, Bullington
-ITU-R P.526-15 section 4.5.1, gases ITU-R P.676-12 Annex 1, budget as
-:func:`profiler.budget.link_budget`).
+ITU-R P.526-15 section 4.5.1, the complete delta-Bullington method of section
+4.5.2 with the smooth-earth loss of section 3.2, gases ITU-R P.676-12 Annex 1,
+budget as :func:`profiler.budget.link_budget`).
 
 Cost: O(radials x samples) to sample and sweep (each radial sample read once)
 plus a small constant per cell (its own ground height, the hull vertices it
@@ -40,8 +41,9 @@ from .grid import Grid, Lattice, aeqd_crs, fold_lon, hub_grid, raster_grid
 __all__ = ["Hub", "Sector", "CoverageSettings", "CoveragePlan", "BANDS", "COVERAGE_METHODS", "plan_coverage",
            "evaluate_block", "band_names", "off_axis_deg"]
 
-#: Diffraction methods coverage computes exactly from the sweep's running quantities (module _kernels).
-COVERAGE_METHODS = ("bullington", "knife-edge")
+#: Diffraction methods coverage computes from the sweep's running quantities (module _kernels; the
+#: smooth-earth Bullington term of delta-bullington by :func:`_smooth_bullington_db`).
+COVERAGE_METHODS = ("delta-bullington", "bullington", "knife-edge")
 
 #: Bands of the output: (name, unit, description).  ``step`` only with a radio profile.
 BANDS = (
@@ -101,12 +103,14 @@ class CoverageSettings:
     rx_agl_m: float
     radio: Radio
     k: float = 4.0 / 3.0
-    method: str = "bullington"
+    method: str = "delta-bullington"
     cell_m: float | None = None
     spacing_m: float | None = None
     plan: Any = None
     sector: Sector | None = None
     climate: Any = None
+    polarisation: str = "horizontal"
+    ground: str = "land"
     rx_above_surface: bool = False
     block_radials: int = DEFAULT_BLOCK_RADIALS
 
@@ -305,13 +309,16 @@ def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[
     den = 2.0 * s.k * EARTH_RADIUS_M
     d = plan.cell_d[c0:c1]
     start = plan.radial_start
-    q, v, stim, srim, los, ok = sweep_radials(dist, top, ha, lam, den, start, d, hb)
+    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, top, ha, lam, den, start, d, hb, cell_top)
     ok &= d >= 1.0  # a link needs ends 1 m apart (profiler.validation.MIN_PATH_M)
     dd = np.where(ok, d, 1.0)
     if s.method == "knife-edge":
         diffraction = knife_edge_loss_db(v)
     else:
-        diffraction = bullington_from(stim, srim, v, np.full(d.shape, ha), hb, dd, np.full(d.shape, lam))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            diffraction = bullington_from(stim, srim, v, np.full(d.shape, ha), hb, dd, np.full(d.shape, lam))
+        if s.method == "delta-bullington":
+            diffraction = _delta_bullington(diffraction, ha, hb, dd, lam, den, plan.spacing_m, hstd, hsrd, ok, s)
     gases = _gases_db(dd, s)
     total = free_space_loss_db(dd, s.radio.freq_ghz) + diffraction + gases
     radio = s.radio
@@ -335,6 +342,72 @@ def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[
         arr = np.asarray(val, dtype=np.float32).copy()
         arr[bad] = np.nan
         out[name] = arr
+    return out
+
+
+def _smooth_bullington_db(hts: np.ndarray, hrs: np.ndarray, d: np.ndarray, lam: float, den: float,
+                          spacing_m: float) -> np.ndarray:
+    """Bullington over the bare smooth earth (bulge only) sampled at the radial's spacing, dB (ITU-R P.526-15
+    section 4.5.2, Lbulls).
+
+    The slopes from each antenna have one maximum in closed form (d/dx of (d - x) / 2ka - h / x is zero at
+    x = sqrt(2ka h)): the samples either side of it and the end samples are compared.  The largest v is
+    found by a ternary search over the sample indices, which assumes v has one maximum along the path
+    (it does for a bulge under a straight ray; checked against the link engine in the tests).
+    """
+    n = np.maximum(np.ceil(d / spacing_m) - 1.0, 1.0)  # samples strictly between the ends: 1..n
+
+    def elev(i: np.ndarray) -> np.ndarray:
+        x = i * spacing_m
+        return x * (d - x) / den
+
+    def best(values: list[np.ndarray]) -> np.ndarray:
+        return np.max(np.stack(values), axis=0)
+
+    def at(i: np.ndarray) -> np.ndarray:
+        return np.clip(i, 1.0, n)
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        xt = np.sqrt(np.maximum(hts, 0.0) * den) / spacing_m
+        cands = [at(np.ones_like(d)), n, at(np.floor(xt)), at(np.ceil(xt))]
+        stim = best([(elev(i) - hts) / (i * spacing_m) for i in cands])
+        xr = (d - np.sqrt(np.maximum(hrs, 0.0) * den)) / spacing_m
+        cands = [at(np.ones_like(d)), n, at(np.floor(xr)), at(np.ceil(xr))]
+        srim = best([(elev(i) - hrs) / (d - i * spacing_m) for i in cands])
+
+        def v_at(i: np.ndarray) -> np.ndarray:
+            x = i * spacing_m
+            h = elev(i) - (hts + (hrs - hts) * x / d)
+            return h * np.sqrt(2.0 / lam * (1.0 / x + 1.0 / (d - x)))
+
+        lo, hi = np.ones_like(d), n.copy()
+        for _ in range(64):
+            if not np.any(hi - lo > 2.0):
+                break
+            m1 = np.floor(lo + (hi - lo) / 3.0)
+            m2 = np.ceil(hi - (hi - lo) / 3.0)
+            up = v_at(m1) < v_at(m2)
+            lo = np.where(up, m1, lo)
+            hi = np.where(up, hi, m2)
+        v_max = best([v_at(lo), v_at(at(lo + 1.0)), v_at(hi)])
+        return bullington_from(stim, srim, v_max, hts, hrs, d, np.full(d.shape, lam))
+
+
+def _delta_bullington(l_bulla: np.ndarray, ha: float, hb: np.ndarray, d: np.ndarray, lam: float, den: float,
+                      spacing_m: float, hstd: np.ndarray, hsrd: np.ndarray, ok: np.ndarray,
+                      s: CoverageSettings) -> np.ndarray:
+    """Ld = Lbulla + max(Ldsph - Lbulls, 0) (ITU-R P.526-15 section 4.5.2, as
+    :func:`profiler.losses.bullington.delta_bullington`), per cell, dB."""
+    from ..losses.smooth_earth import smooth_earth_loss_db
+
+    hts = ha - np.where(ok, hstd, 0.0)
+    hrs = hb - np.where(ok, hsrd, 0.0)
+    l_dsph = smooth_earth_loss_db(d, hts, hrs, s.radio.freq_ghz, s.k, polarisation=s.polarisation, ground=s.ground)
+    out = l_bulla.copy()
+    rows = np.flatnonzero(~(l_dsph == 0.0) & ok)
+    if rows.size:
+        l_bulls = _smooth_bullington_db(hts[rows], hrs[rows], d[rows], lam, den, spacing_m)
+        out[rows] = l_bulla[rows] + np.maximum(l_dsph[rows] - l_bulls, 0.0)
     return out
 
 

@@ -29,6 +29,7 @@ def _cmd(tmp_path, *extra, out=None):
     (["--hub", "Nowhere", "--sites", str(SITES), "--radius-km", "2"], ["no site of that name", "Nowhere"]),
     (["--hub", "Tallis Farm", "--site", TALLIS, "--sites", str(SITES), "--radius-km", "2"], ["not both"]),
     (["--site", TALLIS, "--agl", "15", "--radius-km", "2", "--diffraction", "deygout"], ["coverage computes"]),
+    (["--site", TALLIS, "--agl", "15", "--radius-km", "2", "--diffraction", "epstein-peterson"], ["coverage computes"]),
     (["--site", TALLIS, "--agl", "15", "--radius-km", "2", "--hub-azimuth-deg", "90"], ["--antenna-a"]),
     (["--site", TALLIS, "--agl", "15", "--radius-km", "2", "--hub-azimuth-deg", "400",
       "--antenna-a", str(REPO / "examples" / "dish-0.6m.toml")], ["sector azimuth"]),
