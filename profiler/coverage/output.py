@@ -227,7 +227,7 @@ def draw_png(path: str, result: CoverageResult, title: str) -> None:
             x0 = extent[0] + 0.06 * span
             y0 = extent[2] + 0.05 * (extent[3] - extent[2])
             ax.plot([x0, x0 + bar / per_unit], [y0, y0], color=COLOURS["ink"], linewidth=3, solid_capstyle="butt")
-            ax.text(x0 + bar / per_unit / 2.0, y0 + 0.015 * (extent[3] - extent[2]),
+            ax.text(x0 + bar / per_unit / 2.0, y0 + 0.022 * (extent[3] - extent[2]),
                     f"{bar / 1000:g} km" if bar >= 1000 else f"{bar:g} m", ha="center", fontsize=8)
         ax.set_xticks([])
         ax.set_yticks([])
