@@ -105,7 +105,7 @@ def _hub_and_candidates(opts: dict):
     if opts.get("sites"):
         table, bad = read_sites(opts["sites"], default_agl_m=opts["rx_agl_m"])
         for row in bad[:20]:
-            click.echo(f"skipped: {row}", err=True)
+            click.echo(f"skipped: {row.describe()}", err=True)
         if len(bad) > 20:
             click.echo(f"skipped: {len(bad) - 20} more rows", err=True)
     if opts.get("hub") and opts.get("site"):

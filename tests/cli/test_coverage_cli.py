@@ -152,3 +152,14 @@ def test_interrupted_run_resumes(tmp_path, cli, monkeypatch):
     assert cli(*_base(tmp_path, "--radius-km", "2", "--out", str(whole))).exit_code == 0
     with rasterio.open(out) as a, rasterio.open(whole) as b:
         assert np.array_equal(a.read(), b.read(), equal_nan=True)
+
+
+def test_a_bad_sites_row_is_reported_and_skipped(tmp_path, cli):
+    sites = tmp_path / "sites.csv"
+    sites.write_text("name,lat,lon,antenna_agl_m\nnear,-30.45,-20.93,6\nbroken,abc,-20.93,6\n")
+    out = tmp_path / "s.tif"
+    result = cli(*_base(tmp_path, "--radius-km", "2", "--out", str(out), "--sites", str(sites)))
+    assert result.exit_code == 0, result.output
+    assert "skipped: sites.csv row 3 ('broken')" in result.stderr
+    rows = list(csv.DictReader(open(tmp_path / "s-sites.csv")))
+    assert [r["name"] for r in rows] == ["near"] and rows[0]["rank"] == "1"
