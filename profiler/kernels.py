@@ -2,7 +2,7 @@
 
 The kernels live beside the code they speed up (:mod:`profiler._sampling_kernels`,
 :mod:`profiler._clearance_kernels`, :mod:`profiler.losses._bullington_kernels`,
-:mod:`profiler.losses._deygout_kernels`); the dispatch rule is in
+:mod:`profiler.losses._deygout_kernels`, :mod:`profiler.coverage._kernels`); the dispatch rule is in
 :mod:`profiler._compiled`.  Importing this module registers every pair in
 :data:`TWINS` (the bit-for-bit test iterates over it) and keeps the old
 import path ``profiler.kernels`` working.
@@ -24,6 +24,7 @@ from .losses._bullington_kernels import (
     bullington_reductions, bullington_reductions_numpy, diffraction_reductions, diffraction_reductions_numpy,
     smooth_heights_numpy,
 )
+from .coverage._kernels import sweep_radials, sweep_radials_numpy
 from .losses._deygout_kernels import summit_dips, summit_dips_numpy
 
 __all__ = [
@@ -31,7 +32,7 @@ __all__ = [
     "bullington_reductions", "bullington_reductions_numpy", "cell_numpy", "clearance_reductions",
     "clearance_reductions_numpy", "diffraction_reductions", "diffraction_reductions_numpy", "gather_bilinear",
     "gather_bilinear_stored", "hermite_numpy", "hermite_paths", "pixel_numpy", "smooth_heights_numpy",
-    "summit_dips", "summit_dips_numpy", "use_numba", "warm_up",
+    "summit_dips", "summit_dips_numpy", "sweep_radials", "sweep_radials_numpy", "use_numba", "warm_up",
 ]
 
 

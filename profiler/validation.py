@@ -120,6 +120,14 @@ LIMITS: dict[str, Limit] = {
                           low_open=True),
     "temperature_c": Limit(-90.0, 60.0, "degC", "the recorded extremes are about -89 and +57 degC (from memory)"),
     "water_vapour_g_m3": Limit(0.0, 100.0, "g/m^3", "saturated air at 50 degC holds about 83 g/m^3 (from memory)"),
+    # Coverage (terrahop coverage)
+    "radius_km": Limit(0.0, 200.0, "km", "a hub's service area; the radio horizon of a 300 m tower over 10 m "
+                       "receivers at k = 4/3 is about 84 km, so 200 km leaves room (common practice)", low_open=True),
+    "rx_agl_m": Limit(0.0, 1000.0, "m", "as antenna_agl_m"),
+    "cell_m": Limit(1.0, 10000.0, "m", "finer than 1 m is below any elevation raster's detail; coarser than "
+                    "10 km is no map of subscribers (common practice)"),
+    "hub_azimuth_deg": Limit(0.0, 360.0, "deg", "a direction from true north"),
+    "hub_downtilt_deg": Limit(-90.0, 90.0, "deg", "from straight up to straight down"),
 }
 
 #: Words used for a setting in messages (the setting's name otherwise).
@@ -137,6 +145,8 @@ LABELS: dict[str, str] = {
     "rain_rate_mm_h": "rain rate", "target_availability_pct": "target availability", "dn1_n_per_km": "dN1",
     "terrain_roughness_m": "terrain roughness", "pressure_hpa": "pressure", "temperature_c": "temperature",
     "water_vapour_g_m3": "water-vapour density",
+    "radius_km": "coverage radius", "rx_agl_m": "receiver height", "cell_m": "output cell size",
+    "hub_azimuth_deg": "sector azimuth", "hub_downtilt_deg": "sector down-tilt",
 }
 
 #: Shortest path analysed, m: below it free-space loss (ITU-R P.525-4 eq. 6)

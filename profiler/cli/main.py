@@ -9,6 +9,7 @@ from typing import Iterator
 import click
 
 from .._version import __version__
+from .coverage import coverage
 from .demo import demo
 from .heights import heights
 from .link import link
@@ -71,6 +72,7 @@ cli.add_command(sheet)
 cli.add_command(screen)
 cli.add_command(terrain)
 cli.add_command(review)
+cli.add_command(coverage)
 
 
 def main() -> None:

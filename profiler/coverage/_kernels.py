@@ -1,0 +1,304 @@
+"""Kernel of the coverage sweep: every receiver on a radial from one pass over its samples.
+
+Along a radial from the hub the samples are met in order of distance.  Two
+running quantities describe everything a receiver further out needs:
+
+* the largest "curved slope" s_i = (z_i - ha) / d_i - d_i / (2 k a) of the
+  samples met so far: the largest elevation slope from the hub, earth bulge
+  included (Bullington's Stim = max s_i + D / (2 k a) for a receiver at D);
+* the upper convex hull of the points (d_i, y_i), y_i = z_i - d_i^2 / (2 k a),
+  kept by Andrew's monotone chain (each sample pushed once, popped at most
+  once).  For a receiver at distance D the bulged heights are
+  y_i + D d_i / (2 k a), a shear of these points, and a shear keeps the hull.
+
+From them, for a receiver at distance D and height hb (both the receiver's
+own, not the sample's):
+
+* line of sight: hb is above every obstacle's ray exactly when
+  (hb - ha) / D > Stim (the clearance of every interior sample is positive);
+* Srim, the largest slope from the receiver (ITU-R P.526-15 section 4.5.1), is
+  the tangent from (D, hb) to the hull: scanned from the hull's far end while
+  it grows (the slope is unimodal along a concave chain);
+* the worst F1 fraction q = min clearance / F1 and the largest v (ITU-R
+  P.526-15 eq. 26; v = -sqrt(2) q) start from the hull's vertices.  Where the
+  path is obstructed (q < 0 at a vertex) that is the minimum over every
+  sample: on a hull edge the clearance is linear and F1 concave, and a sample
+  under an edge has at least the edge's clearance, so it is never worse than
+  the worse end of the edge when the clearance there is negative (a ratio of a
+  linear to a concave positive function is quasi-convex).  Where the path is
+  clear, each hull edge gives a lower bound of q for the samples under it (the
+  smallest clearance / F1 along the edge, in closed form); a path whose bound
+  is under ``exact_below`` (1 F1) has the samples read under every edge whose
+  bound is below the best value found so far (branch and bound: exact); above
+  it the bound itself is reported, a lower bound (never more clearance than
+  the samples have).
+
+For delta-Bullington the kernel also keeps the running sums v1, v2 of the
+smooth-surface fit and a second upper hull of the raw heights (no bulge), so
+each receiver gets the smooth-surface heights hstd, hsrd of ITU-R P.526-15
+section 4.5.2 (the highest obstacle over the straight line, and the largest
+obstacle slopes from each end, by the same running maximum and tangent scans).
+
+Cost: O(radials x samples) for the sweep (each sample enters and leaves the
+hull once); per receiver, the hull vertices it reads (h: tens on real
+terrain, the whole radial only on a smooth convex surface) and, on a clear path
+that may lie under 1 F1, the samples under the few hull edges the bound keeps.
+Nothing else depends on the receiver's distance.  The compiled loop is
+registered with :func:`profiler._compiled.twin`; its twin is the same loop run
+by the interpreter (a sweep with a stack has no vectorised form), so both run
+the same arithmetic in the same order.  Pure functions, no I/O.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .._compiled import twin, use_numba
+
+__all__ = ["sweep_radials", "sweep_radials_numpy", "SWEEP_OUTPUTS", "EXACT_BELOW_F1_FRACTION"]
+
+#: Clear paths whose F1 fraction may lie under this are scanned sample by sample (exact); above it the
+#: reported fraction is a lower bound (our own choice: 1.0 is above every usual criterion, and J(v) = 0 there).
+EXACT_BELOW_F1_FRACTION = 1.0
+
+#: Per receiver: worst F1 fraction, largest v, Stim, Srim, line of sight (1/0), profiled (1/0), and the
+#: smooth-surface heights at the hub and the receiver (ITU-R P.526-15 section 4.5.2), m.
+SWEEP_OUTPUTS = ("f1_fraction", "v_max", "stim", "srim", "line_of_sight", "profiled", "hstd", "hsrd")
+
+
+def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):  # pragma: no cover - run compiled and as twin
+    n_rad, n_s = surface.shape
+    n_cells = cell_d.shape[0]
+    q_out = np.full(n_cells, np.inf)
+    v_out = np.full(n_cells, -np.inf)
+    stim_out = np.full(n_cells, -np.inf)
+    srim_out = np.full(n_cells, -np.inf)
+    los_out = np.zeros(n_cells, dtype=np.bool_)
+    ok_out = np.zeros(n_cells, dtype=np.bool_)
+    hst_out = np.full(n_cells, np.nan)
+    hsr_out = np.full(n_cells, np.nan)
+    rx_ = np.empty(n_s)  # upper hull of the raw heights (no bulge): the smooth-surface fit's obstacle terms
+    ry_ = np.empty(n_s)
+    hx = np.empty(n_s)
+    hy = np.empty(n_s)
+    hi = np.zeros(n_s, dtype=np.int64)  # sample index of each hull vertex
+    edge_low = np.empty(n_s)  # smallest gap / F1 on the hull edge ending at each vertex
+    inv_den = 1.0 / den
+    for r in range(n_rad):
+        m = 0
+        m2 = 0
+        s_max = -np.inf
+        t_max = -np.inf  # largest (z - ha) / d
+        sum1 = 0.0  # ITU-R P.526-15 section 4.5.2 (P.452-17 eq. 161-162): running v1, v2 up to sample j - 1
+        sum2 = 0.0
+        z_prev = surface[r, 0]
+        d_prev = dist[0]
+        hole = False
+        j = 1
+        for c in range(start[r], start[r + 1]):
+            big_d = cell_d[c]
+            hb = cell_hb[c]
+            # Samples strictly between the hub and the receiver enter the running state.
+            while j < n_s and dist[j] < big_d:
+                z = surface[r, j]
+                d = dist[j]
+                j += 1
+                if z != z:
+                    hole = True
+                    continue
+                s = (z - ha) / d - d * inv_den
+                if s > s_max:
+                    s_max = s
+                t = (z - ha) / d
+                if t > t_max:
+                    t_max = t
+                step = d - d_prev
+                sum1 += step * (z + z_prev)
+                sum2 += step * (z * (2.0 * d + d_prev) + z_prev * (d + 2.0 * d_prev))
+                z_prev = z
+                d_prev = d
+                while m2 >= 2 and (rx_[m2 - 1] - rx_[m2 - 2]) * (z - ry_[m2 - 2]) - (ry_[m2 - 1] - ry_[m2 - 2]) * (d - rx_[m2 - 2]) >= 0.0:
+                    m2 -= 1
+                rx_[m2] = d
+                ry_[m2] = z
+                m2 += 1
+                y = z - d * d * inv_den
+                while m >= 2 and (hx[m - 1] - hx[m - 2]) * (y - hy[m - 2]) - (hy[m - 1] - hy[m - 2]) * (d - hx[m - 2]) >= 0.0:
+                    m -= 1
+                hx[m] = d
+                hy[m] = y
+                hi[m] = j - 1
+                m += 1
+            if hole or hb != hb or big_d > dist[n_s - 1] or big_d <= 0.0:
+                continue
+            ok_out[c] = True
+            # Smooth-surface heights at both ends (ITU-R P.526-15 section 4.5.2), the last segment to the
+            # receiver's own surface height added to the running sums.
+            hr = cell_hr[c]
+            step = big_d - d_prev
+            v1 = sum1 + step * (hr + z_prev)
+            v2 = sum2 + step * (hr * (2.0 * big_d + d_prev) + z_prev * (big_d + 2.0 * d_prev))
+            hst = (2.0 * v1 * big_d - v2) / (big_d * big_d)
+            hsr = (v2 - v1 * big_d) / (big_d * big_d)
+            if m2 > 0:
+                slope_tr = (hb - ha) / big_d
+                hobs = -np.inf
+                for k in range(m2):
+                    o = ry_[k] - ha - slope_tr * rx_[k]
+                    if o > hobs:
+                        hobs = o
+                aobt = t_max - slope_tr
+                best_r = -np.inf
+                k = m2 - 1
+                while k >= 0:
+                    val = (ry_[k] - hb) / (big_d - rx_[k])
+                    if val < best_r:
+                        break
+                    best_r = val
+                    k -= 1
+                aobr = best_r + slope_tr
+                if hobs > 0.0:
+                    share = aobt / (aobt + aobr)
+                    hst = hst - hobs * share
+                    hsr = hsr - hobs * (1.0 - share)
+            hst_out[c] = min(hst, surface[r, 0])
+            hsr_out[c] = min(hsr, hr)
+            if m == 0:
+                los_out[c] = True
+                continue
+            shear = big_d * inv_den
+            stim = s_max + shear
+            stim_out[c] = stim
+            los_out[c] = (hb - ha) / big_d > stim
+            # Srim: the tangent from the receiver, scanned back from the hull's far end.
+            best = -np.inf
+            k = m - 1
+            while k >= 0:
+                val = (hy[k] + shear * hx[k] - hb) / (big_d - hx[k])
+                if val < best:
+                    break
+                best = val
+                k -= 1
+            srim_out[c] = best
+            rise = (hb - ha) / big_d
+            q_min = np.inf
+            v_max = -np.inf
+            q_low = np.inf
+            g_prev = 0.0
+            q_prev = 0.0
+            k_low = 0
+            for k in range(m):
+                d1 = hx[k]
+                d2 = big_d - d1
+                gap = ha + rise * d1 - (hy[k] + shear * d1)
+                f1 = np.sqrt(lam * d1 * d2 / big_d)
+                q = gap / f1
+                if q < q_min:
+                    q_min = q
+                v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                if v > v_max:
+                    v_max = v
+                if k > 0:
+                    low = min(q, q_prev)
+                    if gap > 0.0 and g_prev > 0.0:
+                        # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
+                        # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
+                        x0 = hx[k - 1]
+                        be = (gap - g_prev) / (d1 - x0)
+                        al = g_prev - be * x0
+                        den_x = be * big_d + 2.0 * al
+                        if den_x != 0.0:
+                            xs = al * big_d / den_x
+                            if x0 < xs < d1:
+                                qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
+                                if qe < low:
+                                    low = qe
+                    else:
+                        low = -np.inf
+                    edge_low[k] = low
+                    if low < q_low:
+                        q_low = low
+                        k_low = k
+                g_prev = gap
+                q_prev = q
+            if q_min < q_low:
+                q_low = q_min
+            if q_min < 0.0:
+                pass  # obstructed: the vertices hold the minimum over every sample (module docstring)
+            elif q_low >= exact_below:
+                q_min = q_low  # at least this clear: a lower bound, reported as such
+                v_max = -np.sqrt(2.0) * q_low
+            else:
+                # Marginal: the samples under every hull edge that could hold a smaller fraction than the
+                # best vertex (a sample under an edge is no closer than the edge itself: branch and bound),
+                # read as the link engine reads them.
+                # The most promising edge first, so the bound tightens early.
+                for kk in range(m):
+                    k = k_low if kk == 0 else (kk if kk != k_low else 0)
+                    if k == 0 or edge_low[k] >= q_min:
+                        continue
+                    for i in range(hi[k - 1] + 1, hi[k]):
+                        z = surface[r, i]
+                        d1 = dist[i]
+                        d2 = big_d - d1
+                        gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
+                        q = gap / np.sqrt(lam * d1 * d2 / big_d)
+                        if q < q_min:
+                            q_min = q
+                        v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                        if v > v_max:
+                            v_max = v
+            q_out[c] = q_min
+            v_out[c] = v_max
+    return q_out, v_out, stim_out, srim_out, los_out, ok_out, hst_out, hsr_out
+
+
+def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):
+    """The sweep run by the interpreter: the compiled kernel's twin (see the module docstring)."""
+    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below)
+
+
+def _examples(rng: np.random.Generator) -> list[tuple]:
+    out = []
+    for n_rad, n_s, flat in ((6, 120, False), (3, 40, True)):
+        dist = np.arange(n_s) * 15.0
+        surface = np.zeros((n_rad, n_s)) if flat else rng.normal(100.0, 25.0, (n_rad, n_s))
+        if not flat:
+            surface[1, 50] = np.nan  # a nodata hole: receivers behind it are not profiled
+        per = rng.integers(0, 30, n_rad)
+        start = np.concatenate([[0], np.cumsum(per)]).astype(np.int64)
+        cell_d = np.concatenate([np.sort(rng.uniform(0.0, dist[-1] * 1.05, p)) for p in per])
+        cell_hb = rng.uniform(90.0, 180.0, cell_d.size)
+        cell_hr = cell_hb - rng.uniform(2.0, 30.0, cell_d.size)
+        for den in (2.0 * 4.0 / 3.0 * 6_371_000.0, np.inf):
+            out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, cell_hr, 1.0))
+    return out
+
+
+def _warm(_dtypes: tuple) -> list[tuple]:
+    return _examples(np.random.default_rng(0))[:1]
+
+
+_sweep_twin = twin("coverage_sweep", sweep_radials_numpy, _examples, _warm, error_model="numpy")(_sweep)
+
+
+def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength_m: float, bulge_den_m: float,
+                  start: np.ndarray, cell_d_m: np.ndarray, cell_hb_m: np.ndarray, cell_surface_m: np.ndarray,
+                  exact_below: float = EXACT_BELOW_F1_FRACTION) -> tuple[np.ndarray, ...]:
+    """Sweep radials and evaluate their receivers: the arrays of :data:`SWEEP_OUTPUTS`, each (cells,).
+
+    ``dist`` (S,) sample distances from the hub, m (``dist[0]`` = 0, the hub);
+    ``surface`` (R, S) heights along each radial, m (NaN: not covered);
+    ``ha_m`` the hub antenna's elevation, m; ``bulge_den_m`` = 2 k a, m;
+    ``start`` (R + 1,) receivers of radial r are ``start[r]:start[r + 1]``,
+    sorted by distance; ``cell_d_m``, ``cell_hb_m`` each receiver's distance
+    and antenna elevation, m; ``cell_surface_m`` the surface height under
+    each receiver (the profile's last height, for the smooth-surface fit).  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
+    (:func:`profiler._compiled.use_numba`; any radial block is large).
+    """
+    args = (np.ascontiguousarray(dist, dtype=float), np.ascontiguousarray(surface, dtype=float), float(ha_m),
+            float(wavelength_m), float(bulge_den_m), np.ascontiguousarray(start, dtype=np.int64),
+            np.ascontiguousarray(cell_d_m, dtype=float), np.ascontiguousarray(cell_hb_m, dtype=float),
+            np.ascontiguousarray(cell_surface_m, dtype=float), float(exact_below))
+    fn = _sweep_twin.compiled() if use_numba(max(surface.size, 1 << 20)) else _sweep_twin.numpy
+    return fn(*args)
