@@ -405,10 +405,69 @@ def summary_line(record: dict) -> str:
     if fm["p50"] is not None:
         text += f"; fade margin 5/50/95 % {_fmt(fm['p5'], 1)}/{_fmt(fm['p50'], 1)}/{_fmt(fm['p95'], 1)} dB"
     text += (f" ({m['draws']} draws, seed {m['seed']}; DEM sigma {dem['sigma_m']:.2g} m "
-             f"[{dem['source'].split(':')[0]}], correlation {corr_text}, antenna sigma "
+             f"({dem['source'].split(' ')[0].rstrip(':')}), correlation {corr_text}, antenna sigma "
              f"{m['antenna_error']['sigma_m']:g} m, k drawn)")
     return text
 
 
 def _fmt(v: Any, digits: int = 2) -> str:
     return "n/a" if v is None else f"{v:+.{digits}f}"
+
+
+#: Option names of the confidence settings and the word each takes (the CLI's flags, link files' keys).
+OPTIONS = {"draws": "N", "seed": "N", "dem_error_m": "SIGMA", "dem_error_corr_m": "M", "antenna_error_m": "M"}
+
+
+def _parsed(opts: dict, name: str) -> Any:
+    """The option ``name`` of ``opts`` as a number (None when absent); InputError naming the option."""
+    value = opts.get(name)
+    if value is None:
+        return None
+    word = OPTIONS[name]
+    if name in ("draws", "seed"):
+        text = str(value).strip()
+        if isinstance(value, bool) or not text.lstrip("+").isdigit():
+            raise InputError(f"{{parameter}} must be a whole number, got {value!r}", parameter=name,
+                             value_word=word)
+        number: Any = int(text)
+        if name == "seed":
+            return number
+    elif name == "dem_error_corr_m" and str(value).strip().lower() in ("inf", "infinity", "profile"):
+        return np.inf
+    else:
+        try:
+            number = float(str(value).strip())
+        except ValueError:
+            raise InputError(f"{{parameter}} must be a number, got {value!r}", parameter=name,
+                             value_word=word) from None
+    limit = LIMITS[name]
+    if not np.isfinite(number) or not bool(limit.holds(np.float64(number))):
+        extra = f" (fewer than {MIN_DRAWS} draws leave the 5/95 % points on fewer than 5 draws)" \
+            if name == "draws" else ""
+        raise InputError(f"{{parameter}} must lie {limit.describe()}, got {value}{extra}", parameter=name,
+                         value_word=word)
+    return number
+
+
+def resolve_confidence(opts: dict, always: bool = False) -> ConfidenceSettings | None:
+    """Confidence settings from options (``draws``, ``seed``, ``dem_error_m``, ``dem_error_corr_m``,
+    ``antenna_error_m``); None when none is given (no confidence asked) unless ``always``."""
+    values = {name: _parsed(opts, name) for name in OPTIONS}
+    given = {k: v for k, v in values.items() if v is not None}
+    if not given and not always:
+        return None
+    return ConfidenceSettings(**given).validate()
+
+
+def confidence_level(value: Any) -> float:
+    """A confidence (probability) in (0, 1) for the height solver; InputError naming ``--confidence``."""
+    try:
+        number = float(str(value).strip())
+    except ValueError:
+        raise InputError(f"{{parameter}} must be a probability such as 0.9, got {value!r}",
+                         parameter="confidence", value_word="P") from None
+    limit = LIMITS["confidence"]
+    if not np.isfinite(number) or not bool(limit.holds(np.float64(number))):
+        raise InputError(f"{{parameter}} must lie {limit.describe()} (a probability, e.g. 0.9), got {value}",
+                         parameter="confidence", value_word="P")
+    return number

@@ -108,6 +108,8 @@ class LinkJob:
     eirp_limit: Any = None
     #: Fade margin, dB, a link needs at the design k to be viable (--min-margin-db, [analysis]); None: default.
     min_margin_db: float | None = None
+    #: Monte Carlo confidence asked for (profiler.confidence.ConfidenceSettings), or None.
+    confidence: Any = None
 
 
 def default_text(name: str) -> str:
@@ -295,7 +297,15 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         antenna_a=antennas.get("a"),
         antenna_b=antennas.get("b"),
         install_date=resolve_install_date(opts),
+        confidence=_resolve_confidence(opts),
     )
+
+
+def _resolve_confidence(opts: dict[str, Any]) -> Any:
+    """Confidence settings from the options (profiler.confidence), None when none is given."""
+    from .confidence import resolve_confidence
+
+    return resolve_confidence(opts)
 
 
 # --- antennas and installer figures (profiler.equipment) -----------------------
@@ -725,4 +735,10 @@ def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings 
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
         radio_plan=job.radio_plan, eirp_limit=job.eirp_limit,
     )
-    return with_equipment(batch, job)
+    batch = with_equipment(batch, job)
+    if job.confidence is not None:  # the `confidence` block (profiler.confidence)
+        from .confidence import confidence_for_batch
+
+        batch = dataclasses.replace(batch, confidence=confidence_for_batch(
+            batch, job.confidence, tree_allowance_m=job.tree_allowance_m if surroundings is not None else None))
+    return batch
