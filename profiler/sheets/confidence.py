@@ -1,0 +1,54 @@
+"""The sheet's confidence figures: the band of the terrain's uncertainty and the table rows.
+
+The band is the drawn surface +- 1.645 sigma (the 5 % and 95 % points of a
+Gaussian error, scipy.stats.norm.ppf(0.95)) with sigma the combined elevation
+and clutter sigma of :mod:`profiler.confidence`; the rows give the
+probabilities of the record's ``confidence`` block.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+__all__ = ["BAND_Z", "draw_uncertainty_band", "confidence_rows"]
+
+#: Half-width of the band in sigmas: the 5-95 % range of a Gaussian error.
+BAND_Z = 1.6449
+
+
+def draw_uncertainty_band(ax: Any, d: Any, f: Any, legend: list) -> None:
+    """Shade surface +- 1.645 sigma (design-k heights) when the drawing carries the sigma."""
+    sigma = getattr(d, "uncertainty_m", None)
+    if sigma is None:
+        return
+    from matplotlib.patches import Patch
+
+    half = BAND_Z * np.asarray(sigma, dtype=float) * f.u
+    ax.fill_between(f.x, f.surface - half, f.surface + half, facecolor="#8C6D46", alpha=0.25, edgecolor="none",
+                    zorder=1.5)
+    legend.append(Patch(facecolor="#8C6D46", alpha=0.25, edgecolor="none",
+                        label="terrain 5-95 % (elevation error)"))
+
+
+def confidence_rows(record: dict) -> list:
+    """Rows of the parameter table from the record's ``confidence`` block (none without it)."""
+    c = record.get("confidence")
+    if not c:
+        return []
+    from .table import Row
+
+    m = c["model"]
+    dem = m["dem_error"]
+    corr = dem["correlation_length_m"]
+    corr_text = f"{corr:g} m" if isinstance(corr, (int, float)) else str(corr)
+    q = c["worst_f1_fraction"]
+    return [
+        Row("Confidence", f"{m['draws']} draws", f"seed {m['seed']}", kind="section"),
+        Row("P(meets criterion)", f"{100 * c['p_meets_criterion']:.1f} %", None,
+            flag="good" if c["p_meets_criterion"] >= 0.9 else "bad"),
+        Row("P(line of sight)", f"{100 * c['p_line_of_sight']:.1f} %", None),
+        Row("Worst clearance 5/95 %", f"{q['p5']:+.2f} / {q['p95']:+.2f} F1", None),
+        Row("Elevation error (1 sigma)", f"{dem['sigma_m']:.2g} m", f"corr. {corr_text}"),
+    ]
