@@ -735,10 +735,14 @@ def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings 
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
         radio_plan=job.radio_plan, eirp_limit=job.eirp_limit,
     )
-    batch = with_equipment(batch, job)
-    if job.confidence is not None:  # the `confidence` block (profiler.confidence)
-        from .confidence import confidence_for_batch
+    return with_confidence(with_equipment(batch, job), job, surroundings)
 
-        batch = dataclasses.replace(batch, confidence=confidence_for_batch(
-            batch, job.confidence, tree_allowance_m=job.tree_allowance_m if surroundings is not None else None))
-    return batch
+
+def with_confidence(batch: LinkBatch, job: LinkJob, surroundings: Any) -> LinkBatch:
+    """``batch`` with its Monte Carlo confidence (profiler.confidence) when the job asks for it."""
+    if job.confidence is None:
+        return batch
+    from .confidence import confidence_for_batch
+
+    return dataclasses.replace(batch, confidence=confidence_for_batch(
+        batch, job.confidence, tree_allowance_m=job.tree_allowance_m if surroundings is not None else None))

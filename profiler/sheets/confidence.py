@@ -32,13 +32,13 @@ def draw_uncertainty_band(ax: Any, d: Any, f: Any, legend: list) -> None:
                         label="terrain 5-95 % (elevation error)"))
 
 
-def confidence_rows(record: dict) -> list:
-    """Rows of the parameter table from the record's ``confidence`` block (none without it)."""
+def confidence_rows(record: dict) -> list[tuple]:
+    """Rows of the parameter table (label, left, right, kind, flag; see sheets.table.Row) from the
+    record's ``confidence`` block (none without it)."""
     c = record.get("confidence")
     if not c:
         return []
-    from .table import Row
-
+    Row = _row  # noqa: N806 (the table's field order)
     m = c["model"]
     dem = m["dem_error"]
     corr = dem["correlation_length_m"]
@@ -52,3 +52,7 @@ def confidence_rows(record: dict) -> list:
         Row("Worst clearance 5/95 %", f"{q['p5']:+.2f} / {q['p95']:+.2f} F1", None),
         Row("Elevation error (1 sigma)", f"{dem['sigma_m']:.2g} m", f"corr. {corr_text}"),
     ]
+
+
+def _row(label: str, left: str = "", right: str | None = "", kind: str = "row", flag: str = "") -> tuple:
+    return (label, left, right, kind, flag)

@@ -208,7 +208,7 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
     rows += availability_rows(record)
     from .confidence import confidence_rows
 
-    rows += confidence_rows(record)
+    rows += [Row(*cells) for cells in confidence_rows(record)]
     return rows
 
 
