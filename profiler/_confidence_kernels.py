@@ -57,7 +57,7 @@ def confidence_draws_numpy(
 
 
 def _examples(rng: np.random.Generator) -> list[tuple]:
-    out = []
+    out: list[tuple] = []
     for width, n_draws, corr in ((60, 40, 300.0), (3, 5, 1e-9), (25, 7, np.inf)):
         length = rng.uniform(1_000.0, 30_000.0)
         d1 = np.linspace(0.0, length, width)
@@ -79,9 +79,9 @@ def _examples(rng: np.random.Generator) -> list[tuple]:
         z = rng.standard_normal((n_draws, width))
         ea = rng.normal(0.0, 0.3, n_draws)
         eb = rng.normal(0.0, 0.3, n_draws)
-        out = out + [(surface, sigma, rho, innov, interior, d1 / length, f1, d1d2 / den_d, d1d2 / den_w, d1d2,
+        out.append((surface, sigma, rho, innov, interior, d1 / length, f1, d1d2 / den_d, d1d2 / den_w, d1d2,
                       surface[0] + 30.0, surface[-1] + 20.0, 1.0, 0.0, z, ea, eb, den_draw,
-                      np.empty((n_draws, width)))]
+                      np.empty((n_draws, width))))
     return out
 
 

@@ -434,7 +434,7 @@ def solve_heights_with_confidence(
     pairs = verify(cands)
     # Rounding at the boundary can leave a pair a hair short: raise the solved end a step (as the plain solver).
     for _ in range(3):
-        short = [j for j, h in enumerate(pairs) if h.p_meets < confidence]
+        short = [j for j, h in enumerate(pairs) if (h.p_meets or 0.0) < confidence]
         if not short:
             break
         bump = np.array([step_m, 0.0]) if solve == "a" else np.array([0.0, step_m])
@@ -443,7 +443,7 @@ def solve_heights_with_confidence(
         keep = (cands[:, 0] <= limits[0] + _TOLERANCE_M) & (cands[:, 1] <= limits[1] + _TOLERANCE_M)
         cands = cands[keep]
         pairs = verify(cands)
-    pairs = [h for h in pairs if h.p_meets >= confidence]
+    pairs = [h for h in pairs if (h.p_meets or 0.0) >= confidence]
     chosen = min(pairs, key=lambda h: (round(h.sum_m, 9), round(max(h.antenna_a_m, h.antenna_b_m), 9),
                                        h.antenna_a_m)) if pairs else None
     lower: list[HeightPair] = []
