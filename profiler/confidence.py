@@ -253,7 +253,7 @@ class ConfidenceResult:
 
 def _dem_sigma(settings: ConfidenceSettings, provenance: dict) -> tuple[float, str]:
     if settings.dem_error_m is not None:
-        return float(settings.dem_error_m), "given (--dem-error-m)"
+        return float(settings.dem_error_m), "given (--dem-error-m or [confidence] dem_error_m)"
     source = (provenance.get("terrain_source") or {}).get("source")
     if source in DEM_ERROR_M:
         return DEM_ERROR_M[source]
@@ -276,7 +276,8 @@ def _model_record(settings: ConfidenceSettings, dem: tuple[float, str], k: float
                           for code in settings.clutter_error_m},
         "clutter_combined": "sqrt(dem sigma^2 + clutter sigma^2), in the same field as the terrain",
         **({"tree_allowance_m": tree_allowance_m} if tree_allowance_m is not None else {}),
-        "antenna_error": {"sigma_m": settings.antenna_error_m, "source": "given (--antenna-error-m)"
+        "antenna_error": {"sigma_m": settings.antenna_error_m,
+                          "source": "given (--antenna-error-m or [confidence] antenna_error_m)"
                           if settings.antenna_error_m != DEFAULT_ANTENNA_ERROR_M else "default (common practice)",
                           "ends_on_drawn_ground": {"a": follow[0], "b": follow[1]}},
         "k": ({"method": "refractivity gradient G Gaussian, k = 157/(157+G) (ITU-R P.453, from memory); median "

@@ -297,15 +297,23 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         antenna_a=antennas.get("a"),
         antenna_b=antennas.get("b"),
         install_date=resolve_install_date(opts),
-        confidence=_resolve_confidence(opts),
+        confidence=_resolve_confidence(opts, spec),
     )
 
 
-def _resolve_confidence(opts: dict[str, Any]) -> Any:
-    """Confidence settings from the options (profiler.confidence), None when none is given."""
-    from .confidence import resolve_confidence
+def _resolve_confidence(opts: dict[str, Any], spec: LinkSpec) -> Any:
+    """Confidence settings from the options over the link file's [confidence] (profiler.confidence);
+    None when neither gives any.  A bad file value is named by file, table and key."""
+    from .confidence import OPTIONS, resolve_confidence
 
-    return resolve_confidence(opts)
+    for key, value in spec.confidence.items():
+        if opts.get(key) is None:
+            try:
+                resolve_confidence({key: value})
+            except InputError as exc:
+                raise InputError(f"{spec.path}: [confidence] {exc.render(lambda name, word: name)}") from None
+    merged = {k: spec.confidence.get(k) if opts.get(k) is None else opts[k] for k in OPTIONS}
+    return resolve_confidence(merged)
 
 
 # --- antennas and installer figures (profiler.equipment) -----------------------

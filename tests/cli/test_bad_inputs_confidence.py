@@ -52,3 +52,17 @@ def test_screen_rank_by_p_meets_needs_confidence(tmp_path):
 def test_screen_rank_by_unknown(tmp_path):
     assert_refused(["screen", SITES, "--dem", DEMO_DEM, "--freq-ghz", "5.8", "-o", tmp_path / "s.csv",
                     "--rank-by", "margin"], ["--rank-by", "fade_margin_db"], inputs=[SITES, DEMO_DEM])
+
+
+@pytest.mark.parametrize("line, words", [
+    ("dem_error_corr_m = 0", ["[confidence] dem_error_corr_m", "above 0"]),
+    ("draws = 50", ["[confidence] draws", "100"]),
+    ("dem_error_m = true", ["[confidence] dem_error_m", "number"]),
+    ("seed = -1", ["[confidence] seed"]),
+    ("sigma = 2", ["unknown key", "[confidence]", "sigma"]),
+])
+def test_link_file_confidence_table_refused(line, words, tmp_path):
+    text = (EXAMPLES / "demo-2-grazing.toml").read_text().replace("../data/demo/terrain.tif", str(DEMO_DEM))
+    f = tmp_path / "link.toml"
+    f.write_text(text + f"\n[confidence]\n{line}\n")
+    assert_refused(["link", f], words, inputs=[f, DEMO_DEM])

@@ -66,3 +66,13 @@ def test_plain_screen_has_no_probability_columns(tmp_path):
     _run("screen", REPO / "data" / "demo" / "sites.csv", "--dem", DEMO_DEM, "--freq-ghz", "5.8", "-o", out,
          "--workers", "1", "--max-km", "4", "-q")
     assert "p_meets" not in out.read_text().splitlines()[0]
+
+
+def test_link_file_confidence_table_and_flags_over_it(tmp_path):
+    text = (EXAMPLES / "demo-2-grazing.toml").read_text().replace("../data/demo/terrain.tif", str(DEMO_DEM))
+    f = tmp_path / "link.toml"
+    f.write_text(text + "\n[confidence]\ndraws = 200\ndem_error_m = 1.5\ndem_error_corr_m = \"inf\"\n")
+    r = json.loads(_run("link", f, "--json"))["confidence"]["model"]
+    assert (r["draws"], r["dem_error"]["sigma_m"], r["dem_error"]["correlation_length_m"]) == (200, 1.5, "whole profile")
+    r = json.loads(_run("link", f, "--draws", "300", "--json"))["confidence"]["model"]
+    assert (r["draws"], r["dem_error"]["sigma_m"]) == (300, 1.5)
