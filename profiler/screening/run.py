@@ -141,6 +141,10 @@ def screen(
     radios : SiteRadios, optional
         Radio profiles per site and EIRP limits (:class:`profiler.equipment.modulation.SiteRadios`,
         made by :func:`profiler.jobs.site_radios`); ``radio`` is then the flags' one-step radio.
+    confidence : profiler.confidence.ConfidenceSettings, optional
+        Adds the columns ``p_meets`` and ``p_los`` (Monte Carlo, seeded per pair by its ends).
+    rank_by : str
+        ``fade_margin_db`` (default) or ``p_meets`` (needs ``confidence``; ties by fade margin).
     inputs : paths
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
