@@ -16,9 +16,9 @@ The model (every part is written into the ``confidence`` record):
   (a simplification: the clutter error is drawn with the terrain's
   correlation).  The tree allowance stays as given: it moves the median, the
   sigma spreads around it.
-* **Antenna ends**: an antenna given above ground stands on the drawn ground
-  (its end sample's error moves it); one given as an elevation, above the
-  ellipsoid or above a roof keeps its elevation.  Each antenna adds an
+* **Antenna ends**: an antenna given above the ground or above a roof stands
+  on the drawn surface (its end sample's error moves it); one given as an
+  elevation or above the ellipsoid keeps its elevation.  Each antenna adds an
   independent Gaussian height error ``antenna_error_m``.
 * **k-factor**: the refractivity gradient G (N-units/km) is Gaussian; k =
   157 / (157 + G) (ITU-R P.453-14 / P.530-17, the effective radius relation,
@@ -279,7 +279,7 @@ def _model_record(settings: ConfidenceSettings, dem: tuple[float, str], k: float
         "antenna_error": {"sigma_m": settings.antenna_error_m,
                           "source": "given (--antenna-error-m or [confidence] antenna_error_m)"
                           if settings.antenna_error_m != DEFAULT_ANTENNA_ERROR_M else "default (common practice)",
-                          "ends_on_drawn_ground": {"a": follow[0], "b": follow[1]}},
+                          "on_drawn_surface": {"a": follow[0], "b": follow[1]}},
         "k": ({"method": "refractivity gradient G Gaussian, k = 157/(157+G) (ITU-R P.453, from memory); median "
                          "from the design k, the worst-case k as the 99.9 % point",
                "gradient_median_n_per_km": g50, "gradient_sigma_n_per_km": gsig,
@@ -352,9 +352,10 @@ def draws_of(batch: Any, i: int, settings: ConfidenceSettings, dem_sigma_m: floa
 
 
 def _follows(batch: Any, tag: str, i: int) -> bool:
-    """True when the antenna at end ``tag`` is given above the ground (it stands on the drawn ground)."""
+    """True when the antenna at end ``tag`` is given above the ground or a roof (it stands on the drawn
+    surface at its end); False for an elevation or a height above the ellipsoid (fixed)."""
     placements = getattr(batch, f"placements_{tag}", None)
-    return placements is None or placements[i].reference == "ground"
+    return placements is None or placements[i].reference in ("ground", "roof")
 
 
 def _points(values: np.ndarray) -> np.ndarray:

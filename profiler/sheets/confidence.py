@@ -16,20 +16,29 @@ __all__ = ["BAND_Z", "draw_uncertainty_band", "confidence_rows"]
 
 #: Half-width of the band in sigmas: the 5-95 % range of a Gaussian error.
 BAND_Z = 1.6449
+BAND_COLOUR = "#8C6D46"
 
 
-def draw_uncertainty_band(ax: Any, d: Any, f: Any, legend: list) -> None:
-    """Shade surface +- 1.645 sigma (design-k heights) when the drawing carries the sigma."""
+def draw_uncertainty_band(ax: Any, d: Any, f: Any, legend: list, record: dict) -> None:
+    """Shade the ground +- 1.645 sigma of the elevation data, and the top of clutter +- 1.645 of its
+    combined sigma (design-k heights), when the drawing carries the sigma.
+
+    On buildings and trees only the upper half is drawn (the clutter hides the lower).
+    """
     sigma = getattr(d, "uncertainty_m", None)
-    if sigma is None:
+    block = record.get("confidence")
+    if sigma is None or not block:
         return
     from matplotlib.patches import Patch
 
-    half = BAND_Z * np.asarray(sigma, dtype=float) * f.u
-    ax.fill_between(f.x, f.surface - half, f.surface + half, facecolor="#8C6D46", alpha=0.25, edgecolor="none",
-                    zorder=1.5)
-    legend.append(Patch(facecolor="#8C6D46", alpha=0.25, edgecolor="none",
-                        label="terrain 5-95 % (elevation error)"))
+    style = dict(facecolor=BAND_COLOUR, alpha=0.30, edgecolor="none")
+    dem_half = BAND_Z * float(block["model"]["dem_error"]["sigma_m"]) * f.u
+    ax.fill_between(f.x, f.ground - dem_half, f.ground + dem_half, zorder=1.5, **style)
+    on_clutter = np.asarray(d.clutter_m) > 0
+    if on_clutter.any():
+        half = BAND_Z * np.asarray(sigma, dtype=float) * f.u
+        ax.fill_between(f.x, f.surface, f.surface + half, where=on_clutter, zorder=1.6, **style)
+    legend.append(Patch(label="terrain and clutter 5-95 %", **style))
 
 
 def confidence_rows(record: dict) -> list[tuple]:
