@@ -81,10 +81,14 @@ def format_heights(r: dict) -> str:
     ]
     if not r["feasible"]:
         lim = r["at_limits"]
+        sure = r.get("confidence")
         lines.append(
-            f"NO height pair within the mast limits meets the criterion: at a {lim['antenna_a_m']:g} m, "
+            "NO height pair within the mast limits meets the criterion"
+            + (f" with probability {100 * sure:g} %" if sure is not None else "")
+            + f": at a {lim['antenna_a_m']:g} m, "
             f"b {lim['antenna_b_m']:g} m the clearance is {lim['f1_fraction']:+.2f} F1 design, "
             f"{lim['f1_fraction_worst']:+.2f} F1 worst case"
+            + (f", P(meets) {100 * lim['p_meets']:.1f} %" if sure is not None else "")
         )
         return "\n".join(lines)
     conf = r.get("confidence")
