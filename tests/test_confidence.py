@@ -119,3 +119,13 @@ def test_nothing_asked_means_no_confidence():
     assert resolve_confidence({}) is None
     assert resolve_confidence({"draws": "500"}).draws == 500
     assert resolve_confidence({"dem_error_corr_m": "inf"}).dem_error_corr_m == np.inf
+
+
+def test_every_fetched_dataset_has_a_stated_accuracy():
+    from profiler.confidence import DEM_ERROR_M
+    from profiler.terrain_sources.datasets import DATASETS
+
+    assert set(DEM_ERROR_M) == set(DATASETS)
+    # sigma = LE90 / 1.645 for a Gaussian error (scipy.stats.norm.ppf(0.95) = 1.6449)
+    assert DEM_ERROR_M["copernicus-30"][0] == pytest.approx(4.0 / norm.ppf(0.95), rel=1e-4)
+    assert DEM_ERROR_M["srtm-1"][0] == pytest.approx(16.0 / norm.ppf(0.95), rel=1e-4)
