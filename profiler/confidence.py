@@ -408,7 +408,7 @@ def summary_line(record: dict) -> str:
         text += f"; fade margin 5/50/95 % {_fmt(fm['p5'], 1)}/{_fmt(fm['p50'], 1)}/{_fmt(fm['p95'], 1)} dB"
     text += (f" ({m['draws']} draws, seed {m['seed']}; DEM sigma {dem['sigma_m']:.2g} m "
              f"({dem['source'].split(' ')[0].rstrip(':')}), correlation {corr_text}, antenna sigma "
-             f"{m['antenna_error']['sigma_m']:g} m, k drawn)")
+             f"{m['antenna_error']['sigma_m']:g} m, k {'fixed' if m['k']['method'] == 'fixed' else 'drawn'})")
     return text
 
 
