@@ -76,3 +76,13 @@ def test_link_file_confidence_table_and_flags_over_it(tmp_path):
     assert (r["draws"], r["dem_error"]["sigma_m"], r["dem_error"]["correlation_length_m"]) == (200, 1.5, "whole profile")
     r = json.loads(_run("link", f, "--draws", "300", "--json"))["confidence"]["model"]
     assert (r["draws"], r["dem_error"]["sigma_m"]) == (300, 1.5)
+
+
+def test_zero_error_reproduces_the_plain_figures_exactly():
+    r = json.loads(_run("link", EXAMPLES / "demo-1-clear.toml", "--dem-error-m", "0", "--antenna-error-m", "0",
+                        "--json"))
+    c = r["confidence"]
+    assert c["p_meets_criterion"] == float(r["meets_criterion"]) == 1.0
+    assert set(c["worst_f1_fraction"].values()) == {r["clearance"]["worst_f1_fraction"]}
+    assert set(c["diffraction_loss_db"].values()) == {r["loss_db"]["diffraction"]}
+    assert set(c["fade_margin_db"].values()) == {r["budget"]["fade_margin_db"]}
