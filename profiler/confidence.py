@@ -115,6 +115,9 @@ class ConfidenceSettings:
     antenna_error_m: float = DEFAULT_ANTENNA_ERROR_M
     clutter_error_m: dict = field(default_factory=lambda: {k: v[0] for k, v in CLUTTER_ERROR_M.items()})
     vary_k: bool = True
+    #: Fetched dataset the heights come from (a name of DEM_ERROR_M), when the caller knows it better than
+    #: the batch's provenance (screening sets it: its workers' models carry no provenance).
+    terrain_source: str | None = None
 
     def validate(self) -> "ConfidenceSettings":
         """These settings, checked (ranges in :data:`profiler.validation.LIMITS`); InputError naming the setting."""
@@ -254,7 +257,7 @@ class ConfidenceResult:
 def _dem_sigma(settings: ConfidenceSettings, provenance: dict) -> tuple[float, str]:
     if settings.dem_error_m is not None:
         return float(settings.dem_error_m), "given (--dem-error-m or [confidence] dem_error_m)"
-    source = (provenance.get("terrain_source") or {}).get("source")
+    source = settings.terrain_source or (provenance.get("terrain_source") or {}).get("source")
     if source in DEM_ERROR_M:
         return DEM_ERROR_M[source]
     return FALLBACK_DEM_ERROR_M

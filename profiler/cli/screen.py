@@ -269,6 +269,10 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         rasters.append(fetched.vrt)
     model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
+    if confidence is not None and fetched is not None:  # the dataset's stated accuracy, as for `link`
+        import dataclasses
+
+        confidence = dataclasses.replace(confidence, terrain_source=fetched.dataset.name)
     description = _run_description(radio, settings, min_margin_db, rasters, sites_file,
                                    other_inputs=_other_inputs(opts, pairs_file, antenna_file, radios, surroundings))
     show = not quiet and sys.stderr.isatty()
