@@ -31,7 +31,7 @@ def draw_uncertainty_band(ax: Any, d: Any, f: Any, legend: list, record: dict) -
         return
     from matplotlib.patches import Patch
 
-    style = dict(facecolor=BAND_COLOUR, alpha=0.30, edgecolor="none")
+    style: dict[str, Any] = dict(facecolor=BAND_COLOUR, alpha=0.30, edgecolor="none")
     dem_half = BAND_Z * float(block["model"]["dem_error"]["sigma_m"]) * f.u
     ax.fill_between(f.x, f.ground - dem_half, f.ground + dem_half, zorder=1.5, **style)
     on_clutter = np.asarray(d.clutter_m) > 0
