@@ -302,7 +302,6 @@ def confidence_for_batch(batch: Any, settings: ConfidenceSettings, *, diffractio
     (screening needs only the probabilities, which do not depend on them).
     """
     settings.validate()
-    prof = batch.profiles
     st = batch.settings
     n_paths = len(batch)
     p_meets = np.full(n_paths, np.nan)
