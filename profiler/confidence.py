@@ -66,6 +66,8 @@ DEFAULT_DRAWS = 1000
 MIN_DRAWS = 100
 #: Most draws accepted (memory: draws x samples of one path are held at once).
 MAX_DRAWS = 100_000
+#: Most draws x samples of one path (the normals and the drawn surfaces take 16 bytes each: 320 MB).
+MAX_DRAW_SAMPLES = 20_000_000
 #: Seed of the draws by default (fixed, so results repeat).
 DEFAULT_SEED = 17
 #: Correlation length of the elevation error by default, m (DEM error correlation lengths reported
@@ -295,11 +297,13 @@ def _model_record(settings: ConfidenceSettings, dem: tuple[float, str], k: float
 
 
 def confidence_for_batch(batch: Any, settings: ConfidenceSettings, *, diffraction: bool = True,
-                         tree_allowance_m: float | None = None) -> ConfidenceResult:
+                         tree_allowance_m: float | None = None, skip_too_large: bool = False) -> ConfidenceResult:
     """Monte Carlo confidence of every profiled link of ``batch`` (a :class:`profiler.link_batch.LinkBatch`).
 
     ``diffraction=False`` skips the diffraction loss and fade margin points
     (screening needs only the probabilities, which do not depend on them).
+    A link whose draws x samples exceed :data:`MAX_DRAW_SAMPLES` raises
+    InputError, or keeps NaN with ``skip_too_large`` (screening: its cells stay empty).
     """
     settings.validate()
     st = batch.settings
@@ -320,7 +324,13 @@ def confidence_for_batch(batch: Any, settings: ConfidenceSettings, *, diffractio
         if batch.problems[i] is not None:
             sigmas.append(None)
             continue
-        draws = draws_of(batch, i, settings, dem[0], follow)
+        try:
+            draws = draws_of(batch, i, settings, dem[0], follow)
+        except InputError:
+            if not skip_too_large:
+                raise
+            sigmas.append(None)
+            continue
         sigmas.append(draws.sigma_m)
         met = st.criterion.met(draws.frac_design, draws.frac_worst)
         p_meets[i] = float(np.mean(met))
@@ -340,6 +350,11 @@ def draws_of(batch: Any, i: int, settings: ConfidenceSettings, dem_sigma_m: floa
     """The draws of link ``i`` of ``batch`` (its samples without padding)."""
     prof = batch.profiles
     n = int(prof.n_samples[i])
+    if n * settings.draws > MAX_DRAW_SAMPLES:
+        raise InputError(
+            f"{batch.names[i]}: {settings.draws} draws of {n:,} samples are {n * settings.draws:,} values, more "
+            f"than {MAX_DRAW_SAMPLES:,}; give fewer draws ({{parameter}}) or a coarser --spacing-m",
+            parameter="draws", value_word="N")
     surface = prof.surface_m[i, :n]
     surface = np.where(np.isnan(surface), 0.0, surface)
     kind = None if prof.clutter_kind is None else np.asarray(prof.clutter_kind[i, :n])
@@ -372,16 +387,23 @@ def _draw_diffraction(batch: Any, i: int, draws: PathDraws, freq_ghz: float) -> 
     """Diffraction loss of each drawn profile by the link's method at the drawn k, dB (one batch of paths)."""
     from .losses.terrain_diffraction import diffraction_loss_db
 
+    from .profile import MAX_SAMPLES_PER_BATCH
+
     st = batch.settings
     n_draws, n = draws.surface_m.shape
     prof = batch.profiles
-    d = np.broadcast_to(prof.distance_m[i, :n], (n_draws, n))
-    interior = np.zeros((n_draws, n), dtype=bool)
-    interior[:, 1:-1] = True
-    length = np.full(n_draws, float(prof.length_m[i]))
-    return diffraction_loss_db(st.diffraction_method, np.ascontiguousarray(d), draws.surface_m, interior,
-                               draws.antenna_a_m, draws.antenna_b_m, length, np.full(n_draws, freq_ghz), draws.k,
-                               polarisation=st.polarisation, ground=st.ground)
+    rows = max(1, MAX_SAMPLES_PER_BATCH // n)  # the engine's memory bound per call
+    out = np.empty(n_draws)
+    for j in range(0, n_draws, rows):
+        m = min(rows, n_draws - j)
+        interior = np.zeros((m, n), dtype=bool)
+        interior[:, 1:-1] = True
+        out[j:j + m] = diffraction_loss_db(
+            st.diffraction_method, np.ascontiguousarray(np.broadcast_to(prof.distance_m[i, :n], (m, n))),
+            draws.surface_m[j:j + m], interior, draws.antenna_a_m[j:j + m], draws.antenna_b_m[j:j + m],
+            np.full(m, float(prof.length_m[i])), np.full(m, freq_ghz), draws.k[j:j + m],
+            polarisation=st.polarisation, ground=st.ground)
+    return out
 
 
 def p_meets_at(batch: Any, i: int, settings: ConfidenceSettings, offsets_m: np.ndarray) -> np.ndarray:

@@ -129,3 +129,26 @@ def test_every_fetched_dataset_has_a_stated_accuracy():
     # sigma = LE90 / 1.645 for a Gaussian error (scipy.stats.norm.ppf(0.95) = 1.6449)
     assert DEM_ERROR_M["copernicus-30"][0] == pytest.approx(4.0 / norm.ppf(0.95), rel=1e-4)
     assert DEM_ERROR_M["srtm-1"][0] == pytest.approx(16.0 / norm.ppf(0.95), rel=1e-4)
+
+
+def test_too_many_values_refused_and_diffraction_in_blocks(monkeypatch):
+    import dataclasses
+
+    from profiler import confidence as conf
+    from profiler.jobs import analyse_job, open_job_data, resolve_link_job
+    from tests.conftest import EXAMPLES
+
+    job = resolve_link_job(str(EXAMPLES / "demo-2-grazing.toml"), {})
+    with open_job_data(job) as (model, surroundings):
+        batch = analyse_job(job, model, surroundings)
+    s = ConfidenceSettings(draws=300)
+    whole = conf.confidence_for_batch(batch, s)
+    monkeypatch.setattr("profiler.profile.MAX_SAMPLES_PER_BATCH", 7 * int(batch.profiles.n_samples[0]))
+    blocks = conf.confidence_for_batch(batch, s)  # 7 draws a call: the same numbers
+    assert np.array_equal(whole.diffraction_db, blocks.diffraction_db)
+    monkeypatch.setattr(conf, "MAX_DRAW_SAMPLES", 1000)
+    with pytest.raises(InputError, match="coarser --spacing-m") as info:
+        conf.confidence_for_batch(batch, s)
+    assert info.value.parameter == "draws"
+    skipped = conf.confidence_for_batch(dataclasses.replace(batch), s, skip_too_large=True)
+    assert np.isnan(skipped.p_meets[0])

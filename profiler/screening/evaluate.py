@@ -320,7 +320,7 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     if task.confidence is not None:  # p_meets, p_los: the draws of each pair, seeded by its ends
         from ..confidence import confidence_for_batch
 
-        conf = confidence_for_batch(batch, task.confidence, diffraction=False)
+        conf = confidence_for_batch(batch, task.confidence, diffraction=False, skip_too_large=True)
         out["p_meets"][idx] = conf.p_meets
         out["p_los"][idx] = conf.p_los
     for k, problem in enumerate(batch.problems):
