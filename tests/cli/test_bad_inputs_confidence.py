@@ -66,3 +66,8 @@ def test_link_file_confidence_table_refused(line, words, tmp_path):
     f = tmp_path / "link.toml"
     f.write_text(text + f"\n[confidence]\n{line}\n")
     assert_refused(["link", f], words, inputs=[f, DEMO_DEM])
+
+
+def test_link_too_many_draws_for_the_path():
+    assert_refused(["link", GRAZING, "--draws", "100000", "--spacing-m", "2"], ["--draws N", "coarser --spacing-m"],
+                   inputs=[GRAZING, DEMO_DEM])
