@@ -123,6 +123,10 @@ def default_text(name: str) -> str:
             return f"{value:g}" if isinstance(value, float) else str(value)
     fields = {f.name: f.default for f in dataclasses.fields(Radio)}
     plain = {"agl": DEFAULT_AGL_M, "tree_allowance_m": DEFAULT_TREE_ALLOWANCE_M}
+    if name in ("draws", "seed", "dem_error_corr_m", "antenna_error_m"):  # profiler.confidence
+        from .confidence import ConfidenceSettings
+
+        plain[name] = getattr(ConfidenceSettings(), name)
     value = fields.get(name, plain.get(name))
     if value is None or value is dataclasses.MISSING:
         raise KeyError(f"no default for {name!r}")

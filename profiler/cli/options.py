@@ -368,17 +368,17 @@ date_option = _option(
 #: Given as text so that profiler.confidence gives the one-line refusals.
 confidence_options = _compose(
     _option("--draws", "draws", default=None, metavar="N",
-            help="Monte Carlo draws of the confidence estimate, 100 to 100000 [default: 1000]."),
+            help="Monte Carlo draws of the confidence estimate, 100 to 100000 [default: {default}]."),
     _option("--seed", "seed", default=None, metavar="N",
-            help="Seed of the confidence draws; the same seed gives the same numbers [default: 17]."),
+            help="Seed of the confidence draws; the same seed gives the same numbers [default: {default}]."),
     _option("--dem-error-m", "dem_error_m", default=None, metavar="SIGMA",
             help="Elevation error, one standard deviation, m [default: the terrain source's stated accuracy, "
                  "else 3]."),
     _option("--dem-error-corr-m", "dem_error_corr_m", default=None, metavar="M",
             help="Correlation length of the elevation error along the path, m, or 'inf' (one error for the "
-                 "whole profile) [default: 500]."),
+                 "whole profile) [default: {default}]."),
     _option("--antenna-error-m", "antenna_error_m", default=None, metavar="M",
-            help="Antenna height tolerance, one standard deviation, m [default: 0.3]."),
+            help="Antenna height tolerance, one standard deviation, m [default: {default}]."),
 )
 
 #: Every option that describes one link, shared by link, sheet and heights.
