@@ -56,7 +56,8 @@ from .validation import LIMITS, check_number
 __all__ = [
     "ConfidenceSettings", "ConfidenceResult", "PathDraws", "confidence_for_batch", "draw_path",
     "DEM_ERROR_M", "FALLBACK_DEM_ERROR_M", "CLUTTER_ERROR_M", "DEFAULT_DRAWS", "MIN_DRAWS", "MAX_DRAWS",
-    "DEFAULT_SEED", "DEFAULT_CORR_M", "DEFAULT_ANTENNA_ERROR_M", "k_distribution",
+    "DEFAULT_SEED", "DEFAULT_CORR_M", "DEFAULT_ANTENNA_ERROR_M", "k_distribution", "summary_lines",
+    "resolve_confidence", "confidence_level", "p_meets_at", "path_seed", "MAX_DRAW_SAMPLES",
 ]
 
 #: Draws by default: the Monte Carlo standard error of a probability is at most 1.6 points at 1000.
@@ -417,8 +418,8 @@ def p_meets_at(batch: Any, i: int, settings: ConfidenceSettings, offsets_m: np.n
     return out
 
 
-def summary_line(record: dict) -> str:
-    """One line for the terminal summary from a ``confidence`` block."""
+def summary_lines(record: dict) -> tuple[str, str]:
+    """Two lines for the terminal summary from a ``confidence`` block: the figures, then the model."""
     m = record["model"]
     q = record["worst_f1_fraction"]
     dem = m["dem_error"]
@@ -430,10 +431,10 @@ def summary_line(record: dict) -> str:
     fm = record["fade_margin_db"]
     if fm["p50"] is not None:
         text += f"; fade margin 5/50/95 % {_fmt(fm['p5'], 1)}/{_fmt(fm['p50'], 1)}/{_fmt(fm['p95'], 1)} dB"
-    text += (f" ({m['draws']} draws, seed {m['seed']}; DEM sigma {dem['sigma_m']:.2g} m "
+    model = (f"{m['draws']} draws, seed {m['seed']}; DEM sigma {dem['sigma_m']:.2g} m "
              f"({dem['source'].split(' ')[0].rstrip(':')}), correlation {corr_text}, antenna sigma "
-             f"{m['antenna_error']['sigma_m']:g} m, k {'fixed' if m['k']['method'] == 'fixed' else 'drawn'})")
-    return text
+             f"{m['antenna_error']['sigma_m']:g} m, k {'fixed' if m['k']['method'] == 'fixed' else 'drawn'}")
+    return text, model
 
 
 def _fmt(v: Any, digits: int = 2) -> str:

@@ -229,9 +229,10 @@ def _confidence_lines(block: dict | None) -> list[str]:
     """The confidence summary line (profiler.confidence), when the record has the block."""
     if not block:
         return []
-    from ..confidence import summary_line
+    from ..confidence import summary_lines
 
-    return [f"confidence         {summary_line(block)}"]
+    figures, model = summary_lines(block)
+    return [f"confidence         {figures}", f"  model            {model}"]
 
 
 def format_link_summary(r: dict) -> str:
