@@ -375,7 +375,7 @@ def solve_heights_with_confidence(
     """Lowest antenna heights of link ``i`` meeting its criterion with probability >= ``confidence``.
 
     The same draws as :func:`profiler.confidence.confidence_for_batch` (``settings``:
-    its ConfidenceSettings); raising an antenna changes no draw, so the
+    its ConfidenceSettings, None for the defaults); raising an antenna changes no draw, so the
     probability never falls as a mast rises.  Each draw is the plain solver's
     linear problem (module docstring) on the drawn surface and antennas: for
     a height of one end, the least height of the other that draw needs is a
@@ -383,10 +383,11 @@ def solve_heights_with_confidence(
     ``confidence`` of the draws is an order statistic.  Every pair reported
     is then re-evaluated by :func:`profiler.confidence.p_meets_at`.
     """
-    from .confidence import _dem_sigma, _follows, draws_of, p_meets_at
+    from .confidence import ConfidenceSettings, _dem_sigma, _follows, confidence_level, draws_of, p_meets_at
 
     _check_request(batch, i, solve, max_mast_a_m, max_mast_b_m, step_m)
-    settings = settings.validate()
+    confidence = confidence_level(confidence)  # (0, 0.999], InputError naming the setting
+    settings = (settings if settings is not None else ConfidenceSettings()).validate()
     ref_a, base_a = _reference(batch, "a", i)
     ref_b, base_b = _reference(batch, "b", i)
     problem = _Problem.of(batch, i, solve, step_m, base_a, base_b, max_mast_a_m, max_mast_b_m)

@@ -41,3 +41,13 @@ def test_both_ends_taller_than_the_plain_solver_and_least_by_sum(grazing):
     assert sure.chosen.p_meets >= 0.9
     assert all(p.p_meets < 0.9 for p in sure.one_step_lower)
     assert all(p.p_meets >= 0.9 and p.sum_m >= sure.chosen.sum_m for p in sure.pairs)
+
+
+def test_default_settings_and_a_bad_level(grazing):
+    from profiler.errors import InputError
+
+    sol = solve_heights_with_confidence(grazing, 0.5, None, solve="b", max_mast_b_m=60.0)
+    assert sol.chosen.p_meets >= 0.5
+    with pytest.raises(InputError) as info:
+        solve_heights_with_confidence(grazing, 1.0, None)
+    assert info.value.parameter == "confidence"
