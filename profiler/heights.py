@@ -32,7 +32,8 @@ from .validation import check_number
 from .link import AtK, LinkBatch, evaluate_profiles
 from .profile import Profiles
 
-__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "take_paths", "mast_raise_m"]
+__all__ = ["SOLVE_CHOICES", "HeightPair", "HeightSolution", "solve_heights", "solve_heights_with_confidence",
+           "take_paths", "mast_raise_m"]
 
 #: Which ends to solve: a (b fixed), b (a fixed) or both (least sum).
 SOLVE_CHOICES = ("a", "b", "both")
@@ -60,13 +61,18 @@ class HeightPair:
     f1_fraction: float
     f1_fraction_worst: float
     meets_criterion: bool
+    #: Probability of meeting the criterion (profiler.confidence), when solved with a confidence.
+    p_meets: float | None = None
 
     @property
     def sum_m(self) -> float:
         return self.antenna_a_m + self.antenna_b_m
 
     def record(self) -> dict:
-        return {**dataclasses.asdict(self), "sum_m": self.sum_m}
+        out = {**dataclasses.asdict(self), "sum_m": self.sum_m}
+        if self.p_meets is None:
+            del out["p_meets"]
+        return out
 
 
 @dataclass(frozen=True)
@@ -86,6 +92,9 @@ class HeightSolution:
     pairs: tuple[HeightPair, ...]
     one_step_lower: tuple[HeightPair, ...]
     at_limits: HeightPair
+    #: Probability asked of the chosen heights (--confidence), or None for the plain solver.
+    confidence: float | None = None
+    confidence_model: dict | None = None
 
     @property
     def feasible(self) -> bool:
@@ -106,6 +115,8 @@ class HeightSolution:
             "pairs": [p.record() for p in self.pairs],
             "one_step_lower": [p.record() for p in self.one_step_lower],
             "at_limits": self.at_limits.record(),
+            **({"confidence": self.confidence, "confidence_model": self.confidence_model}
+               if self.confidence is not None else {}),
         }
 
 
@@ -351,3 +362,126 @@ def _reference(batch: LinkBatch, tag: str, i: int) -> tuple[str, float]:
     if placements is not None and placements[i].reference == "roof" and placements[i].roof is not None:
         return "roof", float(placements[i].roof.roof_m)
     return "ground", float(getattr(batch, f"ground_{tag}_m")[i])
+
+
+# --- heights that meet the criterion with a probability (profiler.confidence) ---------
+
+
+def solve_heights_with_confidence(
+    batch: LinkBatch, confidence: float, settings: Any, *, solve: str = "both",
+    max_mast_a_m: float = DEFAULT_MAX_MAST_M, max_mast_b_m: float = DEFAULT_MAX_MAST_M, step_m: float = 1.0,
+    i: int = 0,
+) -> HeightSolution:
+    """Lowest antenna heights of link ``i`` meeting its criterion with probability >= ``confidence``.
+
+    The same draws as :func:`profiler.confidence.confidence_for_batch` (``settings``:
+    its ConfidenceSettings, None for the defaults); raising an antenna changes no draw, so the
+    probability never falls as a mast rises.  Each draw is the plain solver's
+    linear problem (module docstring) on the drawn surface and antennas: for
+    a height of one end, the least height of the other that draw needs is a
+    maximum over the samples, and the least height met by a share
+    ``confidence`` of the draws is an order statistic.  Every pair reported
+    is then re-evaluated by :func:`profiler.confidence.p_meets_at`.
+    """
+    from .confidence import ConfidenceSettings, _dem_sigma, _follows, confidence_level, draws_of, p_meets_at
+
+    _check_request(batch, i, solve, max_mast_a_m, max_mast_b_m, step_m)
+    confidence = confidence_level(confidence)  # (0, 0.999], InputError naming the setting
+    settings = (settings if settings is not None else ConfidenceSettings()).validate()
+    ref_a, base_a = _reference(batch, "a", i)
+    ref_b, base_b = _reference(batch, "b", i)
+    problem = _Problem.of(batch, i, solve, step_m, base_a, base_b, max_mast_a_m, max_mast_b_m)
+    follow = (_follows(batch, "a", i), _follows(batch, "b", i))
+    dem = _dem_sigma(settings, batch.provenance)
+    draws = draws_of(batch, i, settings, dem[0], follow)
+    need, t = _draw_requirements(batch, i, draws)  # (D, M) line heights needed, t (M,)
+    da = draws.antenna_a_m - float(batch.antenna_a_amsl_m[i])  # each draw's shift of antenna a, m
+    db = draws.antenna_b_m - float(batch.antenna_b_amsl_m[i])
+    rank = int(math.ceil(confidence * len(da) - 1e-9)) - 1  # the order statistic met by that share
+
+    def least_b(a_m: float) -> float:
+        top = np.max((need - (base_a + a_m + da)[:, None] * (1.0 - t)) / t, axis=1) - db - base_b
+        return float(_up(np.partition(top, rank)[rank], step_m))
+
+    def least_a(b_m: float) -> float:
+        top = np.max((need - (base_b + b_m + db)[:, None] * t) / (1.0 - t), axis=1) - da - base_a
+        return float(_up(np.partition(top, rank)[rank], step_m))
+
+    limits = problem.limits
+    if solve == "both":
+        grid_a = _grid(max_mast_a_m, step_m)
+        b_for_a = np.array([least_b(a) for a in grid_a])
+        ok = b_for_a <= max_mast_b_m + _TOLERANCE_M
+        running = np.minimum.accumulate(np.where(ok, b_for_a, np.inf))
+        frontier = ok & (b_for_a < np.r_[np.inf, running[:-1]])
+        cands = np.column_stack([grid_a[frontier], b_for_a[frontier]])
+    elif solve == "a":
+        a0 = least_a(problem.now_b)
+        cands = np.array([[a0, problem.now_b]]) if a0 <= limits[0] + _TOLERANCE_M else np.zeros((0, 2))
+    else:
+        b0 = least_b(problem.now_a)
+        cands = np.array([[problem.now_a, b0]]) if b0 <= limits[1] + _TOLERANCE_M else np.zeros((0, 2))
+
+    def offsets(pairs: np.ndarray) -> np.ndarray:
+        return np.column_stack([base_a + pairs[:, 0] - float(batch.antenna_a_amsl_m[i]),
+                                base_b + pairs[:, 1] - float(batch.antenna_b_amsl_m[i])])
+
+    def verify(pairs: np.ndarray) -> list[HeightPair]:
+        pairs = np.asarray(pairs, dtype=float).reshape(-1, 2)
+        plain = problem.verify(pairs)
+        p = p_meets_at(batch, i, settings, offsets(pairs)) if len(pairs) else np.zeros(0)
+        return [dataclasses.replace(h, p_meets=float(x)) for h, x in zip(plain, p)]
+
+    pairs = verify(cands)
+    # Rounding at the boundary can leave a pair a hair short: raise the solved end a step (as the plain solver).
+    for _ in range(3):
+        short = [j for j, h in enumerate(pairs) if (h.p_meets or 0.0) < confidence]
+        if not short:
+            break
+        bump = np.array([step_m, 0.0]) if solve == "a" else np.array([0.0, step_m])
+        cands = cands.copy()
+        cands[short] += bump
+        keep = (cands[:, 0] <= limits[0] + _TOLERANCE_M) & (cands[:, 1] <= limits[1] + _TOLERANCE_M)
+        cands = cands[keep]
+        pairs = verify(cands)
+    pairs = [h for h in pairs if (h.p_meets or 0.0) >= confidence]
+    chosen = min(pairs, key=lambda h: (round(h.sum_m, 9), round(max(h.antenna_a_m, h.antenna_b_m), 9),
+                                       h.antenna_a_m)) if pairs else None
+    lower: list[HeightPair] = []
+    if chosen is not None:
+        tries = []
+        if solve in ("a", "both") and chosen.antenna_a_m >= step_m - _TOLERANCE_M:
+            tries.append([chosen.antenna_a_m - step_m, chosen.antenna_b_m])
+        if solve in ("b", "both") and chosen.antenna_b_m >= step_m - _TOLERANCE_M:
+            tries.append([chosen.antenna_a_m, chosen.antenna_b_m - step_m])
+        lower = verify(np.array(tries).reshape(-1, 2))
+    crit = batch.settings
+    return HeightSolution(
+        solve=solve, step_m=step_m, reference_a=ref_a, reference_b=ref_b, base_a_m=base_a, base_b_m=base_b,
+        max_mast_a_m=max_mast_a_m, max_mast_b_m=max_mast_b_m,
+        criterion=crit.criterion.describe(crit.k, crit.k_worst) + f", with probability >= {confidence:g}",
+        chosen=chosen, pairs=tuple(pairs), one_step_lower=tuple(lower),
+        at_limits=verify(limits[None, :])[0], confidence=confidence,
+        confidence_model=batch.confidence.model[i] if getattr(batch, "confidence", None) is not None else None,
+    )
+
+
+def _draw_requirements(batch: LinkBatch, i: int, draws: Any) -> tuple[np.ndarray, np.ndarray]:
+    """Line heights each draw needs at the interior samples (both criterion k), (D, 2M), and t (2M,)."""
+    from .units import EARTH_RADIUS_M, wavelength_m
+
+    prof = batch.profiles
+    st = batch.settings
+    n = draws.surface_m.shape[1]
+    d1 = prof.distance_m[i, :n]
+    length = float(prof.length_m[i])
+    d2 = np.maximum(length - d1, 0.0)
+    freq = float(np.broadcast_to(np.asarray(batch.radio.freq_ghz, dtype=float), (len(batch),))[i])
+    f1 = np.sqrt(wavelength_m(freq) * d1 * d2 / length)
+    inside = slice(1, n - 1)
+    parts = []
+    for k, frac in ((st.k, st.criterion.min_f1_fraction), (st.k_worst, st.criterion.min_f1_fraction_worst)):
+        bulge = d1 * d2 / (2.0 * EARTH_RADIUS_M * k)
+        parts.append((draws.surface_m + (bulge + frac * f1)[None, :])[:, inside])
+    t = (d1 / length)[inside]
+    return np.concatenate(parts, axis=1), np.concatenate([t, t])

@@ -108,6 +108,8 @@ class LinkJob:
     eirp_limit: Any = None
     #: Fade margin, dB, a link needs at the design k to be viable (--min-margin-db, [analysis]); None: default.
     min_margin_db: float | None = None
+    #: Monte Carlo confidence asked for (profiler.confidence.ConfidenceSettings), or None.
+    confidence: Any = None
 
 
 def default_text(name: str) -> str:
@@ -121,6 +123,10 @@ def default_text(name: str) -> str:
             return f"{value:g}" if isinstance(value, float) else str(value)
     fields = {f.name: f.default for f in dataclasses.fields(Radio)}
     plain = {"agl": DEFAULT_AGL_M, "tree_allowance_m": DEFAULT_TREE_ALLOWANCE_M}
+    if name in ("draws", "seed", "dem_error_corr_m", "antenna_error_m"):  # profiler.confidence
+        from .confidence import ConfidenceSettings
+
+        plain[name] = getattr(ConfidenceSettings(), name)
     value = fields.get(name, plain.get(name))
     if value is None or value is dataclasses.MISSING:
         raise KeyError(f"no default for {name!r}")
@@ -295,7 +301,23 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         antenna_a=antennas.get("a"),
         antenna_b=antennas.get("b"),
         install_date=resolve_install_date(opts),
+        confidence=_resolve_confidence(opts, spec),
     )
+
+
+def _resolve_confidence(opts: dict[str, Any], spec: LinkSpec) -> Any:
+    """Confidence settings from the options over the link file's [confidence] (profiler.confidence);
+    None when neither gives any.  A bad file value is named by file, table and key."""
+    from .confidence import OPTIONS, resolve_confidence
+
+    for key, value in spec.confidence.items():
+        if opts.get(key) is None:
+            try:
+                resolve_confidence({key: value})
+            except InputError as exc:
+                raise InputError(f"{spec.path}: [confidence] {exc.render(lambda name, word: name)}") from None
+    merged = {k: spec.confidence.get(k) if opts.get(k) is None else opts[k] for k in OPTIONS}
+    return resolve_confidence(merged)
 
 
 # --- antennas and installer figures (profiler.equipment) -----------------------
@@ -725,4 +747,14 @@ def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings 
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
         radio_plan=job.radio_plan, eirp_limit=job.eirp_limit,
     )
-    return with_equipment(batch, job)
+    return with_confidence(with_equipment(batch, job), job, surroundings)
+
+
+def with_confidence(batch: LinkBatch, job: LinkJob, surroundings: Any) -> LinkBatch:
+    """``batch`` with its Monte Carlo confidence (profiler.confidence) when the job asks for it."""
+    if job.confidence is None:
+        return batch
+    from .confidence import confidence_for_batch
+
+    return dataclasses.replace(batch, confidence=confidence_for_batch(
+        batch, job.confidence, tree_allowance_m=job.tree_allowance_m if surroundings is not None else None))

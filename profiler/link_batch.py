@@ -56,6 +56,8 @@ class LinkBatch:
     # Radio profile figures (profiler.equipment.modulation.ModulationResult) and the EIRP check; None when unused.
     modulation: Any = None
     eirp: Any = None
+    # Monte Carlo confidence (profiler.confidence.ConfidenceResult); None when not asked for.
+    confidence: Any = None
 
     def __len__(self) -> int:
         return len(self.names)

@@ -48,6 +48,8 @@ def link_record(batch: Any, i: int) -> dict:
     }
     _add_surroundings(batch, record, i)
     _add_equipment(batch, record, i)
+    if getattr(batch, "confidence", None) is not None:
+        record["confidence"] = batch.confidence.record(i)
     return record
 
 

@@ -109,6 +109,15 @@ LIMITS: dict[str, Limit] = {
                     low_open=True),
     "min_margin_db": Limit(-100.0, 100.0, "dB", "fade margins of real links lie well within +-100 dB "
                            "(common practice)"),
+    # Confidence (profiler.confidence)
+    "draws": Limit(100, 100_000, "", "at 100 draws a probability's standard error is at most 5 points and the 5/95 % "
+                   "points have 5 draws beyond them; 100,000 draws of a long path fill memory (common practice)"),
+    "dem_error_m": Limit(0.0, 100.0, "m", "global DEMs state 2-20 m; over 100 m is a typing error (common practice)"),
+    "dem_error_corr_m": Limit(0.0, 1e6, "m", "a correlation length is positive; 1000 km is one error per profile "
+                              "(common practice)", low_open=True),
+    "antenna_error_m": Limit(0.0, 50.0, "m", "a mounted height is off by centimetres to metres (common practice)"),
+    "confidence": Limit(0.0, 0.999, "", "a probability above 0 and below 1; above 0.999 the answer rests on one "
+                        "or two of 1000 draws (common practice)", low_open=True),
     # Climate (ITU-R P.530-17 and P.676-12 inputs; ClimateSettings checks its own model ranges too)
     "rain_rate_mm_h": Limit(0.0, 300.0, "mm/h", "R0.01 on earth lies below about 250 mm/h (ITU-R P.837 maps, from memory)"),
     "target_availability_pct": Limit(99.0, 99.999, "%", "outage 0.001-1 %, the range of the ITU-R P.530-17 "
@@ -147,6 +156,8 @@ LABELS: dict[str, str] = {
     "water_vapour_g_m3": "water-vapour density",
     "radius_km": "coverage radius", "rx_agl_m": "receiver height", "cell_m": "output cell size",
     "hub_azimuth_deg": "sector azimuth", "hub_downtilt_deg": "sector down-tilt",
+    "draws": "number of draws", "dem_error_m": "elevation error sigma", "dem_error_corr_m": "elevation error "
+    "correlation length", "antenna_error_m": "antenna height error sigma", "confidence": "confidence",
 }
 
 #: Shortest path analysed, m: below it free-space loss (ITU-R P.525-4 eq. 6)

@@ -12,8 +12,11 @@ __all__ = ["heights", "run_heights", "format_heights"]
 
 
 def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_m: float | None,
-                step_m: float) -> dict:
-    """Solve the heights of a resolved link; the result, then the link re-analysed at the chosen heights."""
+                step_m: float, confidence: float | None = None) -> dict:
+    """Solve the heights of a resolved link; the result, then the link re-analysed at the chosen heights.
+
+    With ``confidence`` the heights meet the criterion with at least that probability (profiler.confidence).
+    """
     # The engine is imported when the command runs, so that `terrahop --help` starts fast.
     from ..heights import DEFAULT_MAX_MAST_M, solve_heights
     from ..mounts import Mount
@@ -23,7 +26,13 @@ def run_heights(resolved, *, solve: str, max_mast_a_m: float | None, max_mast_b_
     max_b = max_mast_b_m if max_mast_b_m is not None else (resolved.max_mast_b_m if resolved.max_mast_b_m is not None else DEFAULT_MAX_MAST_M)
     with opened_link_data(resolved) as (model, surroundings):
         batch = analyse_resolved(resolved, model, surroundings)
-        solution = solve_heights(batch, solve=solve, max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
+        if confidence is not None:
+            from ..heights import solve_heights_with_confidence
+
+            solution = solve_heights_with_confidence(batch, confidence, resolved.confidence, solve=solve,
+                                                     max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
+        else:
+            solution = solve_heights(batch, solve=solve, max_mast_a_m=max_a, max_mast_b_m=max_b, step_m=step_m)
         vertical_crs = getattr(resolved.mount_a, "vertical_crs", None)
         given = batch.record(0)
         if "error" not in given:
@@ -72,22 +81,33 @@ def format_heights(r: dict) -> str:
     ]
     if not r["feasible"]:
         lim = r["at_limits"]
+        sure = r.get("confidence")
         lines.append(
-            f"NO height pair within the mast limits meets the criterion: at a {lim['antenna_a_m']:g} m, "
+            "NO height pair within the mast limits meets the criterion"
+            + (f" with probability {100 * sure:g} %" if sure is not None else "")
+            + f": at a {lim['antenna_a_m']:g} m, "
             f"b {lim['antenna_b_m']:g} m the clearance is {lim['f1_fraction']:+.2f} F1 design, "
             f"{lim['f1_fraction_worst']:+.2f} F1 worst case"
+            + (f", P(meets) {100 * lim['p_meets']:.1f} %" if sure is not None else "")
         )
         return "\n".join(lines)
-    lines.append("   a (m)    b (m)  sum (m)  F1 design  F1 worst")
+    conf = r.get("confidence")
+    lines.append("   a (m)    b (m)  sum (m)  F1 design  F1 worst" + ("  P(meets)" if conf is not None else ""))
     chosen = r["chosen"]
     for p in r["pairs"]:
         mark = "  <- chosen" if (p["antenna_a_m"], p["antenna_b_m"]) == (chosen["antenna_a_m"], chosen["antenna_b_m"]) else ""
         lines.append(
             f"  {p['antenna_a_m']:6.1f}   {p['antenna_b_m']:6.1f}   {p['sum_m']:6.1f}     "
-            f"{p['f1_fraction']:+6.2f}    {p['f1_fraction_worst']:+6.2f}{mark}"
+            f"{p['f1_fraction']:+6.2f}    {p['f1_fraction_worst']:+6.2f}"
+            + (f"    {100 * p['p_meets']:5.1f} %" if conf is not None else "") + mark
         )
     lines.append("")
     for p in r["one_step_lower"]:
+        if conf is not None:
+            lines.append(
+                f"one step lower   a {p['antenna_a_m']:g} m, b {p['antenna_b_m']:g} m: P(meets) "
+                f"{100 * p['p_meets']:.1f} % {'>=' if p['p_meets'] >= conf else '<'} {100 * conf:g} %")
+            continue
         lines.append(
             f"one step lower   a {p['antenna_a_m']:g} m, b {p['antenna_b_m']:g} m: "
             f"{'MEETS' if p['meets_criterion'] else 'FAILS'} ({p['f1_fraction']:+.2f} F1 design, "
@@ -99,6 +119,7 @@ def format_heights(r: dict) -> str:
             f"link check       terrahop link at a {chosen['antenna_a_m']:g} m, b {chosen['antenna_b_m']:g} m: "
             f"{'MEETS' if link['meets_criterion'] else 'FAILS'}; fade margin "
             f"{link['budget']['fade_margin_db']:+.1f} dB"
+            + (f"; P(meets) {100 * link['confidence']['p_meets_criterion']:.1f} %" if "confidence" in link else "")
         )
     return "\n".join(lines)
 
@@ -116,10 +137,14 @@ def format_heights(r: dict) -> str:
               help="As --max-mast-a, for site b.")
 @click.option("--step-m", type=float, default=1.0, show_default=True,
               help="Height step of the answer, m (heights are multiples of it).")
+@click.option("--confidence", "confidence", default=None, metavar="P",
+              help="Find the lowest heights that meet the criterion with at least this probability, above 0 "
+                   "and at most 0.999 (Monte Carlo over the data's errors: --dem-error-m and the other "
+                   "confidence options).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as one JSON object.")
 @friendly_errors
 def heights(link_file: str | None, solve: str, max_mast_a: float | None, max_mast_b: float | None,
-            step_m: float, as_json: bool, **opts) -> None:
+            step_m: float, as_json: bool, confidence: str | None = None, **opts) -> None:
     """Lowest antenna heights that meet the clearance criterion.
 
     Solves one end with the other as given, or both ends for the least sum,
@@ -128,8 +153,18 @@ def heights(link_file: str | None, solve: str, max_mast_a: float | None, max_mas
     """
     from .options import resolve_link
 
-    result = run_heights(resolve_link(link_file, opts), solve=solve, max_mast_a_m=max_mast_a,
-                         max_mast_b_m=max_mast_b, step_m=step_m)
+    resolved = resolve_link(link_file, opts)
+    level = None
+    if confidence is not None:
+        import dataclasses
+
+        from ..confidence import confidence_level, resolve_confidence
+
+        level = confidence_level(confidence)
+        if resolved.confidence is None:  # the default model
+            resolved = dataclasses.replace(resolved, confidence=resolve_confidence({}, always=True))
+    result = run_heights(resolved, solve=solve, max_mast_a_m=max_mast_a, max_mast_b_m=max_mast_b,
+                         step_m=step_m, confidence=level)
     if as_json:
         click.echo(json.dumps(result, indent=2))
     else:

@@ -364,10 +364,27 @@ date_option = _option(
     "--date", "date", default=None, metavar="YYYY-MM-DD",
     help="Date for the magnetic declination (World Magnetic Model) in the installer figures [default: today].")
 
+#: Monte Carlo confidence (profiler.confidence): any of these asks for it (link, sheet, heights, screen).
+#: Given as text so that profiler.confidence gives the one-line refusals.
+confidence_options = _compose(
+    _option("--draws", "draws", default=None, metavar="N",
+            help="Monte Carlo draws of the confidence estimate, 100 to 100000 [default: {default}]."),
+    _option("--seed", "seed", default=None, metavar="N",
+            help="Seed of the confidence draws; the same seed gives the same numbers [default: {default}]."),
+    _option("--dem-error-m", "dem_error_m", default=None, metavar="SIGMA",
+            help="Elevation error, one standard deviation, m [default: the terrain source's stated accuracy, "
+                 "else 3]."),
+    _option("--dem-error-corr-m", "dem_error_corr_m", default=None, metavar="M",
+            help="Correlation length of the elevation error along the path, m, or 'inf' (one error for the "
+                 "whole profile) [default: {default}]."),
+    _option("--antenna-error-m", "antenna_error_m", default=None, metavar="M",
+            help="Antenna height tolerance, one standard deviation, m [default: {default}]."),
+)
+
 #: Every option that describes one link, shared by link, sheet and heights.
 link_input_options = _compose(
     terrain_options, site_options, mount_options, surroundings_options, radio_options, radio_profile_options,
-    step_margin_option, analysis_options, climate_options, antenna_options,
+    step_margin_option, analysis_options, climate_options, antenna_options, confidence_options,
 )
 
 

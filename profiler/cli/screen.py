@@ -12,6 +12,7 @@ from ..errors import InputError
 from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
                       radio_profile_options, roof_mount_options, surroundings_options, terrain_options)
+from .options import confidence_options
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID
@@ -206,10 +207,15 @@ def _screen_radio_options(func):
                    "ones are complete.")
 @click.option("--quiet", "-q", is_flag=True,
               help="No progress bar and no summary; skipped rows and warnings still go to stderr.")
+@confidence_options
+@click.option("--rank-by", "rank_by", default="fade_margin_db", show_default=True, metavar="fade_margin_db|p_meets",
+              help="Column the result is ranked by, best first; p_meets needs the confidence options "
+                   "(ties by fade margin).")
 @friendly_errors
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            antenna_file, antenna_col, max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler,
-           chunk_pairs, resume, restart, overwrite, quiet, above_roof, csv_geometry, **opts) -> None:
+           chunk_pairs, resume, restart, overwrite, quiet, above_roof, csv_geometry, rank_by="fade_margin_db",
+           **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
     SITES is a CSV (name, latitude, longitude, antenna height; other columns
@@ -231,6 +237,11 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     from ..io.screen_output import check_csv_geometry
 
     check_csv_geometry(csv_geometry, out)
+    from ..confidence import resolve_confidence
+    from ..io.screen_output import check_rank_by
+
+    confidence = resolve_confidence(opts)  # p_meets, p_los when any confidence option is given
+    check_rank_by(rank_by, confidence is not None)
     opts = _with_antenna_gains(antenna_file, opts)
     if scheduler is not None:
         from ..screening import check_scheduler_address
@@ -258,6 +269,10 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
         rasters.append(fetched.vrt)
     model = ElevationModel(rasters, vertical_unit=opts.get("vertical_unit"),
                            nodata_fill_m=opts.get("nodata_fill_m"))
+    if confidence is not None and fetched is not None:  # the dataset's stated accuracy, as for `link`
+        import dataclasses
+
+        confidence = dataclasses.replace(confidence, terrain_source=fetched.dataset.name)
     description = _run_description(radio, settings, min_margin_db, rasters, sites_file,
                                    other_inputs=_other_inputs(opts, pairs_file, antenna_file, radios, surroundings))
     show = not quiet and sys.stderr.isatty()
@@ -270,6 +285,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 min_margin_db=min_margin_db, progress=bar.update,
                 surroundings=surroundings, above_roof=above_roof, radios=radios,
                 run_description=description, csv_geometry=csv_geometry,
+                confidence=confidence, rank_by=rank_by,
             )
     except KeyboardInterrupt:
         click.echo(

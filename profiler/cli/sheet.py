@@ -91,9 +91,10 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b,
                               radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit)
-        from ..jobs import with_equipment
+        from ..jobs import with_confidence, with_equipment
 
         batch = with_equipment(batch, resolved)  # antennas and installer figures, as for a link file
+        batch = with_confidence(batch, resolved, surroundings)  # the confidence options, as for a link file
         good = [i for i, problem in enumerate(batch.problems) if problem is None]
         unprofiled = [p for p in batch.problems if p is not None]
         if not good:

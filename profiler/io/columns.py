@@ -159,6 +159,8 @@ LINK_TABLE: tuple[Column, ...] = (
     # in the profile's list (0: none has the margin), eirp_over_limit_db the EIRP above the limit (< 0: below).
     _radio("best_step", "i2"), _radio("capacity_mbps"), _radio("capacity_at_target_mbps"),
     _radio("eirp_over_limit_db"),
+    # Monte Carlo confidence (profiler.confidence): written only by runs that ask for it.
+    Column("p_meets", "confidence", "f8"), Column("p_los", "confidence", "f8"),
     _write("method"), _write("k"), _write("k_worst"),
     _engine("samples", "i4", kept_on_error=True), _engine("spacing_m", kept_on_error=True),
     _engine("mast_raise_m"), _write("problem"),
@@ -183,6 +185,10 @@ AVAILABILITY_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.so
 FLAG_COLUMNS = frozenset(c.name for c in LINK_TABLE if c.flag)
 #: Columns of radio profiles and EIRP limits: written only by runs that use one (their values: evaluate.py).
 RADIO_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "radio")
+#: Columns of the Monte Carlo confidence: written only by runs that ask for it (--draws, --dem-error-m...).
+CONFIDENCE_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "confidence")
+#: Columns of ``screen --rank-by``: fade margin (default) or the probability of meeting the criterion.
+RANK_COLUMNS: tuple[str, ...] = ("fade_margin_db", "p_meets")
 #: Columns an error row keeps: they come from the two positions alone, not from the terrain.
 KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
 

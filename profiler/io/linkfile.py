@@ -25,6 +25,8 @@ Format (all sections optional except the two sites; paths relative to the file):
     [climate]      # rain_rate_mm_h, target_availability_pct, dn1_n_per_km, terrain_roughness_m,
                    # pressure_hpa, temperature_c, water_vapour_g_m3 (polarisation: [analysis]),
                    # source = "itu" (R0.01, dN1 from the ITU-R maps, sa from the terrain) or "default"
+    [confidence]   # draws, seed, dem_error_m, dem_error_corr_m (a number or "inf"), antenna_error_m:
+                   # the Monte Carlo confidence (profiler.confidence), as the flags of those names
 
 Rooftop and urban links add (all optional)::
 
@@ -87,6 +89,8 @@ SECTION_KEYS: dict[str, set[str]] = {
         "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
         "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3", "source",
     },
+    # Checked by profiler.confidence (the io layer stays free of it).
+    "confidence": {"draws", "seed", "dem_error_m", "dem_error_corr_m", "antenna_error_m"},
 }
 #: Keys of one entry of [obstructions] layers.
 LAYER_KEYS = {"file", "layer", "kind", "height_field", "top_field"}
@@ -120,6 +124,7 @@ class LinkSpec:
     climate: dict[str, Any] = field(default_factory=dict)
     antenna_a: dict[str, Any] = field(default_factory=dict)
     antenna_b: dict[str, Any] = field(default_factory=dict)
+    confidence: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -174,6 +179,7 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         climate=dict(data.get("climate", {})),
         antenna_a=dict(data.get("antenna_a", {})),
         antenna_b=dict(data.get("antenna_b", {})),
+        confidence=dict(data.get("confidence", {})),
     )
 
 

@@ -225,6 +225,16 @@ def _installation_lines(r: dict) -> list[str]:
     return out
 
 
+def _confidence_lines(block: dict | None) -> list[str]:
+    """The confidence summary line (profiler.confidence), when the record has the block."""
+    if not block:
+        return []
+    from ..confidence import summary_lines
+
+    figures, model = summary_lines(block)
+    return [f"confidence         {figures}", f"  model            {model}"]
+
+
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
@@ -260,6 +270,7 @@ def format_link_summary(r: dict) -> str:
         f"worst case k = {r['worst_case']['k']:.4g}",
         *_at_k_lines(r["worst_case"]),
         f"clearance criterion {_verdict(r['meets_criterion'])}: {r['criterion']}",
+        *_confidence_lines(r.get("confidence")),
         *_availability_lines(r.get("availability")),
         *_modulation_lines(r.get("modulation")),
         *_installation_lines(r),

@@ -28,6 +28,7 @@ import numpy as np
 
 from ..availability import availability_note
 from ..errors import InputError
+from .columns import CONFIDENCE_COLUMNS, RANK_COLUMNS
 from .columns import (CODED_COLUMNS, FLAG_COLUMNS, KEPT_IN_ERROR_ROWS, LINK_COLUMNS, RADIO_COLUMNS, SITE_COLUMNS,
                       VERDICTS, PairStatus, Verdict)
 from .run_description import sidecar_path, unwritable_reason, write_sidecar
@@ -45,9 +46,27 @@ CSV_GEOMETRY = ("none", "wkt")
 WRITE_BATCH = 50_000
 
 
-def rank_order(cols: dict[str, np.ndarray]) -> np.ndarray:
-    """Row order by fade margin, best first; ties and unprofiled pairs by pair index."""
+def check_rank_by(rank_by: str, confidence: bool) -> str:
+    """The ranking column, checked: p_meets needs a run with confidence (one-line InputError)."""
+    from ..errors import InputError
+
+    if rank_by not in RANK_COLUMNS:
+        raise InputError(f"--rank-by must be one of {', '.join(RANK_COLUMNS)}, got {rank_by!r}")
+    if rank_by == "p_meets" and not confidence:
+        raise InputError("--rank-by p_meets needs the confidence estimate: give --draws, --dem-error-m or "
+                         "another confidence option")
+    return rank_by
+
+
+def rank_order(cols: dict[str, np.ndarray], rank_by: str = "fade_margin_db") -> np.ndarray:
+    """Row order by fade margin (or ``rank_by`` p_meets, then fade margin), best first; ties and unprofiled
+    pairs by pair index."""
     fade = cols["fade_margin_db"]
+    if rank_by == "p_meets":
+        ok = cols["status"] == PairStatus.PROFILED
+        p = np.where(ok & np.isfinite(cols["p_meets"]), -cols["p_meets"], np.inf)
+        f = np.where(np.isfinite(fade) & ok, -fade, np.inf)
+        return np.lexsort((cols["pair"], f, p))
     key = np.where(np.isfinite(fade) & (cols["status"] == PairStatus.PROFILED), -fade, np.inf)
     return np.lexsort((cols["pair"], key))
 
@@ -77,7 +96,7 @@ def _site_stats(n_sites: int, cols: dict, codes: np.ndarray, names: np.ndarray) 
 
 
 def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, verdict_names,
-                radio_columns: bool = False):
+                radio_columns: bool = False, confidence_columns: bool = False):
     """One batch of rows (columns already in rank order) as a DataFrame of the link layer.
 
     ``radio_columns``: the run used a radio profile or an EIRP limit (else those columns are left out).
@@ -108,7 +127,8 @@ def _link_frame(cols: dict, codes: np.ndarray, problems: dict, sites, settings, 
             words = np.asarray(labels, dtype=object)[data[name]]
             data[name] = words if name in KEPT_IN_ERROR_ROWS else np.where(failed, None, words)
     frame = pd.DataFrame({name: data[name] for name in LINK_COLUMNS if name in data
-                          and (radio_columns or name not in RADIO_COLUMNS)})
+                          and (radio_columns or name not in RADIO_COLUMNS)
+                          and (confidence_columns or name not in CONFIDENCE_COLUMNS)})
     if sites.gain_dbi is not None:
         frame["gain_a_dbi"] = sites.gain_dbi[a]
         frame["gain_b_dbi"] = sites.gain_dbi[b]
@@ -173,6 +193,7 @@ def _lines(frame) -> Any:
 def write_outputs(
     out: str | os.PathLike, stage, sites, keys: dict, codes: np.ndarray, ranked, problems: dict,
     settings, radio_columns: bool = False, run_description: dict | None = None, csv_geometry: str = "none",
+    confidence_columns: bool = False, rank_by: str = "fade_margin_db",
 ) -> list[str]:
     """Write the ranked links and the sites; return the paths written.
 
@@ -197,7 +218,7 @@ def write_outputs(
     pyogrio.set_gdal_config_options(_FAST_SQLITE)
     try:
         return _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings,
-                      run_description, csv_geometry, radio_columns)
+                      run_description, csv_geometry, radio_columns, confidence_columns, rank_by)
     finally:
         pyogrio.set_gdal_config_options(saved)
 
@@ -277,7 +298,8 @@ def _have_arrow() -> bool:
 
 
 def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, settings, run_description,
-           csv_geometry, radio_columns: bool = False) -> list[str]:
+           csv_geometry, radio_columns: bool = False, confidence_columns: bool = False,
+           rank_by: str = "fade_margin_db") -> list[str]:
     import geopandas as gpd
     import pandas as pd
     import pyogrio
@@ -286,7 +308,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
     from .rounding import round_frame
 
     verdict_names = [VERDICTS[k].value for k in sorted(VERDICTS)]
-    order = rank_order(keys)
+    order = rank_order(keys, rank_by)
     ranked_codes = codes[order]
     n_rows = order.size
     del order
@@ -304,7 +326,7 @@ def _write(out, suffix, driver, stage, sites, keys, codes, ranked, problems, set
         stop = min(start + WRITE_BATCH, n_rows)
         batch_codes = ranked_codes[start:stop]
         frame = _link_frame(ranked(start, stop), batch_codes, problems, sites, settings, verdict_names,
-                            radio_columns)
+                            radio_columns, confidence_columns)
         frame.insert(0, "rank", np.arange(start + 1, stop + 1))
         # A row that could not be profiled gets no line (not one between its two ends).
         drawn = batch_codes != Verdict.ERROR.code

@@ -66,10 +66,12 @@ class ChunkTask:
     # The profile and EIRP limit of the pairs being evaluated (one group of a chunk).
     radio_plan: Any = None
     eirp_limit: Any = None
+    # Monte Carlo confidence of each pair (profiler.confidence.ConfidenceSettings), or None.
+    confidence: Any = None
 
 
 def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,
-              heights: Any = None, radios: SiteRadios | None = None) -> ChunkTask:
+              heights: Any = None, radios: SiteRadios | None = None, confidence: Any = None) -> ChunkTask:
     """The chunk of pairs ``a``, ``b`` (site indices) starting at pair ``first``.
 
     ``heights`` (:class:`profiler.screening.placing.AntennaHeights`, or None)
@@ -91,7 +93,7 @@ def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio:
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
         agl_a=agl_a, agl_b=agl_b,
         gain_a=None if g is None else g[a], gain_b=None if g is None else g[b],
-        radio=radio, settings=settings, **mounts,
+        radio=radio, settings=settings, confidence=confidence, **mounts,
     )
 
 
@@ -315,6 +317,12 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
             out[name][idx] = values
     for name, values in radio_columns(batch).items():
         out[name][idx] = np.asarray(values)
+    if task.confidence is not None:  # p_meets, p_los: the draws of each pair, seeded by its ends
+        from ..confidence import confidence_for_batch
+
+        conf = confidence_for_batch(batch, task.confidence, diffraction=False, skip_too_large=True)
+        out["p_meets"][idx] = conf.p_meets
+        out["p_los"][idx] = conf.p_los
     for k, problem in enumerate(batch.problems):
         if problem is not None:
             problems.append((task.first_pair + int(idx[k]), problem))

@@ -99,6 +99,8 @@ def screen(
     radios: Any = None,
     run_description: dict | None = None,
     csv_geometry: str = "none",
+    confidence: Any = None,
+    rank_by: str = "fade_margin_db",
 ) -> ScreenSummary | tuple[Any, Any]:
     """Screen the planned pairs of ``sites``: rank them by fade margin and give each a verdict.
 
@@ -139,6 +141,10 @@ def screen(
     radios : SiteRadios, optional
         Radio profiles per site and EIRP limits (:class:`profiler.equipment.modulation.SiteRadios`,
         made by :func:`profiler.jobs.site_radios`); ``radio`` is then the flags' one-step radio.
+    confidence : profiler.confidence.ConfidenceSettings, optional
+        Adds the columns ``p_meets`` and ``p_los`` (Monte Carlo, seeded per pair by its ends).
+    rank_by : str
+        ``fade_margin_db`` (default) or ``p_meets`` (needs ``confidence``; ties by fade margin).
     inputs : paths
         Input files an output must not overwrite (the sites and pairs files);
         the rasters are always protected.  A second run on the same output
@@ -195,7 +201,8 @@ def screen(
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
                    progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof,
-                   radios=radios, run_description=run_description, csv_geometry=csv_geometry)
+                   radios=radios, run_description=run_description, csv_geometry=csv_geometry,
+                   confidence=confidence, rank_by=rank_by)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -210,7 +217,8 @@ def _screen_to(
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
     surroundings: Any = None, above_roof: bool = False, radios: Any = None,
-    run_description: dict | None = None, csv_geometry: str = "none",
+    run_description: dict | None = None, csv_geometry: str = "none", confidence: Any = None,
+    rank_by: str = "fade_margin_db",
 ) -> ScreenSummary:
     """:func:`screen` of a read site table into the file ``out``."""
     t0 = time.perf_counter()
@@ -231,6 +239,7 @@ def _screen_to(
                    surroundings, heights, radios)
         run.run_description = run_description
         run.csv_geometry = csv_geometry
+        run.with_confidence(confidence, rank_by)
         done = run.prepare(resume, restart, overwrite)
         if done is not None:
             return done
@@ -368,6 +377,17 @@ class _Run:
         self.done_rows = self.done_chunks = self.resumed = 0
         self.run_description: dict | None = None
         self.csv_geometry = "none"
+        self.confidence: Any = None
+        self.rank_by = "fade_margin_db"
+
+    def with_confidence(self, confidence: Any, rank_by: str) -> None:
+        """The Monte Carlo confidence asked for (p_meets, p_los columns) and the ranking column."""
+        from ..io.screen_output import check_rank_by
+
+        self.rank_by = check_rank_by(rank_by, confidence is not None)
+        self.confidence = confidence
+        if confidence is not None:  # other draws are another run
+            self.fingerprint = hashlib.sha256((self.fingerprint + repr(confidence)).encode()).hexdigest()
 
     def prepare(self, resume: bool, restart: bool, overwrite: bool) -> "ScreenSummary | None":
         """Finish a crashed final write, apply the overwrite rule, open or create the stage.
@@ -442,7 +462,8 @@ class _Run:
                             break
                         first, a, b = nxt
                         pending.append(executor.submit(make_task(sites, first, a, b, radio, settings,
-                                                                 self.heights, self.radios)))
+                                                                 self.heights, self.radios,
+                                                                 self.confidence)))
                     if not pending:
                         break
                     cols, problems = pending.popleft().result()
@@ -454,12 +475,13 @@ class _Run:
         finally:
             stage.close()
         executor.close()  # free the workers' memory before writing
-        keys = stage.columns(done_rows, _VERDICT_KEYS)
+        keys = stage.columns(done_rows, _VERDICT_KEYS + (("p_meets",) if self.confidence is not None else ()))
         codes = verdicts(keys, self.min_margin_db)
         problems = {int(p): str(m) for p, m in stage.problems()}
-        ranked = stage.rank(rank_order(keys))
+        ranked = stage.rank(rank_order(keys, self.rank_by))
         outputs = write_outputs(self.out, stage, sites, keys, codes, ranked, problems, settings,
                                 radio_columns=self.radios is not None,
+                                confidence_columns=self.confidence is not None, rank_by=self.rank_by,
                                 run_description=self.run_description, csv_geometry=self.csv_geometry)
         summary = self._summary(done_rows, self.resumed, outputs)
         stage.discard()

@@ -72,6 +72,8 @@ class ProfileDrawing:
     ground_a_m: float
     ground_b_m: float
     freq_ghz: float = float("nan")
+    #: Combined elevation and clutter sigma per sample, m (profiler.confidence), or None without it.
+    uncertainty_m: np.ndarray | None = None
 
     @property
     def surface_m(self) -> np.ndarray:
@@ -134,6 +136,7 @@ def profile_drawing(batch: Any, i: int) -> ProfileDrawing:
         ground_a_m=float(batch.ground_a_m[i]),
         ground_b_m=float(batch.ground_b_m[i]),
         freq_ghz=float(np.broadcast_to(np.asarray(batch.radio.freq_ghz, dtype=float), (len(batch),))[i]),
+        uncertainty_m=None if getattr(batch, "confidence", None) is None else batch.confidence.sigma_m[i],
     )
 
 

@@ -135,6 +135,9 @@ def draw_profile(ax: Any, d: ProfileDrawing, record: dict, *, units: str = "m",
     legend: list = []
     lines: dict = {}
     _draw_terrain(ax, f, legend, lines)
+    from .confidence import draw_uncertainty_band
+
+    draw_uncertainty_band(ax, d, f, legend, record)
     clutter_artists = _draw_clutter(ax, d, f, legend)
     _draw_worst_surface(ax, d, f, legend, lines)
     _draw_fresnel(ax, d, f, legend, lines)

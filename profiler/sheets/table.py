@@ -206,6 +206,9 @@ def parameter_rows(record: dict, units: str = "m") -> list[Row]:
             flag="good" if bd["fade_margin_db"] >= 0 else "bad"),
     ]
     rows += availability_rows(record)
+    from .confidence import confidence_rows
+
+    rows += [Row(*cells) for cells in confidence_rows(record)]
     return rows
 
 
