@@ -56,6 +56,8 @@ class LinkBatch:
     # Radio profile figures (profiler.equipment.modulation.ModulationResult) and the EIRP check; None when unused.
     modulation: Any = None
     eirp: Any = None
+    # Ground reflections over the k sweep (profiler.reflection.LinkReflections); None when not searched.
+    reflection: Any = None
 
     def __len__(self) -> int:
         return len(self.names)

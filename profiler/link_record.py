@@ -48,7 +48,19 @@ def link_record(batch: Any, i: int) -> dict:
     }
     _add_surroundings(batch, record, i)
     _add_equipment(batch, record, i)
+    _add_reflection(batch, record, i)
     return record
+
+
+def _add_reflection(batch: Any, record: dict, i: int) -> None:
+    """The ``reflection`` block of link i and its swing warning (profiler.reflection), when searched."""
+    reflection = getattr(batch, "reflection", None)
+    if reflection is None:
+        return
+    record["reflection"] = reflection.record(i)
+    warning = reflection.warning(i)
+    if warning:
+        record.setdefault("warnings", []).append(warning)
 
 
 def _add_equipment(batch: Any, record: dict, i: int) -> None:

@@ -7,7 +7,7 @@ import json
 import click
 
 from ..io.linkfile import read_link_file
-from .options import (analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data,
+from .options import (reflection_options, analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
 from .screen import gain_warning_text
 
@@ -148,6 +148,7 @@ def write_records_kml(kml_path: str, records: list, ends: list, job, min_margin_
 @click.command()
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
 @link_input_options
+@reflection_options
 @date_option
 @click.option("--profile-csv", "profile_csv", default=None, type=click.Path(dir_okay=False), metavar="FILE",
               help="Also write the sampled profile as CSV: distance, position, ground, clutter, bulge at both k, "

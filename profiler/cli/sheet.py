@@ -11,7 +11,7 @@ import click
 
 from ..errors import InputError
 from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
-from .options import (analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
+from .options import (reflection_options, analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
 from .link import KML_MIN_MARGIN_DB, check_kml_request, kml_options, write_records_kml
 from .screen import SHOWN_BAD_ROWS
@@ -173,6 +173,7 @@ def _output_format(out: str, fmt: str | None) -> str:
 @click.command()
 @click.argument("link_files", nargs=-1, type=click.Path(dir_okay=False))
 @link_input_options
+@reflection_options
 @click.option("--pairs", type=click.Path(dir_okay=False), default=None, metavar="TABLE",
               help="CSV or GeoPackage of site pairs (e.g. a screening result): columns name_a, lat_a, lon_a, "
                    "agl_a_m, name_b, lat_b, lon_b, agl_b_m; optional name, fade_margin_db.")
