@@ -7,6 +7,7 @@ profiles' samples; :mod:`profiler.reflection` takes the mask.
 
 from __future__ import annotations
 
+import functools
 import os
 from dataclasses import dataclass
 from typing import Any
@@ -15,7 +16,7 @@ import numpy as np
 
 from .errors import DataError, DataFileError
 
-__all__ = ["WaterLayer", "read_water_layer"]
+__all__ = ["WaterLayer", "read_water_layer", "cached_water_layer"]
 
 
 @dataclass(frozen=True)
@@ -66,3 +67,9 @@ def read_water_layer(path: str) -> WaterLayer:
 
     union = shapely.union_all(shapely.make_valid(np.asarray(polygons.values)))
     return WaterLayer(path=p, geometry=union, crs=gdf.crs, features=len(polygons))
+
+
+@functools.lru_cache(maxsize=4)
+def cached_water_layer(path: str) -> WaterLayer:
+    """:func:`read_water_layer`, kept per process (screening workers read it once)."""
+    return read_water_layer(path)
