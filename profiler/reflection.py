@@ -302,11 +302,14 @@ class ReflectionSettings:
     sea_level_water: bool = False
 
     def validate(self) -> "ReflectionSettings":
-        for name in ("k_min", "k_max"):
+        from .validation import check_number
+
+        for name in ("k_min", "k_max"):  # ranges: profiler.validation.LIMITS (as k)
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, (int, float)):
                 raise InputError(f"{{parameter}} must be a number, got {value!r}",
                                  parameter=f"reflection_{name}", value_word="K")
+            check_number(value, f"reflection_{name}")
         sweep_k_values(float(self.k_min), float(self.k_max))
         return self
 

@@ -60,10 +60,11 @@ def test_unknown_ground_flag():
 
 @pytest.mark.parametrize("extra, words", [
     (["--reflection-k-min", "3", "--reflection-k-max", "2"], ["reflection k sweep", "empty"]),
-    (["--reflection-k-min", "0"], ["reflection k sweep", "empty"]),
-    (["--reflection-k-min", "-1"], ["reflection k sweep"]),
-    (["--reflection-k-max", "inf"], ["reflection k sweep"]),
-    (["--reflection-k-min", "nan"], ["reflection k sweep"]),
+    (["--reflection-k-min", "1", "--reflection-k-max", "0.9"], ["reflection k sweep", "empty"]),
+    (["--reflection-k-min", "0"], ["reflection_k_min", "between 0.1 and 100"]),
+    (["--reflection-k-min", "-1"], ["reflection_k_min"]),
+    (["--reflection-k-max", "inf"], ["reflection_k_max", "finite"]),
+    (["--reflection-k-min", "nan"], ["reflection_k_min", "finite"]),
 ])
 def test_empty_sweep(extra, words):
     assert_refused(LINK + extra, words, inputs=[DEMO_DEM])
