@@ -29,10 +29,12 @@ Sources
   with the complex relative permittivity eta = eps_r - j 60 lambda sigma
   (ITU-R P.527-6 (09/2021) relation between conductivity and the imaginary
   part; ITU-R P.2040 writes the same reflection coefficients; from memory).
-* Electrical constants: ground values of ITU-R P.527-3 (1992) Table 1 (from
-  memory): wet ground 30 / 0.15 S/m... see :data:`SURFACE_TYPES`; water from a
-  single-relaxation Debye model with parameters for 20 degC (from memory,
-  within a few units of the P.527 curves between 1 and 20 GHz).
+* Electrical constants: ground values read from the curves of ITU-R P.527-3
+  (1992) near 1-3 GHz (from memory; :data:`SURFACE_TYPES`), kept fixed with
+  frequency; water from a single-relaxation Debye model with parameters for
+  20 degC (from memory, within a few units of the P.527 curves between 1 and
+  20 GHz).  Lossy surfaces: the vertical coefficient has a shallow non-zero
+  minimum near atan(1 / sqrt(|eta|)) instead of the Brewster zero.
 * Divergence factor of the curved earth: D = (1 + 2 d1 d2 / (k a d sin psi))^-1/2
   (Beckmann and Spizzichino, *The Scattering of Electromagnetic Waves from
   Rough Surfaces*, Pergamon 1963, chapter 17 on the divergence factor; from memory).
@@ -64,7 +66,7 @@ from .units import EARTH_RADIUS_M, wavelength_m
 
 __all__ = [
     "SURFACE_TYPES", "WATER_TYPES", "SMOOTH_EARTH_GROUND", "DEFAULT_K_MIN", "DEFAULT_K_MAX", "K_STEPS",
-    "ReflectionSettings", "sweep_k_values", "resolve_surface", "complex_permittivity", "fresnel_coefficient",
+    "ReflectionSettings", "sweep_k_values", "reflecting_surface", "facet_curve", "curve_inverse_k", "Curve", "resolve_surface", "complex_permittivity", "fresnel_coefficient",
     "brewster_grazing_angle_rad", "divergence_factor", "roughness_factor", "rayleigh_limit_m",
     "reflection_point_m", "reflection_point_cubic_coefficients", "two_ray_level_db", "diversity_spacing_m",
     "space_diversity_improvement", "FacetReflections", "find_reflections", "LinkReflections",
@@ -859,7 +861,7 @@ def reflections_for_links(
                    else math.inf)
     found_any = np.any([s.found for s in sweep], axis=0) & valid
     p0 = _p0(d, f, ha, hb, climate) if found_any.any() else nan
-    for i in np.flatnonzero(found_any):
+    for i in map(int, np.flatnonzero(found_any)):
         j = next(j for j in order if sweep[j].found[i])
         s = sweep[j]
         facet_k[i] = k_values[j]

@@ -202,7 +202,7 @@ CODED_COLUMNS: dict[str, tuple[str, ...]] = {c.name: c.labels for c in LINK_TABL
 def run_staged_columns(surroundings: bool, reflection: bool = False) -> dict[str, str]:
     """The staged columns of one run: without obstruction layers or surface model, not their group
     (nor the reflection group without a reflection search)."""
-    groups = {None, SURROUNDINGS_GROUP} if surroundings else {None}
+    groups: set[str | None] = {None, SURROUNDINGS_GROUP} if surroundings else {None}
     if reflection:
         groups.add(REFLECTION_GROUP)
     return {c.name: c.staged for c in LINK_TABLE if c.staged is not None and c.group in groups}
