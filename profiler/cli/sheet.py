@@ -40,6 +40,7 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any, kml: list |
 
 def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
                 opts: dict, title: Any, kml: list | None = None) -> list:
+    from ..jobs import open_water_layer
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
     from ..validation import same_place_problem
@@ -90,7 +91,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b,
-                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit)
+                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit,
+                              reflection=resolved.reflection, water_layer=open_water_layer(resolved.reflection))
         from ..jobs import with_equipment
 
         batch = with_equipment(batch, resolved)  # antennas and installer figures, as for a link file
