@@ -199,3 +199,29 @@ def test_water_layer_marks_the_lake():
     lat = np.array([[-30.529855, -30.52985, -30.40]])
     lon = np.array([[-20.994788, -20.9636, -20.90]])
     assert layer.mask(lat, lon).tolist() == [[False, True, False]]
+
+
+def test_screening_columns_only_when_searched_and_equal_to_link(tmp_path):
+    import pandas as pd
+    from click.testing import CliRunner
+
+    from profiler.cli.main import cli
+
+    demo = REPO / "data" / "demo"
+    base = ["screen", str(demo / "sites.csv"), "--dem", str(demo / "terrain.tif"), "--freq-ghz", "5.8",
+            "--tx-power-dbm", "20", "--gain-a-dbi", "23", "--gain-b-dbi", "23", "--bandwidth-mhz", "20",
+            "--required-snr-db", "15", "--workers", "1", "-q"]
+    plain, searched = tmp_path / "plain.csv", tmp_path / "refl.csv"
+    for out, extra in ((plain, []), (searched, ["--water", str(demo / "lake.gpkg")])):
+        result = CliRunner().invoke(cli, base + extra + ["-o", str(out)], catch_exceptions=False)
+        assert result.exit_code == 0, result.stderr
+    p, s = pd.read_csv(plain), pd.read_csv(searched)
+    cols = ["reflection_point_km", "reflection_swing_db", "over_water"]
+    assert not set(cols) & set(p.columns)
+    assert set(cols) <= set(s.columns)
+    assert list(s.drop(columns=cols).columns) == list(p.columns)
+    assert s["over_water"].sum() >= 1  # the pump house to the depot crosses the lake's edge
+    row = s[((s.site_a == "Corrow Ridge Mast") & (s.site_b == "Dunmore Tank"))].iloc[0]
+    link = _link_json(EXAMPLES / "demo-4-ridge.toml")["reflection"]
+    assert row.reflection_point_km == pytest.approx(link["at_design_k"]["point_km"], abs=1e-3)
+    assert row.reflection_swing_db == pytest.approx(link["swing_db"], abs=0.01)
