@@ -106,6 +106,8 @@ DEFAULT_K_MIN = 0.5
 DEFAULT_K_MAX = 10.0
 K_STEPS = (0.5, 0.6, 2.0 / 3.0, 0.8, 1.0, 1.2, 4.0 / 3.0, 1.5, 2.0, 3.0, 5.0, 10.0)
 
+#: Samples per block of the ray check (candidates x samples), bounding its memory (about 50 MB of arrays).
+_RAY_CHECK_SAMPLES = 1_000_000
 #: Lowest level change reported, dB (an exact null of two equal rays is -infinity).
 LEVEL_FLOOR_DB = -60.0
 #: Tolerance of "at the dataset's sea level", m (common practice for rasters that put the sea at 0).
@@ -485,15 +487,21 @@ def find_reflections(
     start, end = np.maximum(xr - half, 0.0), np.minimum(xr + half, dd)
 
     # 4. incident and reflected rays above the surface outside the zone (the engine's drawing: surface + bulge).
-    xs, ss = x[p_idx], s[p_idx]
-    ys = ss + _bulge(xs, d[p_idx], ae)
-    ha_c, hb_c = ha[p_idx, 0], hb[p_idx, 0]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ray_in = ha_c[:, None] + (yr - ha_c)[:, None] * xs / xr[:, None]
-        ray_out = yr[:, None] + (hb_c - yr)[:, None] * (xs - xr[:, None]) / (dd - xr)[:, None]
-    ins = inside[p_idx] & (xs > 0) & (xs < dd[:, None])
-    blocked = (ins & (xs < start[:, None]) & (ys >= ray_in)) | (ins & (xs > end[:, None]) & (ys >= ray_out))
-    clear = ~blocked.any(axis=1)
+    clear = np.ones(p_idx.size, dtype=bool)
+    block = max(1, _RAY_CHECK_SAMPLES // max(N, 1))  # candidates per block: (block, samples) arrays stay small
+    for b0 in range(0, p_idx.size, block):
+        sl = slice(b0, b0 + block)
+        pc = p_idx[sl]
+        xs, ss = x[pc], s[pc]
+        ys = ss + _bulge(xs, d[pc], ae)
+        ha_c, hb_c, yc, xc_, dc = ha[pc, 0], hb[pc, 0], yr[sl], xr[sl], dd[sl]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ray_in = ha_c[:, None] + (yc - ha_c)[:, None] * xs / xc_[:, None]
+            ray_out = yc[:, None] + (hb_c - yc)[:, None] * (xs - xc_[:, None]) / (dc - xc_)[:, None]
+        ins = inside[pc] & (xs > 0) & (xs < dc[:, None])
+        blocked = ((ins & (xs < start[sl, None]) & (ys >= ray_in))
+                   | (ins & (xs > end[sl, None]) & (ys >= ray_out)))
+        clear[sl] = ~blocked.any(axis=1)
     if not clear.any():
         return empty
     sel = np.flatnonzero(clear)
