@@ -41,6 +41,7 @@ def job_input_files(link_file: str | None, resolved) -> list:
     files = [link_file, *resolved.rasters, *resolved.surface_rasters]
     files += [getattr(layer, "path", None) for layer in resolved.obstruction_layers]
     files += [getattr(a, "source", None) for a in (resolved.antenna_a, resolved.antenna_b) if a is not None]
+    files += [getattr(resolved.reflection, "water_file", None)]  # the water layer (profiler.reflection)
     return files
 
 

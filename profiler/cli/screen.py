@@ -235,7 +235,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     from ..terrain import ElevationModel
 
     _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
-    inputs = [sites_file, pairs_file, *opts["dem"], antenna_file]
+    inputs = [sites_file, pairs_file, *opts["dem"], antenna_file, opts.get("water")]
     _check_out(out, inputs)
     from ..io.screen_output import check_csv_geometry
 

@@ -107,3 +107,23 @@ def test_subprocess_water_without_crs(tmp_path):
     water = _no_crs_geojson(tmp_path)
     assert_refused(LINK + ["--water", str(water)], ["no coordinate reference system"], inputs=[water],
                    subprocess=True)
+
+
+def test_screen_output_on_the_water_layer_is_refused(tmp_path):
+    import shutil
+
+    water = tmp_path / "lake.gpkg"
+    shutil.copy(LAKE_LAYER, water)
+    demo = REPO / "data" / "demo"
+    assert_refused(["screen", str(demo / "sites.csv"), "--dem", str(DEMO_DEM), "--freq-ghz", "5.8",
+                    "--water", str(water), "-o", str(water), "-q"], ["would overwrite the input"],
+                   inputs=[water, demo / "sites.csv", DEMO_DEM])
+
+
+def test_profile_csv_on_the_water_layer_is_refused(tmp_path):
+    import shutil
+
+    water = tmp_path / "lake.gpkg"
+    shutil.copy(LAKE_LAYER, water)
+    assert_refused(["link", str(LAKE_FILE), "--water", str(water), "--profile-csv", str(water)],
+                   ["would overwrite the input"], inputs=[water, LAKE_FILE, DEMO_DEM])
