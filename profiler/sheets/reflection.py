@@ -86,7 +86,8 @@ def _level_inset(ax: Any, curve: dict, block: dict, k_design: float, ts: float) 
     """The level-versus-k plot in a band added above the profile (the profile's own space is left alone)."""
     bottom, top = ax.get_ylim()
     ax.set_ylim(bottom, top + 0.55 * (top - bottom))  # the band: above every drawn line
-    inset = ax.inset_axes([_free_x(ax, 0.36 + 0.13, (0.62, 0.97)), 0.66, 0.36, 0.22])
+    left, width = _free_place(ax, (0.62, 0.97))
+    inset = ax.inset_axes([left, 0.66, width, 0.22])
     inv_k = np.asarray(curve["inverse_k"], dtype=float)
     level = np.asarray(curve["level_change_db"], dtype=float)
     order = np.argsort(inv_k)
@@ -116,10 +117,16 @@ def _level_inset(ax: Any, curve: dict, block: dict, k_design: float, ts: float) 
     return inset
 
 
-def _free_x(ax: Any, width: float, band: tuple[float, float]) -> float:
-    """Left edge (axes fraction) of a box ``width`` wide in the height ``band`` that no text of ``ax`` covers.
+#: Room kept right of the inset for its caption and the fade-margin word, and left of it for its tick
+#: labels (clear of the profile's own), as fractions of the profile's width.
+_CAPTION_W, _TICKS_W = 0.12, 0.07
 
-    Labels with their arrows are avoided first, then the label boxes alone; failing both, the least covered place.
+
+def _free_place(ax: Any, band: tuple[float, float]) -> tuple[float, float]:
+    """(left, width) of the inset, axes fractions, in the height ``band`` where no text of ``ax`` lies.
+
+    The widest of a few widths that fits clear of the labels with their arrows, then of the label boxes
+    alone; failing both, the narrowest at the least covered place.
     """
     from matplotlib.text import Text
 
@@ -134,14 +141,20 @@ def _free_x(ax: Any, width: float, band: tuple[float, float]) -> float:
             box = text.get_window_extent(renderer) if with_arrows else Text.get_window_extent(text, renderer)
             (x0, y0), (x1, y1) = to_axes.transform(box.get_points())
             if y1 >= band[0] and y0 <= band[1]:
-                out.append((x0 - 0.02, x1 + 0.02))
+                out.append((x0 - 0.01, x1 + 0.01))
         return out
 
-    lefts = sorted(np.arange(0.02, 0.99 - width, 0.02), key=lambda v: abs(v - 0.32))
+    def lefts(width: float) -> list[float]:
+        return sorted(np.arange(_TICKS_W, 0.99 - width - _CAPTION_W, 0.01), key=lambda v: abs(v - 0.32))
+
     for with_arrows in (True, False):
         boxes = spans(with_arrows)
-        for left in lefts:
-            if all(left + width <= b0 or left >= b1 for b0, b1 in boxes):
-                return float(left)
+        for width in (0.36, 0.30, 0.25, 0.20):
+            for left in lefts(width):
+                lo, hi = left - _TICKS_W, left + width + _CAPTION_W
+                if all(hi <= b0 or lo >= b1 for b0, b1 in boxes):
+                    return float(left), width
     boxes = spans(False)
-    return float(min(lefts, key=lambda v: sum(max(0.0, min(v + width, b1) - max(v, b0)) for b0, b1 in boxes)))
+    width = 0.20
+    return float(min(lefts(width), key=lambda v: sum(max(0.0, min(v + width + _CAPTION_W, b1) - max(v - _TICKS_W, b0))
+                                                    for b0, b1 in boxes))), width
