@@ -7,8 +7,9 @@ import json
 import click
 
 from ..io.linkfile import read_link_file
-from .options import (reflection_options, analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data,
+from .options import (analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
+from .options import reflection_options  # ground reflections (profiler.reflection)
 from .screen import gain_warning_text
 
 __all__ = ["link", "run_link", "kml_options", "write_records_kml"]

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import dataclasses
 import os
-
 import sys
 import time
 from typing import TYPE_CHECKING
@@ -13,8 +12,9 @@ import click
 
 from ..errors import InputError
 from ..io.columns import Verdict
-from .options import (reflection_options, RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
+from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
                       radio_profile_options, roof_mount_options, surroundings_options, terrain_options)
+from .options import reflection_options  # ground reflections (profiler.reflection)
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID

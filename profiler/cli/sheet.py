@@ -11,8 +11,9 @@ import click
 
 from ..errors import InputError
 from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
-from .options import (reflection_options, analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
+from .options import (analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
+from .options import reflection_options  # ground reflections (profiler.reflection)
 from .link import KML_MIN_MARGIN_DB, check_kml_request, kml_options, write_records_kml
 from .screen import SHOWN_BAD_ROWS
 
