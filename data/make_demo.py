@@ -4,7 +4,7 @@ Everything here is made up: the terrain is a sum of smooth shapes and seeded
 fractal noise, placed in open ocean (South Atlantic, UTM zone 27S) so that it
 cannot be mistaken for a real landscape.  The place names are invented too.
 
-Run:  python data/make_demo.py      (rewrites data/demo/terrain.tif)
+Run:  python data/make_demo.py      (rewrites data/demo/terrain.tif and data/demo/lake.gpkg)
 """
 
 from __future__ import annotations
@@ -15,6 +15,7 @@ import numpy as np
 
 HERE = Path(__file__).resolve().parent
 OUT = HERE / "demo" / "terrain.tif"
+LAKE_OUT = HERE / "demo" / "lake.gpkg"
 
 #: UTM zone 27 south; the demo area's lower-left corner and cell size, metres.
 CRS = "EPSG:32727"
@@ -82,6 +83,35 @@ def write(path: Path = OUT) -> Path:
     return path
 
 
+#: Mere Hollow's outline as in make_terrain: centre km east/north of the south-west corner, semi-axes km.
+LAKE_CENTRE_KM = (3.5, 2.5)
+LAKE_SEMI_AXES_KM = (2.0, 1.4)
+
+
+def lake_outline_xy(points: int = 256) -> np.ndarray:
+    """The ellipse of Mere Hollow in the demo CRS (metres), drawn 60 m inside the flat water (x, y rows)."""
+    t = np.linspace(0.0, 2.0 * np.pi, points, endpoint=False)
+    (cx, cy), (ax, ay) = LAKE_CENTRE_KM, LAKE_SEMI_AXES_KM
+    x = X0_M + 1000.0 * (cx + (ax - 0.06) * np.cos(t))
+    y = Y0_M + 1000.0 * (cy + (ay - 0.06) * np.sin(t))
+    return np.column_stack([x, y])
+
+
+def write_lake(path: Path = LAKE_OUT) -> Path:
+    """Write the lake's water polygon (for --water / [reflection] water) as a GeoPackage in the demo CRS."""
+    import geopandas as gpd
+    from shapely.geometry import Polygon
+
+    frame = gpd.GeoDataFrame({"name": ["Mere Hollow (invented)"], "water": ["fresh"]},
+                             geometry=[Polygon(lake_outline_xy())], crs=CRS)
+    if path.exists():
+        path.unlink()
+    frame.to_file(path, layer="water", driver="GPKG")
+    return path
+
+
 if __name__ == "__main__":
     p = write()
     print(f"wrote {p} ({p.stat().st_size / 1e6:.2f} MB)")
+    q = write_lake()
+    print(f"wrote {q}")

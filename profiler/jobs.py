@@ -110,6 +110,8 @@ class LinkJob:
     min_margin_db: float | None = None
     #: Monte Carlo confidence asked for (profiler.confidence.ConfidenceSettings), or None.
     confidence: Any = None
+    #: Ground-reflection search (profiler.reflection.ReflectionSettings); None: not searched.
+    reflection: Any = None
 
 
 def default_text(name: str) -> str:
@@ -302,6 +304,7 @@ def resolve_link_job(link_file: str | None, overrides: dict[str, Any] | None = N
         antenna_b=antennas.get("b"),
         install_date=resolve_install_date(opts),
         confidence=_resolve_confidence(opts, spec),
+        reflection=resolve_reflection(opts, spec.reflection, spec.path),
     )
 
 
@@ -318,6 +321,29 @@ def _resolve_confidence(opts: dict[str, Any], spec: LinkSpec) -> Any:
                 raise InputError(f"{spec.path}: [confidence] {exc.render(lambda name, word: name)}") from None
     merged = {k: spec.confidence.get(k) if opts.get(k) is None else opts[k] for k in OPTIONS}
     return resolve_confidence(merged)
+
+
+def resolve_reflection(opts: dict[str, Any], section: dict[str, Any] | None = None,
+                       source: str = "link file") -> Any:
+    """Reflection settings (profiler.reflection) from --water, --sea-level-water, --reflection-k-min/-max
+    over a link file's [reflection] table; overrides win."""
+    from .reflection import DEFAULT_K_MAX, DEFAULT_K_MIN, ReflectionSettings
+
+    section = section or {}
+    water = opts.get("water") or section.get("water")
+    sea = opts.get("sea_level_water") or bool(section.get("sea_level_water", False))
+    k_min = _pick(opts.get("reflection_k_min"), section, "k_min", DEFAULT_K_MIN)
+    k_max = _pick(opts.get("reflection_k_max"), section, "k_max", DEFAULT_K_MAX)
+    return ReflectionSettings(k_min=k_min, k_max=k_max, water_file=water, sea_level_water=bool(sea)).validate()
+
+
+def open_water_layer(reflection: Any) -> Any:
+    """The water polygons named by reflection settings (profiler.reflection_water), or None."""
+    if reflection is None or not reflection.water_file:
+        return None
+    from .reflection_water import read_water_layer
+
+    return read_water_layer(reflection.water_file)
 
 
 # --- antennas and installer figures (profiler.equipment) -----------------------
@@ -746,6 +772,7 @@ def analyse_job(job: LinkJob, model: ElevationModel, surroundings: Surroundings 
         model, job.site_a, job.site_b, job.radio, job.settings, name=job.title,
         surroundings=surroundings, mount_a=mount_a or job.mount_a, mount_b=mount_b or job.mount_b,
         radio_plan=job.radio_plan, eirp_limit=job.eirp_limit,
+        reflection=job.reflection, water_layer=open_water_layer(job.reflection),
     )
     return with_confidence(with_equipment(batch, job), job, surroundings)
 

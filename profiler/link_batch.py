@@ -58,6 +58,8 @@ class LinkBatch:
     eirp: Any = None
     # Monte Carlo confidence (profiler.confidence.ConfidenceResult); None when not asked for.
     confidence: Any = None
+    # Ground reflections over the k sweep (profiler.reflection.LinkReflections); None when not searched.
+    reflection: Any = None
 
     def __len__(self) -> int:
         return len(self.names)

@@ -177,6 +177,8 @@ def analyse_links(
     estimate_availability: bool = True,
     radio_plan: Any = None,
     eirp_limit: Any = None,
+    reflection: Any = None,
+    water_layer: Any = None,
 ) -> LinkBatch:
     """Analyse many links at once (site a transmits to site b).
 
@@ -193,7 +195,9 @@ def analyse_links(
     ``radio_plan`` (:class:`profiler.equipment.modulation.RadioPlan`) adds the
     ``modulation`` figures; ``radio`` must then be its ``engine_radio`` (the
     lowest step).  ``eirp_limit`` (:class:`profiler.equipment.radios.EirpLimit`)
-    adds the EIRP check.
+    adds the EIRP check.  ``reflection`` (:class:`profiler.reflection.ReflectionSettings`)
+    adds the ground-reflection search (``LinkBatch.reflection``), with the water
+    polygons of ``water_layer`` (:class:`profiler.reflection_water.WaterLayer`).
     """
     if len(sites_a) != len(sites_b):
         raise InputError(f"{len(sites_a)} a-sites but {len(sites_b)} b-sites")
@@ -235,6 +239,9 @@ def analyse_links(
     ) if estimate_availability else None
     equipment = _equipment(radio_plan, eirp_limit, radio, settings, model, profiles, design, worst, antenna_a,
                            antenna_b, meets, (lat_a, lon_a, lat_b, lon_b), availability)
+    if reflection is not None:
+        equipment["reflection"] = _reflections(reflection, water_layer, profiles, antenna_a, antenna_b, radio,
+                                               settings, design)
     return LinkBatch(
         names=tuple(names),
         sites_a=sites_a if isinstance(sites_a, SiteColumns) else tuple(sites_a),
@@ -267,6 +274,19 @@ def _equipment(plan: Any, eirp_limit: Any, radio: Radio, settings: Settings, mod
 
         out["eirp"] = eirp_check(radio, eirp_limit, len(profiles.length_m))
     return out
+
+
+def _reflections(reflection: Any, water_layer: Any, profiles: Profiles, antenna_a: np.ndarray,
+                 antenna_b: np.ndarray, radio: Radio, settings: Settings, design: AtK) -> Any:
+    """Ground reflections over the k sweep (profiler.reflection), water marked from ``water_layer``."""
+    from .reflection import reflections_for_links
+
+    water = (water_layer.mask(profiles.lat_deg, profiles.lon_deg, profiles.n_samples)
+             if water_layer is not None else None)
+    return reflections_for_links(
+        profiles, antenna_a, antenna_b, radio.freq_ghz, k=settings.k, k_worst=settings.k_worst,
+        fade_margin_db=design.budget.fade_margin_db, polarisation=settings.polarisation, ground=settings.ground,
+        settings=reflection, water=water, climate=settings.climate)
 
 
 def _climate_values(settings: Settings, model: ElevationModel, lat_a: np.ndarray, lon_a: np.ndarray,
@@ -362,12 +382,13 @@ def _with_surface_cells(profiles: Profiles, surface: Any, spacing_m: float | Non
 def analyse_link(
     model: ElevationModel, site_a: Site, site_b: Site, radio: Radio, settings: Settings = Settings(),
     *, name: str | None = None, surroundings: Any = None, mount_a: Any = None, mount_b: Any = None,
-    radio_plan: Any = None, eirp_limit: Any = None,
+    radio_plan: Any = None, eirp_limit: Any = None, reflection: Any = None, water_layer: Any = None,
 ) -> LinkBatch:
     """Analyse one link; raise DataError if its path cannot be profiled."""
     batch = analyse_links(
         model, [site_a], [site_b], radio, settings, names=[name] if name else None,
         surroundings=surroundings, radio_plan=radio_plan, eirp_limit=eirp_limit,
+        reflection=reflection, water_layer=water_layer,
         mounts_a=None if mount_a is None else [mount_a],
         mounts_b=None if mount_b is None else [mount_b],
     )

@@ -50,7 +50,19 @@ def link_record(batch: Any, i: int) -> dict:
     _add_equipment(batch, record, i)
     if getattr(batch, "confidence", None) is not None:
         record["confidence"] = batch.confidence.record(i)
+    _add_reflection(batch, record, i)
     return record
+
+
+def _add_reflection(batch: Any, record: dict, i: int) -> None:
+    """The ``reflection`` block of link i and its swing warning (profiler.reflection), when searched."""
+    reflection = getattr(batch, "reflection", None)
+    if reflection is None:
+        return
+    record["reflection"] = reflection.record(i)
+    warning = reflection.warning(i)
+    if warning:
+        record.setdefault("warnings", []).append(warning)
 
 
 def _add_equipment(batch: Any, record: dict, i: int) -> None:

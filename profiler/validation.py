@@ -88,6 +88,8 @@ LIMITS: dict[str, Limit] = {
                "the edge of ducting, which the method does not model; k below 0.1 is dN/dh above +1400 "
                "(common practice)"),
     "k_worst": Limit(0.1, 100.0, "", "as k; k_worst may not exceed k"),
+    "reflection_k_min": Limit(0.1, 100.0, "", "as k; the sweep of the reflection search (infinity is always added)"),
+    "reflection_k_max": Limit(0.1, 100.0, "", "as k; not below reflection_k_min"),
     "min_f1_fraction": Limit(-2.0, 2.0, "F1", "criteria ask between 0 and 1 F1; beyond +-2 F1 is a typing "
                              "error (common practice)"),
     "min_f1_fraction_worst": Limit(-2.0, 2.0, "F1", "as min_f1_fraction"),
@@ -144,7 +146,9 @@ LABELS: dict[str, str] = {
     "freq_ghz": "frequency", "tx_power_dbm": "transmitter power", "gain_a_dbi": "antenna gain at site a",
     "gain_b_dbi": "antenna gain at site b", "loss_a_db": "feeder loss at site a", "loss_b_db": "feeder loss at site b",
     "bandwidth_mhz": "bandwidth", "noise_figure_db": "noise figure", "required_snr_db": "required SNR",
-    "k": "k-factor k", "k_worst": "worst-case k-factor k_worst", "min_f1_fraction": "clearance criterion",
+    "k": "k-factor k", "k_worst": "worst-case k-factor k_worst",
+    "reflection_k_min": "smallest k of the reflection sweep", "reflection_k_max": "largest k of the reflection sweep",
+    "min_f1_fraction": "clearance criterion",
     "min_f1_fraction_worst": "worst-case clearance criterion", "antenna_agl_m": "antenna height above ground",
     "antenna_above_roof_m": "antenna height above the roof", "antenna_amsl_m": "antenna elevation",
     "antenna_ellipsoidal_m": "antenna height above the ellipsoid", "max_mast_m": "mast limit",

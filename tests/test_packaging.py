@@ -102,7 +102,7 @@ def test_the_installed_demo_runs_from_another_folder_and_prints_what_the_clone_p
     proc = _run_installed(installed, "-m", "profiler", "demo")
     assert proc.returncode == 0, proc.stderr
     assert proc.stderr == ""
-    assert proc.stdout.rstrip().endswith("6 links analysed, 3 meet the clearance criterion.")
+    assert proc.stdout.rstrip().endswith("7 links analysed, 4 meet the clearance criterion.")  # demo-7-lake added
     assert proc.stdout == run_cli("demo", check=True).stdout
 
 

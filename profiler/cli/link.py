@@ -9,6 +9,7 @@ import click
 from ..io.linkfile import read_link_file
 from .options import (analyse_resolved, date_option, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
+from .options import reflection_options  # ground reflections (profiler.reflection)
 from .screen import gain_warning_text
 
 __all__ = ["link", "run_link", "kml_options", "write_records_kml"]
@@ -41,6 +42,7 @@ def job_input_files(link_file: str | None, resolved) -> list:
     files = [link_file, *resolved.rasters, *resolved.surface_rasters]
     files += [getattr(layer, "path", None) for layer in resolved.obstruction_layers]
     files += [getattr(a, "source", None) for a in (resolved.antenna_a, resolved.antenna_b) if a is not None]
+    files += [getattr(resolved.reflection, "water_file", None)]  # the water layer (profiler.reflection)
     return files
 
 
@@ -148,6 +150,7 @@ def write_records_kml(kml_path: str, records: list, ends: list, job, min_margin_
 @click.command()
 @click.argument("link_file", required=False, type=click.Path(dir_okay=False))
 @link_input_options
+@reflection_options
 @date_option
 @click.option("--profile-csv", "profile_csv", default=None, type=click.Path(dir_okay=False), metavar="FILE",
               help="Also write the sampled profile as CSV: distance, position, ground, clutter, bulge at both k, "

@@ -45,6 +45,7 @@ __all__ = [
     "roof_mount_options",
     "open_surroundings_of",
     "link_input_options",
+    "reflection_options",
     "opened_link_data",
     "analyse_resolved",
     "antenna_options",
@@ -279,8 +280,10 @@ analysis_options = _compose(
             + "; delta-bullington is ITU-R P.526-15 section 4.5.2 [default: {default}]."),
     _option("--polarisation", type=click.Choice(["horizontal", "vertical"], case_sensitive=False),
             default=None, help="Antenna polarisation, for rain attenuation (ITU-R P.838-3) and the smooth-earth part of delta-bullington [default: {default}]."),
-    _option("--ground", type=click.Choice(["land", "sea"], case_sensitive=False), default=None,
-            help="Ground electrical constants for the smooth-earth part of delta-bullington [default: {default}]."),
+    _option("--ground", type=click.Choice(["land", "sea", "sea-water", "fresh-water", "wet-ground", "dry-ground"],
+                                          case_sensitive=False), default=None,
+            help="Ground electrical constants for reflections and the smooth-earth part of delta-bullington "
+                 "(water types count as sea there, ground types as land) [default: {default}]."),
 )
 
 
@@ -363,6 +366,18 @@ antenna_options = _compose(
 date_option = _option(
     "--date", "date", default=None, metavar="YYYY-MM-DD",
     help="Date for the magnetic declination (World Magnetic Model) in the installer figures [default: today].")
+#: Ground reflections (link, sheet, screen): profiler.reflection, merged in profiler.jobs.resolve_reflection.
+reflection_options = _compose(
+    _option("--water", "water", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+            help="Polygons of water (GeoPackage, GeoJSON, Shapefile; any CRS, refused without one): reflections "
+                 "there use fresh water, or sea water with --ground sea/sea-water."),
+    _option("--sea-level-water", is_flag=True, default=None,
+            help="Take path stretches within 0.5 m of the rasters' zero height as (sea) water."),
+    _option("--reflection-k-min", type=float, default=None, metavar="K",
+            help="Smallest k of the reflection sweep [default: 0.5]; infinity is always included."),
+    _option("--reflection-k-max", type=float, default=None, metavar="K",
+            help="Largest finite k of the reflection sweep [default: 10]."),
+)
 
 #: Monte Carlo confidence (profiler.confidence): any of these asks for it (link, sheet, heights, screen).
 #: Given as text so that profiler.confidence gives the one-line refusals.

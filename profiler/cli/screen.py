@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+import os
 import sys
 import time
 from typing import TYPE_CHECKING
@@ -13,6 +15,7 @@ from ..io.columns import Verdict
 from .options import (RADIO_FLAGS, DefaultHelpOption, analysis_options, climate_options, friendly_errors,
                       radio_profile_options, roof_mount_options, surroundings_options, terrain_options)
 from .options import confidence_options
+from .options import reflection_options  # ground reflections (profiler.reflection)
 
 if TYPE_CHECKING:  # rich is imported only when a bar is shown
     from rich.progress import Progress, TaskID
@@ -154,6 +157,11 @@ def _screen_radio_options(func):
 @radio_profile_options
 @analysis_options
 @climate_options
+@reflection_options
+@click.option("--reflections", is_flag=True, default=False,
+              help="Search every pair for ground reflections and add the columns reflection_point_km, "
+                   "reflection_swing_db and over_water (implied by --water, --sea-level-water and the "
+                   "--reflection-k flags).")
 @click.option("--out", "-o", "out", required=True, type=click.Path(dir_okay=False), metavar="RESULT",
               help="Result file: .gpkg (layers links and sites, and a run table), .geojson or .csv (sites "
                    "beside it, as RESULT-sites), or .kml/.kmz (sites and links for globe viewers); CSV, GeoJSON "
@@ -215,6 +223,7 @@ def _screen_radio_options(func):
 def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col, agl_col, gain_col,
            antenna_file, antenna_col, max_mast_col, default_agl_m, layer, min_margin_db, workers, scheduler,
            chunk_pairs, resume, restart, overwrite, quiet, above_roof, csv_geometry, rank_by="fade_margin_db",
+           reflections=False,
            **opts) -> None:
     """Screen candidate SITES: which pairs can link, and how well.
 
@@ -232,7 +241,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
     from ..terrain import ElevationModel
 
     _check_flags(opts, resume, restart, pairs_file, hubs, max_km, min_margin_db)
-    inputs = [sites_file, pairs_file, *opts["dem"], antenna_file]
+    inputs = [sites_file, pairs_file, *opts["dem"], antenna_file, opts.get("water")]
     _check_out(out, inputs)
     from ..io.screen_output import check_csv_geometry
 
@@ -248,6 +257,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
 
         scheduler = check_scheduler_address(scheduler)  # before any work: a garbled address is one line
     radio, settings = resolve_radio_settings(opts)
+    reflection = _reflection_search(opts, reflections)  # profiler.reflection; water layer checked here
     sites, bad, explicit, pair_heights = _read_sites_and_pairs(
         sites_file, pairs_file, dict(name_col=name_col, lat_col=lat_col, lon_col=lon_col, agl_col=agl_col,
                                      gain_col=gain_col, max_mast_col=max_mast_col, default_agl_m=default_agl_m,
@@ -283,7 +293,7 @@ def screen(sites_file, out, max_km, pairs_file, hubs, name_col, lat_col, lon_col
                 scheduler=scheduler, resume=resume, restart=restart, overwrite=overwrite,
                 chunk_pairs=chunk_pairs, inputs=[i for i in inputs if i],
                 min_margin_db=min_margin_db, progress=bar.update,
-                surroundings=surroundings, above_roof=above_roof, radios=radios,
+                surroundings=surroundings, above_roof=above_roof, radios=radios, reflection=reflection,
                 run_description=description, csv_geometry=csv_geometry,
                 confidence=confidence, rank_by=rank_by,
             )
@@ -439,3 +449,20 @@ def _report(summary, gain_warning: str | None, quiet: bool, sites) -> None:
     if not quiet:
         click.echo(format_screen_summary(summary))
         click.echo(f"columns: {sites.describe_columns()}")
+
+
+def _reflection_search(opts: dict, asked: bool):
+    """ReflectionSettings when the run searches for reflections (--reflections or a reflection flag), else None.
+
+    The water layer is read once here, so a bad file is one line before any work.
+    """
+    keys = ("water", "sea_level_water", "reflection_k_min", "reflection_k_max")
+    if not asked and all(opts.get(k) is None for k in keys):
+        return None
+    from ..jobs import open_water_layer, resolve_reflection
+
+    reflection = resolve_reflection(opts)
+    open_water_layer(reflection)
+    if reflection.water_file:
+        reflection = dataclasses.replace(reflection, water_file=os.path.abspath(reflection.water_file))
+    return reflection

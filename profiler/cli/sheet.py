@@ -13,6 +13,7 @@ from ..errors import InputError
 from ..io.pairs import parse_row_spec, read_pair_table, select_pairs
 from .options import (analyse_resolved, flag_form, friendly_errors, link_input_options, opened_link_data,
                       resolve_link)
+from .options import reflection_options  # ground reflections (profiler.reflection)
 from .link import KML_MIN_MARGIN_DB, check_kml_request, kml_options, write_records_kml
 from .screen import SHOWN_BAD_ROWS
 
@@ -40,6 +41,7 @@ def _from_link_files(files: tuple[str, ...], opts: dict, title: Any, kml: list |
 
 def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str | None, best: int | None,
                 opts: dict, title: Any, kml: list | None = None) -> list:
+    from ..jobs import open_water_layer
     from ..link import Site, analyse_links
     from ..sheets.build import sheet_contents
     from ..validation import same_place_problem
@@ -90,7 +92,8 @@ def _from_pairs(pairs: str, template: str | None, layer: str | None, rows: str |
     with opened_link_data(resolved, [s.lat_deg for s in ends], [s.lon_deg for s in ends]) as (model, surroundings):
         batch = analyse_links(model, sites_a, sites_b, resolved.radio, resolved.settings, names=names,
                               surroundings=surroundings, mounts_a=mounts_a, mounts_b=mounts_b,
-                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit)
+                              radio_plan=resolved.radio_plan, eirp_limit=resolved.eirp_limit,
+                              reflection=resolved.reflection, water_layer=open_water_layer(resolved.reflection))
         from ..jobs import with_confidence, with_equipment
 
         batch = with_equipment(batch, resolved)  # antennas and installer figures, as for a link file
@@ -174,6 +177,7 @@ def _output_format(out: str, fmt: str | None) -> str:
 @click.command()
 @click.argument("link_files", nargs=-1, type=click.Path(dir_okay=False))
 @link_input_options
+@reflection_options
 @click.option("--pairs", type=click.Path(dir_okay=False), default=None, metavar="TABLE",
               help="CSV or GeoPackage of site pairs (e.g. a screening result): columns name_a, lat_a, lon_a, "
                    "agl_a_m, name_b, lat_b, lon_b, agl_b_m; optional name, fade_margin_db.")

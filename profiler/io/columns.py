@@ -16,7 +16,7 @@ from dataclasses import dataclass
 __all__ = [
     "Verdict", "VERDICTS", "PairStatus", "Column", "LINK_TABLE", "STAGED_COLUMNS", "LINK_COLUMNS", "SITE_COLUMNS",
     "ENGINE_COLUMNS", "AVAILABILITY_COLUMNS", "FLAG_COLUMNS", "KEPT_IN_ERROR_ROWS", "RADIO_COLUMNS",
-    "SURROUNDINGS_GROUP", "CODED_COLUMNS", "MOUNT_LABELS", "CLUTTER_LABELS", "run_staged_columns",
+    "SURROUNDINGS_GROUP", "REFLECTION_GROUP", "REFLECTION_COLUMNS", "CODED_COLUMNS", "MOUNT_LABELS", "CLUTTER_LABELS", "run_staged_columns",
 ]
 
 
@@ -117,6 +117,8 @@ def _write(name: str) -> Column:
 
 #: Group of the columns of runs with obstruction layers or a surface model.
 SURROUNDINGS_GROUP = "surroundings"
+#: Group of the columns of runs that search for ground reflections.
+REFLECTION_GROUP = "reflection"
 #: Words of the mount codes: what an antenna height is measured from (profiler.mounts.REFERENCES).
 MOUNT_LABELS = ("ground", "roof")
 #: Words of the clutter codes, as profiler.clutter.ClutterKind labels them (a test keeps them equal).
@@ -161,6 +163,11 @@ LINK_TABLE: tuple[Column, ...] = (
     _radio("eirp_over_limit_db"),
     # Monte Carlo confidence (profiler.confidence): written only by runs that ask for it.
     Column("p_meets", "confidence", "f8"), Column("p_los", "confidence", "f8"),
+    # Ground reflections (profiler.reflection), only in runs that search for them (--reflections, --water...):
+    # the point at the design k, km from a; the level swing over the k sweep, dB; any reflection over water.
+    Column("reflection_point_km", "reflection", "f8", group=REFLECTION_GROUP),
+    Column("reflection_swing_db", "reflection", "f8", group=REFLECTION_GROUP),
+    Column("over_water", "reflection", "u1", flag=True, group=REFLECTION_GROUP),
     _write("method"), _write("k"), _write("k_worst"),
     _engine("samples", "i4", kept_on_error=True), _engine("spacing_m", kept_on_error=True),
     _engine("mast_raise_m"), _write("problem"),
@@ -189,6 +196,8 @@ RADIO_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source ==
 CONFIDENCE_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "confidence")
 #: Columns of ``screen --rank-by``: fade margin (default) or the probability of meeting the criterion.
 RANK_COLUMNS: tuple[str, ...] = ("fade_margin_db", "p_meets")
+#: Columns of the reflection search: staged and written only by runs that search (profiler.reflection).
+REFLECTION_COLUMNS: tuple[str, ...] = tuple(c.name for c in LINK_TABLE if c.source == "reflection")
 #: Columns an error row keeps: they come from the two positions alone, not from the terrain.
 KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
 
@@ -196,9 +205,12 @@ KEPT_IN_ERROR_ROWS = frozenset(c.name for c in LINK_TABLE if c.kept_on_error)
 CODED_COLUMNS: dict[str, tuple[str, ...]] = {c.name: c.labels for c in LINK_TABLE if c.labels is not None}
 
 
-def run_staged_columns(surroundings: bool) -> dict[str, str]:
-    """The staged columns of one run: without obstruction layers or surface model, not their group."""
-    groups = {None, SURROUNDINGS_GROUP} if surroundings else {None}
+def run_staged_columns(surroundings: bool, reflection: bool = False) -> dict[str, str]:
+    """The staged columns of one run: without obstruction layers or surface model, not their group
+    (nor the reflection group without a reflection search)."""
+    groups: set[str | None] = {None, SURROUNDINGS_GROUP} if surroundings else {None}
+    if reflection:
+        groups.add(REFLECTION_GROUP)
     return {c.name: c.staged for c in LINK_TABLE if c.staged is not None and c.group in groups}
 
 

@@ -27,6 +27,7 @@ Format (all sections optional except the two sites; paths relative to the file):
                    # source = "itu" (R0.01, dN1 from the ITU-R maps, sa from the terrain) or "default"
     [confidence]   # draws, seed, dem_error_m, dem_error_corr_m (a number or "inf"), antenna_error_m:
                    # the Monte Carlo confidence (profiler.confidence), as the flags of those names
+    [reflection]   # water = "lake.geojson" (polygons, any CRS), sea_level_water = true, k_min, k_max
 
 Rooftop and urban links add (all optional)::
 
@@ -85,6 +86,7 @@ SECTION_KEYS: dict[str, set[str]] = {
         "diffraction_method", "polarisation", "ground", "min_margin_db",
     },
     "obstructions": {"layers", "height_field", "top_field", "tree_allowance_m"},
+    "reflection": {"water", "sea_level_water", "k_min", "k_max"},  # profiler.reflection; water relative to the file
     "climate": {
         "rain_rate_mm_h", "target_availability_pct", "dn1_n_per_km",
         "terrain_roughness_m", "pressure_hpa", "temperature_c", "water_vapour_g_m3", "source",
@@ -125,6 +127,7 @@ class LinkSpec:
     antenna_a: dict[str, Any] = field(default_factory=dict)
     antenna_b: dict[str, Any] = field(default_factory=dict)
     confidence: dict[str, Any] = field(default_factory=dict)
+    reflection: dict[str, Any] = field(default_factory=dict)
 
 
 def read_link_file(path: str | os.PathLike) -> LinkSpec:
@@ -180,7 +183,23 @@ def read_link_file(path: str | os.PathLike) -> LinkSpec:
         antenna_a=dict(data.get("antenna_a", {})),
         antenna_b=dict(data.get("antenna_b", {})),
         confidence=dict(data.get("confidence", {})),
+        reflection=_reflection_section(p, dict(data.get("reflection", {}))),
     )
+
+
+def _reflection_section(p: Path, section: dict[str, Any]) -> dict[str, Any]:
+    """[reflection]: the water file made absolute; types checked (ranges later, profiler.reflection)."""
+    if "water" in section:
+        if not isinstance(section["water"], str):
+            raise InputError(f"{p}: [reflection] water must be a file path in quotes, got {section['water']!r}")
+        section["water"] = _resolve(p.parent, section["water"])
+    if "sea_level_water" in section and not isinstance(section["sea_level_water"], bool):
+        raise InputError(f"{p}: [reflection] sea_level_water must be true or false, got {section['sea_level_water']!r}")
+    for key in ("k_min", "k_max"):
+        value = section.get(key)
+        if key in section and (isinstance(value, bool) or not isinstance(value, (int, float))):
+            raise InputError(f"{p}: [reflection] {key} must be a number, got {value!r}")
+    return section
 
 
 def _check_types(p: Path, data: dict[str, Any]) -> None:

@@ -235,6 +235,9 @@ def _confidence_lines(block: dict | None) -> list[str]:
     return [f"confidence         {figures}", f"  model            {model}"]
 
 
+from .reflection_text import reflection_lines  # noqa: E402  (kept apart from the shared lines above)
+
+
 def format_link_summary(r: dict) -> str:
     """Text a planner reads in a terminal; one block per link."""
     if "error" in r:
@@ -274,6 +277,7 @@ def format_link_summary(r: dict) -> str:
         *_availability_lines(r.get("availability")),
         *_modulation_lines(r.get("modulation")),
         *_installation_lines(r),
+        *reflection_lines(r.get("reflection")),
     ]
     lines += _clutter_lines(r)
     for w in r.get("warnings", []):

@@ -64,6 +64,9 @@ GROUND_TYPES: dict[str, GroundConstants] = {
     "land": GroundConstants(22.0, 0.003),
     "sea": GroundConstants(80.0, 5.0),
 }
+# The reflection ground types (profiler.reflection) map to the nearer of the two: water to sea, ground to land.
+GROUND_TYPES.update({"sea-water": GROUND_TYPES["sea"], "fresh-water": GROUND_TYPES["sea"],
+                     "wet-ground": GROUND_TYPES["land"], "dry-ground": GROUND_TYPES["land"]})
 
 #: Polarisations accepted by the first-term formula.
 POLARISATIONS: tuple[str, ...] = ("horizontal", "vertical")

@@ -68,10 +68,13 @@ class ChunkTask:
     eirp_limit: Any = None
     # Monte Carlo confidence of each pair (profiler.confidence.ConfidenceSettings), or None.
     confidence: Any = None
+    # Ground-reflection search (profiler.reflection.ReflectionSettings); None: not searched.
+    reflection: Any = None
 
 
 def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio: Radio, settings: Settings,
-              heights: Any = None, radios: SiteRadios | None = None, confidence: Any = None) -> ChunkTask:
+              heights: Any = None, radios: SiteRadios | None = None, confidence: Any = None,
+              reflection: Any = None) -> ChunkTask:
     """The chunk of pairs ``a``, ``b`` (site indices) starting at pair ``first``.
 
     ``heights`` (:class:`profiler.screening.placing.AntennaHeights`, or None)
@@ -93,7 +96,7 @@ def make_task(sites: SiteTable, first: int, a: np.ndarray, b: np.ndarray, radio:
         lat_a=sites.lat_deg[a], lon_a=sites.lon_deg[a], lat_b=sites.lat_deg[b], lon_b=sites.lon_deg[b],
         agl_a=agl_a, agl_b=agl_b,
         gain_a=None if g is None else g[a], gain_b=None if g is None else g[b],
-        radio=radio, settings=settings, confidence=confidence, **mounts,
+        radio=radio, settings=settings, confidence=confidence, reflection=reflection, **mounts,
     )
 
 
@@ -308,7 +311,8 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
     batch = analyse_links(model, sites_a, sites_b, radio, settings,
                           names=[f"{a} - {b}" for a, b in zip(sites_a.names.tolist(), sites_b.names.tolist())],
                           check_sites=False, estimate_availability=False, surroundings=surroundings,
-                          radio_plan=task.radio_plan, eirp_limit=task.eirp_limit)
+                          radio_plan=task.radio_plan, eirp_limit=task.eirp_limit,
+                          **_reflection_inputs(task))
     length_m[idx] = batch.profiles.length_m
     for name, values in engine_columns(batch).items():
         out[name][idx] = np.asarray(values)
@@ -323,9 +327,22 @@ def _evaluate_into(model: ElevationModel, task: ChunkTask, idx: np.ndarray, out:
         conf = confidence_for_batch(batch, task.confidence, diffraction=False, skip_too_large=True)
         out["p_meets"][idx] = conf.p_meets
         out["p_los"][idx] = conf.p_los
+    if batch.reflection is not None:  # reflection_point_km, reflection_swing_db, over_water
+        for name, values in batch.reflection.columns().items():
+            out[name][idx] = np.asarray(values)
     for k, problem in enumerate(batch.problems):
         if problem is not None:
             problems.append((task.first_pair + int(idx[k]), problem))
+
+
+def _reflection_inputs(task: ChunkTask) -> dict[str, Any]:
+    """``reflection`` and ``water_layer`` for the engine (the water file read once per process)."""
+    if task.reflection is None:
+        return {}
+    from ..reflection_water import cached_water_layer
+
+    water = task.reflection.water_file
+    return {"reflection": task.reflection, "water_layer": cached_water_layer(water) if water else None}
 
 
 def clutter_columns(batch: LinkBatch) -> dict[str, np.ndarray]:

@@ -39,8 +39,8 @@ from .summary import ScreenSummary, verdict_counts, verdicts
 __all__ = ["screen"]
 
 
-def _stage(out: str | os.PathLike, surroundings: Any = None) -> Stage:
-    return Stage(staging_folder(out), run_staged_columns(surroundings is not None))
+def _stage(out: str | os.PathLike, surroundings: Any = None, reflection: Any = None) -> Stage:
+    return Stage(staging_folder(out), run_staged_columns(surroundings is not None, reflection is not None))
 
 
 def _file_stamp(path: str) -> str:
@@ -97,6 +97,7 @@ def screen(
     surroundings: Any = None,
     above_roof: bool = False,
     radios: Any = None,
+    reflection: Any = None,
     run_description: dict | None = None,
     csv_geometry: str = "none",
     confidence: Any = None,
@@ -201,8 +202,8 @@ def screen(
         run = dict(plan=plan, bad_rows=bad_rows, workers=workers, scheduler=scheduler, resume=resume,
                    restart=restart, overwrite=overwrite, chunk_pairs=chunk_pairs, min_margin_db=min_margin_db,
                    progress=progress, inputs=inputs, surroundings=surroundings, above_roof=above_roof,
-                   radios=radios, run_description=run_description, csv_geometry=csv_geometry,
-                   confidence=confidence, rank_by=rank_by)
+                   radios=radios, reflection=reflection, run_description=run_description,
+                   csv_geometry=csv_geometry, confidence=confidence, rank_by=rank_by)
         if out is not None:
             return _screen_to(sites, elevation, radio, settings, out, **run)
         return frames_of_run(lambda path: _screen_to(sites, elevation, radio, settings, path, **run))
@@ -216,7 +217,7 @@ def _screen_to(
     plan: PairPlan, bad_rows: Sequence[BadRow], workers: int | None, scheduler: Any, resume: bool,
     restart: bool, overwrite: bool, chunk_pairs: int, min_margin_db: float,
     progress: Callable[[int, int], None] | None, inputs: Sequence[str | os.PathLike],
-    surroundings: Any = None, above_roof: bool = False, radios: Any = None,
+    surroundings: Any = None, above_roof: bool = False, radios: Any = None, reflection: Any = None,
     run_description: dict | None = None, csv_geometry: str = "none", confidence: Any = None,
     rank_by: str = "fade_margin_db",
 ) -> ScreenSummary:
@@ -236,7 +237,7 @@ def _screen_to(
         radios = radios.aligned(sites)  # sites outside the rasters or not placed were dropped
     with RunLock(lock_path(out), str(out)):
         run = _Run(sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
-                   surroundings, heights, radios)
+                   surroundings, heights, radios, reflection)
         run.run_description = run_description
         run.csv_geometry = csv_geometry
         run.with_confidence(confidence, rank_by)
@@ -363,14 +364,19 @@ class _Run:
     """One screening run under the output's lock: staging checks, the chunks, the final write."""
 
     def __init__(self, sites, model, radio, settings, out, plan, bad, chunk_pairs, min_margin_db, t0,
-                 surroundings=None, heights=None, radios: Any = None) -> None:
+                 surroundings=None, heights=None, radios: Any = None, reflection: Any = None) -> None:
         self.sites, self.model, self.radio, self.settings = sites, model, radio, settings
         self.out, self.plan, self.bad = out, plan, bad
         self.chunk_pairs, self.min_margin_db, self.t0 = chunk_pairs, min_margin_db, t0
         self.heights = heights
-        self.stage = _stage(out, surroundings)
+        self.stage = _stage(out, surroundings, reflection)
+        self.reflection = reflection
         self.fingerprint = _fingerprint(sites, model, radio, settings, plan, chunk_pairs, surroundings, heights)
         self.radios = radios
+        if reflection is not None:  # a reflection search is another run (its settings, the water file)
+            water = reflection.water_file
+            key = repr(reflection) + (_file_stamp(str(water)) if water else "")
+            self.fingerprint = hashlib.sha256((self.fingerprint + key).encode()).hexdigest()
         if radios is not None:  # another radio profile or limit is another run
             self.fingerprint = hashlib.sha256((self.fingerprint + radios.key()).encode()).hexdigest()
         self.total = count_pairs(sites, plan)
@@ -463,7 +469,7 @@ class _Run:
                         first, a, b = nxt
                         pending.append(executor.submit(make_task(sites, first, a, b, radio, settings,
                                                                  self.heights, self.radios,
-                                                                 self.confidence)))
+                                                                 self.confidence, self.reflection)))
                     if not pending:
                         break
                     cols, problems = pending.popleft().result()

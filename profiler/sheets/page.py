@@ -31,6 +31,7 @@ from .style import COLOURS, RC_PARAMS, PageSize, page_size
 from ..vertical import datum_of_record
 from .table import Row, above_datum_label, distance_text, format_k, height_text, parameter_rows
 from .installation import HEADING_SHIFT_MM, installation_note, site_line
+from .reflection import draw_reflection, reflection_note
 
 __all__ = ["FORMATS", "CAUTION", "render_page", "render_continuation", "continuation_pages", "write_sheets",
            "sheet_paths"]
@@ -157,6 +158,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     datum = datum_of_record(r)
     short = datum.name if datum.known and datum.name is not None else "datum of the raster, not stated in the file"
     art = draw_profile(ax, c.drawing, r, units=units, type_scale=lay.s, datum_label=short)
+    draw_reflection(ax, c.drawing, r, units=units, type_scale=lay.s, legend=art.legend)  # profiler.sheets.reflection
     renderer = fig.canvas.get_renderer()
     for tag, x_mm, ha in (("a", 22, "left"), ("b", 194, "right")):
         s = r["sites"][tag]
@@ -182,6 +184,7 @@ def _profile(fig: Any, c: SheetContent, lay: _Layout, units: str) -> Any:
     ve = vertical_exaggeration(ax, units)
     note = curvature_note(c.drawing) + f" Vertical scale exaggerated about {ve:.0f} times."
     note += installation_note(r)
+    note += reflection_note(r)
     fig.text(*lay.xy(8, 90.5), _wrap(note, 188, 6.2, lay), fontsize=lay.fs(6.2), color=COLOURS["muted"],
              va="top", linespacing=1.25)
     return art

@@ -25,9 +25,10 @@ def test_tilt_at_a_larger_k_is_never_lower(d, ha, hb, k1, k2):
     """Holds unless the ray drops steeply to a far antenna high above the datum: with the distance
     measured along the surface, the horizontal leg r_b sin(theta) ~ d (1 + h_b / (k a)) grows as k
     shrinks, which outweighs the curvature when (h_a - h_b) h_b > d^2 / 2 (first-order expansion of
-    the triangle formula); such cases are left out."""
+    the triangle formula; also for an antenna below the datum dropping to one lower still, where both
+    factors are negative); such cases are left out."""
     lo, hi = min(k1, k2), max(k1, k2)
-    assume((ha - hb) * max(hb, 0.0) <= d * d / 4.0)
+    assume((ha - hb) * hb <= d * d / 4.0)  # the adverse product, whatever the signs (heights may be below 0)
     assert tilt_deg(d, ha, hb, hi) >= tilt_deg(d, ha, hb, lo)
 
 
