@@ -51,10 +51,10 @@ def resolve_reflection(opts: dict[str, Any], section: dict[str, Any] | None = No
 
 
 def open_water_layer(reflection: Any) -> Any:
-    """The water polygons named by reflection settings (profiler.reflection_water), or None."""
+    """The water polygons named by reflection settings (profiler.reflection.water), or None."""
     if reflection is None or not reflection.water_file:
         return None
-    from .reflection_water import read_water_layer
+    from .reflection.water import read_water_layer
 
     return read_water_layer(reflection.water_file)
 
