@@ -11,18 +11,15 @@ figures, ``with_antenna_gains`` and ``with_equipment`` apply them.
 from __future__ import annotations
 
 import dataclasses
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 
 from .budget import Radio
 from .errors import PARAMETER, InputError, ModelValidityError, TerrahopError
 from .io.linkfile import LinkSpec
-from .job_values import checked as _checked
+from .job_base import LinkJob, checked as _checked
 from .link_batch import LinkBatch
-
-if TYPE_CHECKING:
-    from .jobs import LinkJob
 
 __all__ = [
     "PROFILE_GIVES", "PROFILE_KEYS", "RADIO_COLUMN", "resolve_radio_plan", "one_step_keys", "site_radios",

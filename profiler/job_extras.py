@@ -8,15 +8,12 @@ the water layer they name, and the confidence added to an analysed batch.
 from __future__ import annotations
 
 import dataclasses
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from .errors import InputError
 from .io.linkfile import LinkSpec
-from .job_values import pick as _pick
+from .job_base import LinkJob, pick as _pick
 from .link_batch import LinkBatch
-
-if TYPE_CHECKING:
-    from .jobs import LinkJob
 
 __all__ = ["resolve_job_confidence", "with_confidence", "resolve_reflection", "open_water_layer"]
 

@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
-from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Iterator
 
@@ -36,7 +35,7 @@ from .job_equipment import (  # noqa: F401  (re-exported: profiler.jobs is their
 from .job_extras import (  # noqa: F401  (re-exported as above)
     open_water_layer, resolve_job_confidence, resolve_reflection, with_confidence,
 )
-from .job_values import checked as _checked, pick as _pick
+from .job_base import DEFAULT_AGL_M, DEFAULT_TREE_ALLOWANCE_M, LinkJob, checked as _checked, pick as _pick
 from .link_batch import LinkBatch
 from .link_engine import analyse_link
 from .link_types import Criterion, Settings, Site
@@ -65,10 +64,6 @@ __all__ = [
     "VERTICAL_UNIT_CHOICES",
 ]
 
-#: Antenna height above ground when neither an override nor the link file gives one, m (common practice).
-DEFAULT_AGL_M = 10.0
-#: Added to every tree height when not given, m.
-DEFAULT_TREE_ALLOWANCE_M = 0.0
 #: Radio overrides: the :class:`Radio` fields.
 RADIO_KEYS = tuple(f.name for f in dataclasses.fields(Radio))
 #: Climate overrides: the :class:`ClimateSettings` fields set by a number.
@@ -82,42 +77,6 @@ MOUNT_KEYS = {
     "antenna_ellipsoidal_m": ("ellipsoidal", "ellipsoid"),
 }
 
-
-@dataclass(frozen=True)
-class LinkJob:
-    """Everything needed to analyse one link, overrides merged over a link file."""
-
-    title: str
-    rasters: tuple[str, ...]
-    vertical_unit: str | None
-    nodata_fill_m: float | None
-    site_a: Site
-    site_b: Site
-    radio: Radio
-    settings: Settings
-    obstruction_layers: tuple = ()
-    surface_rasters: tuple[str, ...] = ()
-    tree_allowance_m: float = DEFAULT_TREE_ALLOWANCE_M
-    mount_a: Any = None
-    mount_b: Any = None
-    max_mast_a_m: float | None = None
-    max_mast_b_m: float | None = None
-    #: Open dataset fetched around the sites (profiler.terrain_sources.TerrainRequest), or None.
-    terrain: Any = None
-    #: Antennas of the two ends (profiler.equipment.antennas.Antenna), or None where the gain is a number.
-    antenna_a: Any = None
-    antenna_b: Any = None
-    #: Date of the magnetic declination in the installer figures (None: no installer figures).
-    install_date: Any = None
-    #: Radio profile applied (profiler.equipment.modulation.RadioPlan) and EIRP limit (EirpLimit), or None.
-    radio_plan: Any = None
-    eirp_limit: Any = None
-    #: Fade margin, dB, a link needs at the design k to be viable (--min-margin-db, [analysis]); None: default.
-    min_margin_db: float | None = None
-    #: Monte Carlo confidence asked for (profiler.confidence.ConfidenceSettings), or None.
-    confidence: Any = None
-    #: Ground-reflection search (profiler.reflection.ReflectionSettings); None: not searched.
-    reflection: Any = None
 
 
 def default_text(name: str) -> str:
