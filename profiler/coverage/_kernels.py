@@ -55,7 +55,9 @@ import numpy as np
 
 from .._compiled import twin, use_numba
 
-__all__ = ["sweep_radials", "sweep_radials_numpy", "SWEEP_OUTPUTS", "EXACT_BELOW_F1_FRACTION"]
+__all__ = ["sweep_radials", "sweep_radials_numpy", "lattice_interp", "lattice_interp_numpy", "cell_order",
+           "cell_order_numpy", "SWEEP_OUTPUTS",
+           "EXACT_BELOW_F1_FRACTION"]
 
 #: Clear paths whose F1 fraction may lie under this are scanned sample by sample (exact); above it the
 #: reported fraction is a lower bound (our own choice: 1.0 is above every usual criterion, and J(v) = 0 there).
@@ -302,3 +304,123 @@ def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength
             np.ascontiguousarray(cell_surface_m, dtype=float), float(exact_below))
     fn = _sweep_twin.compiled() if use_numba(max(surface.size, 1 << 20)) else _sweep_twin.numpy
     return fn(*args)
+
+
+# --------------------------------------------------------------------------- lattice interpolation
+
+def lattice_interp_numpy(x, y, x0, y0, dx, dy, u, v):
+    """Bilinear interpolation of two lattices ``u``, ``v`` (ny, nx) at points ``x``, ``y`` (1-D): the
+    compiled loop's twin, whole arrays at once.  Points outside the lattice take its edge cells' planes."""
+    fx = (x - x0) / dx
+    fy = (y - y0) / dy
+    ny, nx = u.shape
+    i = np.clip(np.floor(fx).astype(np.int64), 0, max(nx - 2, 0))
+    j = np.clip(np.floor(fy).astype(np.int64), 0, max(ny - 2, 0))
+    tx = fx - i
+    ty = fy - j
+    i1 = np.minimum(i + 1, nx - 1)
+    j1 = np.minimum(j + 1, ny - 1)
+    out = []
+    for g in (u, v):
+        top = g[j, i] * (1.0 - tx) + g[j, i1] * tx
+        bot = g[j1, i] * (1.0 - tx) + g[j1, i1] * tx
+        out.append(top * (1.0 - ty) + bot * ty)
+    return out[0], out[1]
+
+
+def _lattice_examples(rng: np.random.Generator) -> list[tuple]:
+    out = []
+    for ny, nx in ((7, 9), (1, 4), (2, 2)):
+        u = rng.normal(30.0, 1.0, (ny, nx))
+        v = rng.normal(-5.0, 1.0, (ny, nx))
+        x = rng.uniform(-150.0, 1100.0, 500)  # beyond the lattice on both sides too
+        y = rng.uniform(-150.0, 900.0, 500)
+        out.append((x, y, 0.0, 0.0, 125.0, 110.0, u, v))
+    return out
+
+
+@twin("coverage_lattice", lattice_interp_numpy, _lattice_examples)
+def _lattice_loop(x, y, x0, y0, dx, dy, u, v):  # pragma: no cover - compiled
+    n = x.shape[0]
+    ny, nx = u.shape
+    imax = max(nx - 2, 0)
+    jmax = max(ny - 2, 0)
+    ou = np.empty(n)
+    ov = np.empty(n)
+    for k in range(n):
+        fx = (x[k] - x0) / dx
+        fy = (y[k] - y0) / dy
+        i = min(max(np.int64(np.floor(fx)), 0), imax)
+        j = min(max(np.int64(np.floor(fy)), 0), jmax)
+        tx = fx - i
+        ty = fy - j
+        i1 = min(i + 1, nx - 1)
+        j1 = min(j + 1, ny - 1)
+        top = u[j, i] * (1.0 - tx) + u[j, i1] * tx
+        bot = u[j1, i] * (1.0 - tx) + u[j1, i1] * tx
+        ou[k] = top * (1.0 - ty) + bot * ty
+        top = v[j, i] * (1.0 - tx) + v[j, i1] * tx
+        bot = v[j1, i] * (1.0 - tx) + v[j1, i1] * tx
+        ov[k] = top * (1.0 - ty) + bot * ty
+    return ou, ov
+
+
+def lattice_interp(x: np.ndarray, y: np.ndarray, x0: float, y0: float, dx: float, dy: float, u: np.ndarray,
+                   v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Target coordinates of source points ``x``, ``y`` (1-D, source CRS units) by bilinear interpolation of
+    the lattices ``u``, ``v`` (ny, nx) whose node (0, 0) lies at (x0, y0), ``dx`` x ``dy`` apart.  Compiled
+    unless ``TERRAHOP_NO_NUMBA`` is set or the batch is small (:func:`profiler._compiled.use_numba`)."""
+    xa = np.ascontiguousarray(x, dtype=float).ravel()
+    ya = np.ascontiguousarray(y, dtype=float).ravel()
+    return _lattice_loop(xa.size, xa, ya, float(x0), float(y0), float(dx), float(dy),
+                         np.ascontiguousarray(u, dtype=float), np.ascontiguousarray(v, dtype=float))
+
+
+# --------------------------------------------------------------------------- cell order
+
+def cell_order_numpy(radial, d, n_radials):
+    """Order of cells by radial then distance (ties: by position), and where each radial's cells start:
+    the compiled loop's twin."""
+    order = np.lexsort((d, radial))
+    counts = np.bincount(radial, minlength=n_radials)
+    start = np.concatenate((np.zeros(1, dtype=np.int64), np.cumsum(counts))).astype(np.int64)
+    return order, start
+
+
+def _order_examples(rng: np.random.Generator) -> list[tuple]:
+    out = []
+    for n, n_rad in ((400, 7), (50, 60), (0, 3)):
+        radial = rng.integers(0, n_rad, n).astype(np.int64)
+        d = np.round(rng.uniform(0.0, 100.0, n), 0)  # rounded: ties within a radial
+        out.append((radial, d, n_rad))
+    return out
+
+
+@twin("coverage_order", cell_order_numpy, _order_examples)
+def _order_loop(radial, d, n_radials):  # pragma: no cover - compiled
+    n = radial.shape[0]
+    start = np.zeros(n_radials + 1, dtype=np.int64)
+    for k in range(n):
+        start[radial[k] + 1] += 1
+    for r in range(n_radials):
+        start[r + 1] += start[r]
+    fill = start[:-1].copy()
+    by_radial = np.empty(n, dtype=np.int64)
+    for k in range(n):  # counting sort: stable, so each radial keeps the cells' own order
+        r = radial[k]
+        by_radial[fill[r]] = k
+        fill[r] += 1
+    order = np.empty(n, dtype=np.int64)
+    for r in range(n_radials):
+        seg = by_radial[start[r]:start[r + 1]]
+        within = np.argsort(d[seg], kind="mergesort")  # stable: ties stay in position order, as lexsort
+        for t in range(seg.shape[0]):
+            order[start[r] + t] = seg[within[t]]
+    return order, start
+
+
+def cell_order(radial: np.ndarray, d_m: np.ndarray, n_radials: int) -> tuple[np.ndarray, np.ndarray]:
+    """Order of cells sorted by radial (0..n_radials - 1) then distance ``d_m`` (ties by position), and the
+    start of each radial's cells in that order, (n_radials + 1,).  Compiled unless ``TERRAHOP_NO_NUMBA``."""
+    r = np.ascontiguousarray(radial, dtype=np.int64)
+    return _order_loop(max(r.size, 1 << 20), r, np.ascontiguousarray(d_m, dtype=float), int(n_radials))

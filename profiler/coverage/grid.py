@@ -101,21 +101,9 @@ class Lattice:
 
     def __call__(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Interpolated target coordinates of source points (bilinear in the lattice)."""
-        fx = (np.asarray(x, dtype=float) - self.x0) / self.dx
-        fy = (np.asarray(y, dtype=float) - self.y0) / self.dy
-        ny, nx = self.u.shape
-        i = np.clip(np.floor(fx).astype(np.int64), 0, max(nx - 2, 0))
-        j = np.clip(np.floor(fy).astype(np.int64), 0, max(ny - 2, 0))
-        tx = fx - i
-        ty = fy - j
-        i1 = np.minimum(i + 1, nx - 1)
-        j1 = np.minimum(j + 1, ny - 1)
-        out = []
-        for g in (self.u, self.v):
-            top = g[j, i] * (1.0 - tx) + g[j, i1] * tx
-            bot = g[j1, i] * (1.0 - tx) + g[j1, i1] * tx
-            out.append(top * (1.0 - ty) + bot * ty)
-        return out[0], out[1]
+        from ._kernels import lattice_interp
+
+        return lattice_interp(x, y, self.x0, self.y0, self.dx, self.dy, self.u, self.v)
 
 
 def _unwrap(lon: np.ndarray, about: float | None) -> np.ndarray:
