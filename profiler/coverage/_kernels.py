@@ -68,7 +68,7 @@ EXACT_BELOW_F1_FRACTION = 1.0
 SWEEP_OUTPUTS = ("f1_fraction", "v_max", "stim", "srim", "line_of_sight", "profiled", "hstd", "hsrd")
 
 
-def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):  # pragma: no cover - run compiled and as twin
+def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below, smooth):  # pragma: no cover - run compiled and as twin
     n_rad, n_s = surface.shape
     n_cells = cell_d.shape[0]
     q_out = np.full(n_cells, np.inf)
@@ -84,9 +84,21 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
     hx = np.empty(n_s)
     hy = np.empty(n_s)
     hi = np.zeros(n_s, dtype=np.int64)  # sample index of each hull vertex
+    gaps = np.empty(n_s)  # clearance of the ray at each hull vertex
+    qs = np.empty(n_s)  # and as a fraction of F1
     edge_low = np.empty(n_s)  # smallest gap / F1 on the hull edge ending at each vertex
     inv_den = 1.0 / den
+    # A max-tree of each radial's bulged heights y = z - d^2 / (2 k a): a node's largest y bounds the
+    # clearance of every sample under it, so the exact scan of a marginal path skips whole ranges.
+    n_leaf = 1
+    while n_leaf < n_s:
+        n_leaf *= 2
+    tree = np.empty(2 * n_leaf)
+    st_node = np.empty(128, dtype=np.int64)
+    st_lo = np.empty(128, dtype=np.int64)
+    st_hi = np.empty(128, dtype=np.int64)
     for r in range(n_rad):
+        built = False
         m = 0
         m2 = 0
         s_max = -np.inf
@@ -111,19 +123,20 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                 s = (z - ha) / d - d * inv_den
                 if s > s_max:
                     s_max = s
-                t = (z - ha) / d
-                if t > t_max:
-                    t_max = t
-                step = d - d_prev
-                sum1 += step * (z + z_prev)
-                sum2 += step * (z * (2.0 * d + d_prev) + z_prev * (d + 2.0 * d_prev))
-                z_prev = z
-                d_prev = d
-                while m2 >= 2 and (rx_[m2 - 1] - rx_[m2 - 2]) * (z - ry_[m2 - 2]) - (ry_[m2 - 1] - ry_[m2 - 2]) * (d - rx_[m2 - 2]) >= 0.0:
-                    m2 -= 1
-                rx_[m2] = d
-                ry_[m2] = z
-                m2 += 1
+                if smooth:  # the smooth-surface fit's running terms: delta-Bullington only
+                    t = (z - ha) / d
+                    if t > t_max:
+                        t_max = t
+                    step = d - d_prev
+                    sum1 += step * (z + z_prev)
+                    sum2 += step * (z * (2.0 * d + d_prev) + z_prev * (d + 2.0 * d_prev))
+                    z_prev = z
+                    d_prev = d
+                    while m2 >= 2 and (rx_[m2 - 1] - rx_[m2 - 2]) * (z - ry_[m2 - 2]) - (ry_[m2 - 1] - ry_[m2 - 2]) * (d - rx_[m2 - 2]) >= 0.0:
+                        m2 -= 1
+                    rx_[m2] = d
+                    ry_[m2] = z
+                    m2 += 1
                 y = z - d * d * inv_den
                 while m >= 2 and (hx[m - 1] - hx[m - 2]) * (y - hy[m - 2]) - (hy[m - 1] - hy[m - 2]) * (d - hx[m - 2]) >= 0.0:
                     m -= 1
@@ -134,37 +147,38 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
             if hole or hb != hb or big_d > dist[n_s - 1] or big_d <= 0.0:
                 continue
             ok_out[c] = True
-            # Smooth-surface heights at both ends (ITU-R P.526-15 section 4.5.2), the last segment to the
-            # receiver's own surface height added to the running sums.
-            hr = cell_hr[c]
-            step = big_d - d_prev
-            v1 = sum1 + step * (hr + z_prev)
-            v2 = sum2 + step * (hr * (2.0 * big_d + d_prev) + z_prev * (big_d + 2.0 * d_prev))
-            hst = (2.0 * v1 * big_d - v2) / (big_d * big_d)
-            hsr = (v2 - v1 * big_d) / (big_d * big_d)
-            if m2 > 0:
-                slope_tr = (hb - ha) / big_d
-                hobs = -np.inf
-                for k in range(m2):
-                    o = ry_[k] - ha - slope_tr * rx_[k]
-                    if o > hobs:
-                        hobs = o
-                aobt = t_max - slope_tr
-                best_r = -np.inf
-                k = m2 - 1
-                while k >= 0:
-                    val = (ry_[k] - hb) / (big_d - rx_[k])
-                    if val < best_r:
-                        break
-                    best_r = val
-                    k -= 1
-                aobr = best_r + slope_tr
-                if hobs > 0.0:
-                    share = aobt / (aobt + aobr)
-                    hst = hst - hobs * share
-                    hsr = hsr - hobs * (1.0 - share)
-            hst_out[c] = min(hst, surface[r, 0])
-            hsr_out[c] = min(hsr, hr)
+            if smooth:
+                # Smooth-surface heights at both ends (ITU-R P.526-15 section 4.5.2), the last segment to the
+                # receiver's own surface height added to the running sums.
+                hr = cell_hr[c]
+                step = big_d - d_prev
+                v1 = sum1 + step * (hr + z_prev)
+                v2 = sum2 + step * (hr * (2.0 * big_d + d_prev) + z_prev * (big_d + 2.0 * d_prev))
+                hst = (2.0 * v1 * big_d - v2) / (big_d * big_d)
+                hsr = (v2 - v1 * big_d) / (big_d * big_d)
+                if m2 > 0:
+                    slope_tr = (hb - ha) / big_d
+                    hobs = -np.inf
+                    for k in range(m2):
+                        o = ry_[k] - ha - slope_tr * rx_[k]
+                        if o > hobs:
+                            hobs = o
+                    aobt = t_max - slope_tr
+                    best_r = -np.inf
+                    k = m2 - 1
+                    while k >= 0:
+                        val = (ry_[k] - hb) / (big_d - rx_[k])
+                        if val < best_r:
+                            break
+                        best_r = val
+                        k -= 1
+                    aobr = best_r + slope_tr
+                    if hobs > 0.0:
+                        share = aobt / (aobt + aobr)
+                        hst = hst - hobs * share
+                        hsr = hsr - hobs * (1.0 - share)
+                hst_out[c] = min(hst, surface[r, 0])
+                hsr_out[c] = min(hsr, hr)
             if m == 0:
                 los_out[c] = True
                 continue
@@ -183,81 +197,151 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                 k -= 1
             srim_out[c] = best
             rise = (hb - ha) / big_d
-            q_min = np.inf
-            v_max = -np.inf
-            q_low = np.inf
-            g_prev = 0.0
-            q_prev = 0.0
-            k_low = 0
+            # The ray's clearance at every hull vertex (no square root): the path is blocked where one is
+            # negative, and only those vertices can hold the smallest fraction and the largest v.
+            g_min = np.inf
             for k in range(m):
                 d1 = hx[k]
-                d2 = big_d - d1
                 gap = ha + rise * d1 - (hy[k] + shear * d1)
-                f1 = np.sqrt(lam * d1 * d2 / big_d)
-                q = gap / f1
-                if q < q_min:
-                    q_min = q
-                v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
-                if v > v_max:
-                    v_max = v
-                if k > 0:
-                    low = min(q, q_prev)
-                    if gap > 0.0 and g_prev > 0.0:
-                        # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
-                        # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
-                        x0 = hx[k - 1]
-                        be = (gap - g_prev) / (d1 - x0)
-                        al = g_prev - be * x0
-                        den_x = be * big_d + 2.0 * al
-                        if den_x != 0.0:
-                            xs = al * big_d / den_x
-                            if x0 < xs < d1:
-                                qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
-                                if qe < low:
-                                    low = qe
-                    else:
-                        low = -np.inf
-                    edge_low[k] = low
-                    if low < q_low:
-                        q_low = low
-                        k_low = k
-                g_prev = gap
-                q_prev = q
-            if q_min < q_low:
-                q_low = q_min
-            if q_min < 0.0:
-                pass  # obstructed: the vertices hold the minimum over every sample (module docstring)
-            elif q_low >= exact_below:
-                q_min = q_low  # at least this clear: a lower bound, reported as such
-                v_max = -np.sqrt(2.0) * q_low
-            else:
-                # Marginal: the samples under every hull edge that could hold a smaller fraction than the
-                # best vertex (a sample under an edge is no closer than the edge itself: branch and bound),
-                # read as the link engine reads them.
-                # The most promising edge first, so the bound tightens early.
-                for kk in range(m):
-                    k = k_low if kk == 0 else (kk if kk != k_low else 0)
-                    if k == 0 or edge_low[k] >= q_min:
-                        continue
-                    for i in range(hi[k - 1] + 1, hi[k]):
-                        z = surface[r, i]
-                        d1 = dist[i]
+                gaps[k] = gap
+                if gap < g_min:
+                    g_min = gap
+            q_min = np.inf
+            v_max = -np.inf
+            if g_min < 0.0:
+                # Blocked: the vertices hold the minimum over every sample (module docstring).
+                for k in range(m):
+                    gap = gaps[k]
+                    if gap < 0.0:
+                        d1 = hx[k]
                         d2 = big_d - d1
-                        gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
                         q = gap / np.sqrt(lam * d1 * d2 / big_d)
                         if q < q_min:
                             q_min = q
                         v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
                         if v > v_max:
                             v_max = v
+                q_out[c] = q_min
+                v_out[c] = v_max
+                continue
+            # Clear: gap >= 0 is convex along the hull (a line minus a concave chain) and F1 concave, so
+            # gap / F1 is quasi-convex along it: its smallest value over the chain lies on one of the two
+            # edges beside the vertex with the smallest fraction, and no other edge can go below that vertex.
+            k_q = 0
+            for k in range(m):
+                d1 = hx[k]
+                q = gaps[k] / np.sqrt(lam * d1 * (big_d - d1) / big_d)
+                qs[k] = q
+                if q < q_min:
+                    q_min = q
+                    k_q = k
+            d1 = hx[k_q]
+            d2 = big_d - d1
+            v_max = -gaps[k_q] * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+            q_low = q_min
+            k_lo = max(k_q, 1)
+            k_hi = min(k_q + 1, m - 1)
+            for k in range(k_lo, k_hi + 1):
+                gap = gaps[k]
+                g_prev = gaps[k - 1]
+                low = min(qs[k], qs[k - 1])
+                if gap > 0.0 and g_prev > 0.0:
+                    # Smallest gap / F1 on the hull edge between vertices k - 1 and k: gap = al + be x
+                    # is linear there, d/dx (gap / F1) = 0 at x = al D / (be D + 2 al).
+                    x0 = hx[k - 1]
+                    be = (gap - g_prev) / (hx[k] - x0)
+                    al = g_prev - be * x0
+                    den_x = be * big_d + 2.0 * al
+                    if den_x != 0.0:
+                        xs = al * big_d / den_x
+                        if x0 < xs < hx[k]:
+                            qe = (al + be * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d)
+                            if qe < low:
+                                low = qe
+                else:
+                    low = -np.inf
+                edge_low[k] = low
+                if low < q_low:
+                    q_low = low
+            if q_low >= exact_below:
+                q_min = q_low  # at least this clear: a lower bound, reported as such
+                v_max = -np.sqrt(2.0) * q_low
+            else:
+                # Marginal: the samples under the edges beside that vertex that could hold a smaller
+                # fraction (a sample under an edge is no closer than the edge itself: branch and bound),
+                # read as the link engine reads them.
+                # Whole ranges of samples are skipped where the max-tree bounds their fraction from below
+                # by the best value found so far (the bound: the ray's lowest point over the range minus
+                # the range's highest bulged height, over the largest (or, below zero, the smallest) F1).
+                if not built:
+                    for i in range(n_leaf):
+                        tree[n_leaf + i] = -np.inf
+                        if i < n_s:
+                            z = surface[r, i]
+                            if z == z:
+                                tree[n_leaf + i] = z - dist[i] * dist[i] * inv_den
+                    for i in range(n_leaf - 1, 0, -1):
+                        tree[i] = max(tree[2 * i], tree[2 * i + 1])
+                    built = True
+                slope = rise - shear
+                for k in range(k_lo, k_hi + 1):
+                    if edge_low[k] >= q_min:
+                        continue
+                    i0 = hi[k - 1] + 1
+                    i1 = hi[k] - 1
+                    if i1 < i0:
+                        continue
+                    st_node[0] = 1
+                    st_lo[0] = 0
+                    st_hi[0] = n_leaf - 1
+                    sp = 1
+                    while sp > 0:
+                        sp -= 1
+                        node = st_node[sp]
+                        nl = st_lo[sp]
+                        nr = st_hi[sp]
+                        if nr < i0 or nl > i1:
+                            continue
+                        if nl == nr:
+                            z = surface[r, nl]
+                            d1 = dist[nl]
+                            d2 = big_d - d1
+                            gap = ha + rise * d1 - (z + d1 * d2 * inv_den)
+                            q = gap / np.sqrt(lam * d1 * d2 / big_d)
+                            if q < q_min:
+                                q_min = q
+                            v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
+                            if v > v_max:
+                                v_max = v
+                            continue
+                        if i0 <= nl and nr <= i1:
+                            xa = dist[nl]
+                            xb = dist[nr]
+                            g_low = min(ha + slope * xa, ha + slope * xb) - tree[node]
+                            if g_low >= 0.0:
+                                xm = min(max(0.5 * big_d, xa), xb)
+                                bound = g_low / np.sqrt(lam * xm * (big_d - xm) / big_d)
+                            else:
+                                bound = g_low / min(np.sqrt(lam * xa * (big_d - xa) / big_d),
+                                                    np.sqrt(lam * xb * (big_d - xb) / big_d))
+                            if bound - 1e-9 >= q_min:  # the margin covers the rounding of the bound
+                                continue
+                        mid = (nl + nr) // 2
+                        st_node[sp] = 2 * node + 1
+                        st_lo[sp] = mid + 1
+                        st_hi[sp] = nr
+                        st_node[sp + 1] = 2 * node
+                        st_lo[sp + 1] = nl
+                        st_hi[sp + 1] = mid
+                        sp += 2
             q_out[c] = q_min
             v_out[c] = v_max
     return q_out, v_out, stim_out, srim_out, los_out, ok_out, hst_out, hsr_out
 
 
-def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below):
+def sweep_radials_numpy(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below, smooth):
     """The sweep run by the interpreter: the compiled kernel's twin (see the module docstring)."""
-    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below)
+    return _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_below, smooth)
 
 
 def _examples(rng: np.random.Generator) -> list[tuple]:
@@ -273,7 +357,8 @@ def _examples(rng: np.random.Generator) -> list[tuple]:
         cell_hb = rng.uniform(90.0, 180.0, cell_d.size)
         cell_hr = cell_hb - rng.uniform(2.0, 30.0, cell_d.size)
         for den in (2.0 * 4.0 / 3.0 * 6_371_000.0, np.inf):
-            out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, cell_hr, 1.0))
+            for smooth in (True, False):
+                out.append((dist, surface, 130.0, 0.05, den, start, cell_d, cell_hb, cell_hr, 1.0, smooth))
     return out
 
 
@@ -286,7 +371,7 @@ _sweep_twin = twin("coverage_sweep", sweep_radials_numpy, _examples, _warm, erro
 
 def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength_m: float, bulge_den_m: float,
                   start: np.ndarray, cell_d_m: np.ndarray, cell_hb_m: np.ndarray, cell_surface_m: np.ndarray,
-                  exact_below: float = EXACT_BELOW_F1_FRACTION) -> tuple[np.ndarray, ...]:
+                  exact_below: float = EXACT_BELOW_F1_FRACTION, smooth: bool = True) -> tuple[np.ndarray, ...]:
     """Sweep radials and evaluate their receivers: the arrays of :data:`SWEEP_OUTPUTS`, each (cells,).
 
     ``dist`` (S,) sample distances from the hub, m (``dist[0]`` = 0, the hub);
@@ -295,13 +380,14 @@ def sweep_radials(dist: np.ndarray, surface: np.ndarray, ha_m: float, wavelength
     ``start`` (R + 1,) receivers of radial r are ``start[r]:start[r + 1]``,
     sorted by distance; ``cell_d_m``, ``cell_hb_m`` each receiver's distance
     and antenna elevation, m; ``cell_surface_m`` the surface height under
-    each receiver (the profile's last height, for the smooth-surface fit).  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
+    each receiver (the profile's last height, for the smooth-surface fit); ``smooth``: compute the
+    smooth-surface heights (delta-Bullington; without it ``hstd``, ``hsrd`` are NaN).  Compiled unless ``TERRAHOP_NO_NUMBA`` is set
     (:func:`profiler._compiled.use_numba`; any radial block is large).
     """
     args = (np.ascontiguousarray(dist, dtype=float), np.ascontiguousarray(surface, dtype=float), float(ha_m),
             float(wavelength_m), float(bulge_den_m), np.ascontiguousarray(start, dtype=np.int64),
             np.ascontiguousarray(cell_d_m, dtype=float), np.ascontiguousarray(cell_hb_m, dtype=float),
-            np.ascontiguousarray(cell_surface_m, dtype=float), float(exact_below))
+            np.ascontiguousarray(cell_surface_m, dtype=float), float(exact_below), bool(smooth))
     fn = _sweep_twin.compiled() if use_numba(max(surface.size, 1 << 20)) else _sweep_twin.numpy
     return fn(*args)
 

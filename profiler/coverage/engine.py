@@ -307,7 +307,8 @@ def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[
     den = 2.0 * s.k * EARTH_RADIUS_M
     d = plan.cell_d[c0:c1]
     start = plan.radial_start
-    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, top, ha, lam, den, start, d, hb, cell_top)
+    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, top, ha, lam, den, start, d, hb, cell_top,
+                                                           smooth=s.method == "delta-bullington")
     ok &= d >= 1.0  # a link needs ends 1 m apart (profiler.validation.MIN_PATH_M)
     dd = np.where(ok, d, 1.0)
     if s.method == "knife-edge":
