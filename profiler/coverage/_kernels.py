@@ -97,6 +97,7 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
     st_node = np.empty(128, dtype=np.int64)
     st_lo = np.empty(128, dtype=np.int64)
     st_hi = np.empty(128, dtype=np.int64)
+    st_bound = np.empty(128)
     for r in range(n_rad):
         built = False
         m = 0
@@ -197,44 +198,41 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                 k -= 1
             srim_out[c] = best
             rise = (hb - ha) / big_d
-            # The ray's clearance at every hull vertex (no square root): the path is blocked where one is
-            # negative, and only those vertices can hold the smallest fraction and the largest v.
-            g_min = np.inf
+            # The ray's clearance at every hull vertex.  Vertices are ranked without a square root:
+            # gap / F1 = gap / sqrt(lam d1 d2 / D), so among blocking vertices (gap < 0) the smallest
+            # fraction (and the largest v = -sqrt(2) gap / F1) has the largest gap^2 / (d1 d2), and among
+            # clear ones the smallest has the smallest.  Only the chosen vertex is evaluated in full.
+            k_neg = -1
+            key_neg = -1.0
+            k_q = 0
+            key_pos = np.inf
             for k in range(m):
                 d1 = hx[k]
                 gap = ha + rise * d1 - (hy[k] + shear * d1)
                 gaps[k] = gap
-                if gap < g_min:
-                    g_min = gap
-            q_min = np.inf
-            v_max = -np.inf
-            if g_min < 0.0:
+                key = gap * gap / (d1 * (big_d - d1))
+                if gap < 0.0:
+                    if key > key_neg:
+                        key_neg = key
+                        k_neg = k
+                elif key < key_pos:
+                    key_pos = key
+                    k_q = k
+            if k_neg >= 0:
                 # Blocked: the vertices hold the minimum over every sample (module docstring).
-                for k in range(m):
-                    gap = gaps[k]
-                    if gap < 0.0:
-                        d1 = hx[k]
-                        d2 = big_d - d1
-                        q = gap / np.sqrt(lam * d1 * d2 / big_d)
-                        if q < q_min:
-                            q_min = q
-                        v = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
-                        if v > v_max:
-                            v_max = v
-                q_out[c] = q_min
-                v_out[c] = v_max
+                d1 = hx[k_neg]
+                d2 = big_d - d1
+                gap = gaps[k_neg]
+                q_out[c] = gap / np.sqrt(lam * d1 * d2 / big_d)
+                v_out[c] = -gap * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
                 continue
             # Clear: gap >= 0 is convex along the hull (a line minus a concave chain) and F1 concave, so
             # gap / F1 is quasi-convex along it: its smallest value over the chain lies on one of the two
             # edges beside the vertex with the smallest fraction, and no other edge can go below that vertex.
-            k_q = 0
-            for k in range(m):
+            for k in range(max(k_q - 1, 0), min(k_q + 2, m)):
                 d1 = hx[k]
-                q = gaps[k] / np.sqrt(lam * d1 * (big_d - d1) / big_d)
-                qs[k] = q
-                if q < q_min:
-                    q_min = q
-                    k_q = k
+                qs[k] = gaps[k] / np.sqrt(lam * d1 * (big_d - d1) / big_d)
+            q_min = qs[k_q]
             d1 = hx[k_q]
             d2 = big_d - d1
             v_max = -gaps[k_q] * np.sqrt(2.0 / lam * (1.0 / d1 + 1.0 / d2))
@@ -294,14 +292,15 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                     st_node[0] = 1
                     st_lo[0] = 0
                     st_hi[0] = n_leaf - 1
+                    st_bound[0] = -np.inf
                     sp = 1
                     while sp > 0:
                         sp -= 1
+                        if st_bound[sp] - 1e-9 >= q_min:  # the margin covers the rounding of the bound
+                            continue
                         node = st_node[sp]
                         nl = st_lo[sp]
                         nr = st_hi[sp]
-                        if nr < i0 or nl > i1:
-                            continue
                         if nl == nr:
                             z = surface[r, nl]
                             d1 = dist[nl]
@@ -314,26 +313,48 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                             if v > v_max:
                                 v_max = v
                             continue
-                        if i0 <= nl and nr <= i1:
-                            xa = dist[nl]
-                            xb = dist[nr]
-                            g_low = min(ha + slope * xa, ha + slope * xb) - tree[node]
-                            if g_low >= 0.0:
-                                xm = min(max(0.5 * big_d, xa), xb)
-                                bound = g_low / np.sqrt(lam * xm * (big_d - xm) / big_d)
-                            else:
-                                bound = g_low / min(np.sqrt(lam * xa * (big_d - xa) / big_d),
-                                                    np.sqrt(lam * xb * (big_d - xb) / big_d))
-                            if bound - 1e-9 >= q_min:  # the margin covers the rounding of the bound
-                                continue
                         mid = (nl + nr) // 2
-                        st_node[sp] = 2 * node + 1
-                        st_lo[sp] = mid + 1
-                        st_hi[sp] = nr
-                        st_node[sp + 1] = 2 * node
-                        st_lo[sp + 1] = nl
-                        st_hi[sp + 1] = mid
-                        sp += 2
+                        # Both halves' bounds; the lower is read first (pushed last).
+                        b_left = np.inf
+                        b_right = np.inf
+                        for half in range(2):
+                            cl = nl if half == 0 else mid + 1
+                            cr = mid if half == 0 else nr
+                            if cr < i0 or cl > i1:
+                                continue
+                            bound = -np.inf
+                            if i0 <= cl and cr <= i1:
+                                # gap >= al + be x over the half (its highest bulged height under the ray)
+                                al = ha - tree[2 * node + half]
+                                xa = dist[cl]
+                                xb = dist[cr]
+                                ga = al + slope * xa
+                                gb = al + slope * xb
+                                fa = np.sqrt(lam * xa * (big_d - xa) / big_d)
+                                fb = np.sqrt(lam * xb * (big_d - xb) / big_d)
+                                if ga > 0.0 and gb > 0.0:
+                                    bound = min(ga / fa, gb / fb)
+                                    den_x = slope * big_d + 2.0 * al
+                                    if den_x != 0.0:
+                                        xs = al * big_d / den_x
+                                        if xa < xs < xb:
+                                            bound = min(bound, (al + slope * xs) / np.sqrt(lam * xs * (big_d - xs) / big_d))
+                                else:
+                                    bound = min(ga, gb) / min(fa, fb)
+                            if half == 0:
+                                b_left = bound
+                            else:
+                                b_right = bound
+                        for t in range(2):
+                            half = 0 if (b_left >= b_right) == (t == 0) else 1
+                            bound = b_left if half == 0 else b_right
+                            if bound == np.inf or bound - 1e-9 >= q_min:
+                                continue
+                            st_node[sp] = 2 * node + half
+                            st_lo[sp] = nl if half == 0 else mid + 1
+                            st_hi[sp] = mid if half == 0 else nr
+                            st_bound[sp] = bound
+                            sp += 1
             q_out[c] = q_min
             v_out[c] = v_max
     return q_out, v_out, stim_out, srim_out, los_out, ok_out, hst_out, hsr_out
