@@ -159,11 +159,17 @@ def _sweep(dist, surface, ha, lam, den, start, cell_d, cell_hb, cell_hr, exact_b
                 hsr = (v2 - v1 * big_d) / (big_d * big_d)
                 if m2 > 0:
                     slope_tr = (hb - ha) / big_d
-                    hobs = -np.inf
-                    for k in range(m2):
-                        o = ry_[k] - ha - slope_tr * rx_[k]
-                        if o > hobs:
-                            hobs = o
+                    # The highest obstacle over the straight line: a line's height above a concave chain is
+                    # largest at the vertex where the edge slopes fall below the line's slope (binary search).
+                    lo_k = 0
+                    hi_k = m2 - 1
+                    while lo_k < hi_k:
+                        mid_k = (lo_k + hi_k) // 2
+                        if ry_[mid_k + 1] - ry_[mid_k] > slope_tr * (rx_[mid_k + 1] - rx_[mid_k]):
+                            lo_k = mid_k + 1
+                        else:
+                            hi_k = mid_k
+                    hobs = ry_[lo_k] - ha - slope_tr * rx_[lo_k]
                     aobt = t_max - slope_tr
                     best_r = -np.inf
                     k = m2 - 1

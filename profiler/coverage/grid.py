@@ -114,8 +114,11 @@ def _unwrap(lon: np.ndarray, about: float | None) -> np.ndarray:
 
 
 def fold_lon(lon: np.ndarray) -> np.ndarray:
-    """Longitudes folded into -180..180 degrees."""
-    return np.mod(np.asarray(lon, dtype=float) + 180.0, 360.0) - 180.0
+    """Longitudes folded into -180..180 degrees (returned as they are when all already lie there)."""
+    lon = np.asarray(lon, dtype=float)
+    if lon.size and lon.min() >= -180.0 and lon.max() < 180.0:
+        return lon  # the usual case, far from the antimeridian: no rounding added
+    return np.mod(lon + 180.0, 360.0) - 180.0
 
 
 def hub_grid(lat_deg: float, lon_deg: float, radius_m: float, cell_m: float) -> Grid:
