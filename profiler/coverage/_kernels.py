@@ -20,33 +20,44 @@ own, not the sample's):
   the tangent from (D, hb) to the hull: scanned from the hull's far end while
   it grows (the slope is unimodal along a concave chain);
 * the worst F1 fraction q = min clearance / F1 and the largest v (ITU-R
-  P.526-15 eq. 26; v = -sqrt(2) q) start from the hull's vertices.  Where the
-  path is obstructed (q < 0 at a vertex) that is the minimum over every
-  sample: on a hull edge the clearance is linear and F1 concave, and a sample
-  under an edge has at least the edge's clearance, so it is never worse than
-  the worse end of the edge when the clearance there is negative (a ratio of a
-  linear to a concave positive function is quasi-convex).  Where the path is
-  clear, each hull edge gives a lower bound of q for the samples under it (the
-  smallest clearance / F1 along the edge, in closed form); a path whose bound
-  is under ``exact_below`` (1 F1) has the samples read under every edge whose
-  bound is below the best value found so far (branch and bound: exact); above
+  P.526-15 eq. 26; v = -sqrt(2) q) start from the hull's vertices, ranked
+  without a square root (gap / F1 orders as gap^2 / (d1 d2) for a given sign
+  of the gap); only the chosen vertex is evaluated in full.  Where the
+  path is obstructed (a vertex with negative clearance) that is the minimum
+  over every sample: on a hull edge the clearance is linear and F1 concave, and
+  a sample under an edge has at least the edge's clearance, so it is never
+  worse than the worse end of the edge when the clearance there is negative (a
+  ratio of a linear to a concave positive function is quasi-convex).  Where the
+  path is clear the clearance is convex along the hull (a line minus a concave
+  chain), so gap / F1 is quasi-convex along it and its smallest value lies on
+  one of the two edges beside the vertex with the smallest fraction (the
+  smallest clearance / F1 along an edge in closed form: a lower bound for the
+  samples under it); a path whose bound is under ``exact_below`` (1 F1) has
+  the samples under those edges read by branch and bound over a max-tree of
+  the radial's bulged heights (a range of samples is skipped when its highest
+  height bounds its fraction from below by the best value found: exact); above
   it the bound itself is reported, a lower bound (never more clearance than
   the samples have).
 
-For delta-Bullington the kernel also keeps the running sums v1, v2 of the
-smooth-surface fit and a second upper hull of the raw heights (no bulge), so
-each receiver gets the smooth-surface heights hstd, hsrd of ITU-R P.526-15
-section 4.5.2 (the highest obstacle over the straight line, and the largest
-obstacle slopes from each end, by the same running maximum and tangent scans).
+For delta-Bullington only (``smooth``) the kernel also keeps the running sums
+v1, v2 of the smooth-surface fit and a second upper hull of the raw heights
+(no bulge), so each receiver gets the smooth-surface heights hstd, hsrd of
+ITU-R P.526-15 section 4.5.2 (the highest obstacle over the straight line by a
+binary search on that hull, and the largest obstacle slopes from each end, by
+the same running maximum and tangent scans).
 
 Cost: O(radials x samples) for the sweep (each sample enters and leaves the
-hull once); per receiver, the hull vertices it reads (h: tens on real
-terrain, the whole radial only on a smooth convex surface) and, on a clear path
-that may lie under 1 F1, the samples under the few hull edges the bound keeps.
-Nothing else depends on the receiver's distance.  The compiled loop is
-registered with :func:`profiler._compiled.twin`; its twin is the same loop run
-by the interpreter (a sweep with a stack has no vectorised form), so both run
-the same arithmetic in the same order.  Pure functions, no I/O.
+hull once) and O(samples) per radial for its max-tree (built only when a
+marginal path needs it); per receiver, one pass over the hull vertices (h:
+tens on real terrain, the whole radial only on a smooth convex surface) with
+no square root, and, on a clear path that may lie under 1 F1, O(log samples)
+max-tree nodes for each sample range the bound cannot rule out.  Nothing else
+depends on the receiver's distance.  The compiled loops are registered with
+:func:`profiler._compiled.twin`; the sweep's twin is the same loop run by the
+interpreter (a sweep with a stack has no vectorised form), so both run the
+same arithmetic in the same order.  The module also holds the plan's two
+compiled steps: the bilinear lattice that places points (``lattice_interp``)
+and the order of cells by radial then distance (``cell_order``).  Pure functions, no I/O.
 """
 
 from __future__ import annotations
