@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ._kernels import lattice_interp
 
 __all__ = ["Grid", "Lattice", "LATTICE_TOLERANCE_M", "aeqd_crs", "raster_grid", "hub_grid", "fold_lon"]
 
@@ -101,8 +102,6 @@ class Lattice:
 
     def __call__(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Interpolated target coordinates of source points (bilinear in the lattice)."""
-        from ._kernels import lattice_interp
-
         return lattice_interp(x, y, self.x0, self.y0, self.dx, self.dy, self.u, self.v)
 
 
