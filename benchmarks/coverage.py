@@ -64,7 +64,8 @@ def main() -> None:
     from profiler.link_types import Settings, Site
     from profiler.terrain import ElevationModel
 
-    for name in ("coverage_sweep", "affine_gather", "diffraction_reductions", "clearance_reductions"):
+    for name in ("coverage_sweep", "coverage_lattice", "coverage_order", "affine_gather", "diffraction_reductions",
+                 "clearance_reductions"):
         t = TWINS[name]
         for a in t.warm_args((np.float32, np.float64)):
             t.compiled()(*a)

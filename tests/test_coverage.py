@@ -79,6 +79,50 @@ def test_sweep_equals_the_link_engine_reductions_on_the_radial_samples():
             assert 1.0 <= q[c] <= q_ref + 1e-9
 
 
+def test_sweep_fraction_is_exact_on_smooth_hills_with_many_marginal_clear_paths():
+    """Smooth relief (many hull vertices on the hill caps) and receivers just above the ground: the worst
+    F1 fraction of clear paths under 1 F1 equals the brute-force minimum over every sample (the max-tree
+    branch and bound and the two edges beside the closest vertex miss nothing), blocked paths too; the
+    smooth-surface terms off change nothing else."""
+    rng = np.random.default_rng(11)
+    n_rad, n_s, step = 6, 700, 15.0
+    dist = np.arange(n_s) * step
+    x = dist[None, :]
+    surface = np.zeros((n_rad, n_s)) + 100.0
+    for _ in range(6):
+        k, ph = rng.uniform(300.0, 3000.0, (n_rad, 1)), rng.uniform(0.0, 6.3, (n_rad, 1))
+        surface += rng.uniform(2.0, 25.0, (n_rad, 1)) * np.sin(2 * np.pi * x / k + ph)
+    per = np.full(n_rad, 120)
+    start = np.concatenate([[0], np.cumsum(per)]).astype(np.int64)
+    cell_d = np.concatenate([np.sort(rng.uniform(100.0, dist[-1] - 1.0, p)) for p in per])
+    rad = np.repeat(np.arange(n_rad), per)
+    ground = surface[rad, np.minimum(np.rint(cell_d / step).astype(int), n_s - 1)]
+    cell_hb = ground + rng.uniform(1.0, 60.0, rad.size)
+    ha, lam = surface[0, 0] + 40.0, 0.0517
+    out = sweep_radials(dist, surface, ha, lam, DEN, start, cell_d, cell_hb, ground)
+    plain = sweep_radials(dist, surface, ha, lam, DEN, start, cell_d, cell_hb, ground, smooth=False)
+    for a, b in zip(out[:6], plain[:6]):
+        assert np.array_equal(a, b, equal_nan=True)
+    assert np.isnan(plain[6]).all() and np.isnan(plain[7]).all()
+    q, v = out[0], out[1]
+    marginal = blocked = 0
+    for c in range(cell_d.size):
+        r, D, hb = rad[c], cell_d[c], cell_hb[c]
+        inner = dist[1:][dist[1:] < D]
+        z = surface[r, 1:1 + inner.size]
+        gap = ha + (hb - ha) * inner / D - (z + inner * (D - inner) / DEN)
+        fr = gap / np.sqrt(lam * inner * (D - inner) / D)
+        q_ref = np.min(fr)
+        if q_ref < 1.0:
+            assert q[c] == pytest.approx(q_ref, abs=1e-9)
+            assert v[c] == pytest.approx(-np.sqrt(2.0) * q_ref, abs=1e-9)
+            marginal += q_ref >= 0.0
+            blocked += q_ref < 0.0
+        else:
+            assert 1.0 <= q[c] <= q_ref + 1e-9
+    assert marginal >= 30 and blocked >= 30  # both branches were exercised
+
+
 # --------------------------------------------------------------------------- geometry checks
 
 

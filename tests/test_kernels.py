@@ -29,7 +29,8 @@ def _same(ref, got, where: str) -> None:
 
 def test_the_registry_holds_every_kernel():
     assert set(kernels.TWINS) == {"hermite", "affine_gather", "clearance_reductions", "diffraction_reductions",
-                                  "confidence_draws", "summit_dips", "coverage_sweep"}
+                                  "confidence_draws", "summit_dips", "coverage_sweep",
+                                  "coverage_lattice", "coverage_order"}
 
 
 @pytest.mark.parametrize("name", sorted(kernels.TWINS))

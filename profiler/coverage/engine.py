@@ -35,7 +35,7 @@ from ..losses.bullington import bullington_from
 from ..losses.free_space import free_space_loss_db
 from ..losses.knife_edge import knife_edge_loss_db
 from ..units import EARTH_RADIUS_M, wavelength_m
-from ._kernels import sweep_radials
+from ._kernels import cell_order, sweep_radials
 from .grid import Grid, Lattice, aeqd_crs, fold_lon, hub_grid, raster_grid
 
 __all__ = ["Hub", "Sector", "CoverageSettings", "CoveragePlan", "BANDS", "COVERAGE_METHODS", "plan_coverage",
@@ -243,9 +243,7 @@ def plan_coverage(model: Any, hub: Hub, settings: CoverageSettings, candidates: 
     n_radials = max(int(math.ceil(2.0 * math.pi * radius / max(finest, 1e-3))), 8)
     az = np.mod(np.arctan2(x, y), 2.0 * np.pi)
     radial = np.mod(np.rint(az / (2.0 * np.pi / n_radials)).astype(np.int64), n_radials)
-    order = np.lexsort((d, radial))
-    counts = np.bincount(radial, minlength=n_radials)
-    start = np.concatenate([[0], np.cumsum(counts)]).astype(np.int64)
+    order, start = cell_order(radial, d, n_radials)
     return CoveragePlan(
         hub=hub, settings=settings, hub_ground_m=hub_ground, grid=grid, overruns=overruns, spacing_m=spacing,
         n_samples=n_samples, n_radials=n_radials, to_lonlat=to_lonlat,
@@ -309,7 +307,8 @@ def evaluate_block(model: Any, plan: CoveragePlan, surface: Any = None) -> dict[
     den = 2.0 * s.k * EARTH_RADIUS_M
     d = plan.cell_d[c0:c1]
     start = plan.radial_start
-    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, top, ha, lam, den, start, d, hb, cell_top)
+    q, v, stim, srim, los, ok, hstd, hsrd = sweep_radials(dist, top, ha, lam, den, start, d, hb, cell_top,
+                                                           smooth=s.method == "delta-bullington")
     ok &= d >= 1.0  # a link needs ends 1 m apart (profiler.validation.MIN_PATH_M)
     dd = np.where(ok, d, 1.0)
     if s.method == "knife-edge":

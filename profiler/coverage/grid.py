@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ._kernels import lattice_interp
 
 __all__ = ["Grid", "Lattice", "LATTICE_TOLERANCE_M", "aeqd_crs", "raster_grid", "hub_grid", "fold_lon"]
 
@@ -101,21 +102,7 @@ class Lattice:
 
     def __call__(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Interpolated target coordinates of source points (bilinear in the lattice)."""
-        fx = (np.asarray(x, dtype=float) - self.x0) / self.dx
-        fy = (np.asarray(y, dtype=float) - self.y0) / self.dy
-        ny, nx = self.u.shape
-        i = np.clip(np.floor(fx).astype(np.int64), 0, max(nx - 2, 0))
-        j = np.clip(np.floor(fy).astype(np.int64), 0, max(ny - 2, 0))
-        tx = fx - i
-        ty = fy - j
-        i1 = np.minimum(i + 1, nx - 1)
-        j1 = np.minimum(j + 1, ny - 1)
-        out = []
-        for g in (self.u, self.v):
-            top = g[j, i] * (1.0 - tx) + g[j, i1] * tx
-            bot = g[j1, i] * (1.0 - tx) + g[j1, i1] * tx
-            out.append(top * (1.0 - ty) + bot * ty)
-        return out[0], out[1]
+        return lattice_interp(x, y, self.x0, self.y0, self.dx, self.dy, self.u, self.v)
 
 
 def _unwrap(lon: np.ndarray, about: float | None) -> np.ndarray:
@@ -126,8 +113,11 @@ def _unwrap(lon: np.ndarray, about: float | None) -> np.ndarray:
 
 
 def fold_lon(lon: np.ndarray) -> np.ndarray:
-    """Longitudes folded into -180..180 degrees."""
-    return np.mod(np.asarray(lon, dtype=float) + 180.0, 360.0) - 180.0
+    """Longitudes folded into -180..180 degrees (returned as they are when all already lie there)."""
+    lon = np.asarray(lon, dtype=float)
+    if lon.size and lon.min() >= -180.0 and lon.max() < 180.0:
+        return lon  # the usual case, far from the antimeridian: no rounding added
+    return np.mod(lon + 180.0, 360.0) - 180.0
 
 
 def hub_grid(lat_deg: float, lon_deg: float, radius_m: float, cell_m: float) -> Grid:
