@@ -75,3 +75,17 @@ def test_confidence_of_a_batch_equals_that_of_each_link_alone(grazing):
                                 placements_b=None if grazing.placements_b is None else grazing.placements_b * 3)
     many = confidence_for_batch(three, s, diffraction=False)
     assert np.all(many.p_meets == alone.p_meets[0]) and np.all(many.p_los == alone.p_los[0])
+
+
+def test_an_elevation_error_the_raster_did_not_state_is_marked_assumed_on_the_sheet(grazing):
+    from profiler.sheets.confidence import confidence_rows
+
+    # The demo raster states no accuracy: the 3 m default stands in for it, and the sheet says so.
+    rec = grazing.record(0)
+    row = next(r for r in confidence_rows(rec) if r[0] == "Elevation error (1 sigma)")
+    assert row[1] == "3 m (assumed)"
+    given = resolve_link_job(str(EXAMPLES / "demo-2-grazing.toml"), {"draws": "200", "dem_error_m": "2"})
+    with open_job_data(given) as (model, surroundings):
+        rec2 = analyse_job(given, model, surroundings).record(0)
+    row2 = next(r for r in confidence_rows(rec2) if r[0] == "Elevation error (1 sigma)")
+    assert row2[1] == "2 m"

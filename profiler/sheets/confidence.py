@@ -59,7 +59,10 @@ def confidence_rows(record: dict) -> list[tuple]:
             flag="good" if c["p_meets_criterion"] >= 0.9 else "bad"),
         Row("P(line of sight)", f"{100 * c['p_line_of_sight']:.1f} %", None),
         Row("Worst clearance 5/95 %", f"{q['p5']:+.2f} / {q['p95']:+.2f} F1", None),
-        Row("Elevation error (1 sigma)", f"{dem['sigma_m']:.2g} m", f"corr. {corr_text}"),
+        # A sigma the raster did not state is a default standing in for a real input: say so on the sheet.
+        Row("Elevation error (1 sigma)",
+            f"{dem['sigma_m']:.2g} m" + (" (assumed)" if str(dem.get("source", "")).startswith("assumed") else ""),
+            f"corr. {corr_text}"),
     ]
 
 
