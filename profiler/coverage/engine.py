@@ -47,7 +47,8 @@ COVERAGE_METHODS = ("delta-bullington", "bullington", "knife-edge")
 
 #: Bands of the output: (name, unit, description).  ``step`` only with a radio profile.
 BANDS = (
-    ("f1_fraction", "1", "worst clearance as a fraction of the first Fresnel radius, design k"),
+    ("f1_fraction", "1", "worst clearance as a fraction of the first Fresnel radius, design k "
+                         "(exact below 1; 1 and above a lower bound)"),
     ("line_of_sight", "1", "1 where the ray from the hub clears the ground, 0 where blocked"),
     ("diffraction_db", "dB", "diffraction loss by the chosen method, design k"),
     ("rx_level_dbm", "dBm", "received level"),
