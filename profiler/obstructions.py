@@ -50,20 +50,13 @@ from .obstruction_layers import (
     parse_layer_spec,
     read_obstruction_layer,
 )
+from .obstruction_layers import __all__ as _LAYER_NAMES
 from .profile import Profiles, nodata_problem, path_spacings_m
 from .terrain import ElevationModel
 from .vertical import raster_datum
 
 __all__ = [
-    "KIND_CODES",
-    "DEFAULT_HEIGHT_FIELDS",
-    "DEFAULT_TOP_FIELDS",
-    "MAX_HEIGHT_ABOVE_GROUND_M",
-    "LayerSpec",
-    "parse_layer_spec",
-    "normalise_kind",
-    "ObstructionLayer",
-    "read_obstruction_layer",
+    *_LAYER_NAMES,  # re-exported: the layer names keep their old import path
     "Surroundings",
     "Crossings",
     "find_crossings",
